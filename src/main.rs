@@ -1,0 +1,2 @@
+//! The `broodcast` command line.
+fn main() {}
