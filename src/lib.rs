@@ -11,4 +11,6 @@ pub mod allocate;
 pub mod arcs;
 pub mod dispatch;
 pub mod eligibility;
+pub mod geodesy;
 pub mod scenario;
+pub mod travel;

@@ -9,6 +9,8 @@
 //! position in that list ([`SiteIdx`]) and to a facility by its position in
 //! `Scenario::facilities` ([`FacilityIdx`]).
 
+#[doc(hidden)]
+pub mod fixture;
 mod load;
 mod problems;
 

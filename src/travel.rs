@@ -1,0 +1,104 @@
+//! The travel model: drive minutes between facilities and sites.
+//!
+//! Minutes = geodesic distance × `circuity` ÷ `speed_kmh`, unless the user travel-time matrix
+//! (`travel.matrix`) has both ends, in which case its value is used as given.
+
+use std::collections::HashMap;
+
+use crate::geodesy;
+use crate::scenario::{FacilityIdx, LonLat, Scenario, SiteIdx};
+
+/// A place a vehicle drives between.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Place {
+    /// A facility (depot).
+    Facility(FacilityIdx),
+    /// A site's stop location.
+    Site(SiteIdx),
+}
+
+/// Drive times between places, minutes.
+pub trait TravelTimes {
+    /// Drive minutes from `from` to `to` (finite, ≥ 0; 0 from a place to itself).
+    fn minutes(&self, from: Place, to: Place) -> f64;
+}
+
+/// The scenario's travel model.
+#[derive(Clone, Debug)]
+pub struct TravelModel {
+    facilities: Vec<LonLat>,
+    sites: Vec<LonLat>,
+    /// Road km per geodesic km.
+    circuity: f64,
+    /// km/h.
+    speed_kmh: f64,
+    /// Matrix row/column of each facility and site, when the matrix lists it.
+    facility_slot: Vec<Option<usize>>,
+    site_slot: Vec<Option<usize>>,
+    matrix: Vec<Vec<f64>>,
+}
+
+impl TravelModel {
+    /// Builds the model for `scenario`.
+    pub fn new(scenario: &Scenario) -> Self {
+        let (slot_of, matrix) = match &scenario.travel.matrix {
+            Some(m) => (
+                m.ids
+                    .iter()
+                    .enumerate()
+                    .map(|(i, id)| (id.as_str(), i))
+                    .collect::<HashMap<_, _>>(),
+                m.minutes.clone(),
+            ),
+            None => (HashMap::new(), Vec::new()),
+        };
+        TravelModel {
+            facilities: scenario.facilities.iter().map(|f| f.location).collect(),
+            sites: scenario.sites.iter().map(|s| s.location).collect(),
+            circuity: scenario.travel.circuity,
+            speed_kmh: scenario.travel.speed_kmh,
+            facility_slot: scenario
+                .facilities
+                .iter()
+                .map(|f| slot_of.get(f.id.as_str()).copied())
+                .collect(),
+            site_slot: scenario
+                .sites
+                .iter()
+                .map(|s| slot_of.get(s.id.as_str()).copied())
+                .collect(),
+            matrix,
+        }
+    }
+
+    fn location(&self, p: Place) -> LonLat {
+        match p {
+            Place::Facility(i) => self.facilities[i],
+            Place::Site(i) => self.sites[i],
+        }
+    }
+
+    fn slot(&self, p: Place) -> Option<usize> {
+        match p {
+            Place::Facility(i) => self.facility_slot[i],
+            Place::Site(i) => self.site_slot[i],
+        }
+    }
+
+    /// Road distance estimate, km (geodesic × circuity), whatever the matrix says.
+    pub fn road_km(&self, from: Place, to: Place) -> f64 {
+        geodesy::distance_m(self.location(from), self.location(to)) / 1000.0 * self.circuity
+    }
+}
+
+impl TravelTimes for TravelModel {
+    fn minutes(&self, from: Place, to: Place) -> f64 {
+        if from == to {
+            return 0.0;
+        }
+        if let (Some(i), Some(j)) = (self.slot(from), self.slot(to)) {
+            return self.matrix[i][j];
+        }
+        self.road_km(from, to) / self.speed_kmh * 60.0
+    }
+}
