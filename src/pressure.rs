@@ -22,9 +22,7 @@ use rstar::primitives::GeomWithData;
 use thiserror::Error;
 
 use crate::geodesy;
-use crate::scenario::{
-    Flush, LonLat, Management, Scenario, ScoutKind, ScoutPoint, SiteDetail, SiteIdx,
-};
+use crate::scenario::{Flush, LonLat, Management, Scenario, ScoutKind, ScoutPoint, SiteDetail};
 
 /// WGS 84 semi-major axis, metres.
 const WGS84_A_M: f64 = 6_378_137.0;
@@ -161,7 +159,7 @@ pub struct SitePriority {
     pub priority: f64,
 }
 
-/// Pressure and priority of every site, indexed by [`SiteIdx`].
+/// Pressure and priority of every site, indexed by [`SiteIdx`](crate::scenario::SiteIdx).
 ///
 /// Parameters should pass [`PressureParams::check`]; whatever they are, results are clamped
 /// to finite values ≥ 0 so that the LP never sees NaN.
@@ -315,6 +313,7 @@ fn ecef_m(p: LonLat) -> [f64; 3] {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::scenario::SiteIdx;
     use crate::scenario::fixture::tiny;
 
     fn idx(s: &Scenario, id: &str) -> SiteIdx {
