@@ -443,13 +443,7 @@ mod tests {
         arcs.arcs.iter().filter(|a| a.site == site).collect()
     }
 
-    fn find<'a>(
-        arcs: &'a Arcs,
-        f: usize,
-        site: SiteIdx,
-        p: NaiveDate,
-        d: NaiveDate,
-    ) -> Option<&'a Arc> {
+    fn find(arcs: &Arcs, f: usize, site: SiteIdx, p: NaiveDate, d: NaiveDate) -> Option<&Arc> {
         arcs.arcs
             .iter()
             .find(|a| a.facility == f && a.site == site && a.pack_date == p && a.dispatch_date == d)

@@ -15,7 +15,7 @@
 //! distance is ≤ r, at any latitude, across the antimeridian and at the poles. An
 //! equirectangular plane needs a latitude-dependent pad and breaks at ±180°; this needs none.
 //! The ball only narrows candidates: each one is then measured with
-//! [`geodesy::distance_m`](crate::geodesy::distance_m) and kept when that distance ≤ r.
+//! [`geodesy::distance_m`] and kept when that distance ≤ r.
 
 use rstar::RTree;
 use rstar::primitives::GeomWithData;
