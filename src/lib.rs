@@ -9,8 +9,10 @@
 
 pub mod allocate;
 pub mod arcs;
+pub mod demo;
 pub mod dispatch;
 pub mod eligibility;
+pub mod generate;
 pub mod geodesy;
 pub mod pressure;
 pub mod scenario;
