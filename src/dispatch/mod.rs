@@ -89,3 +89,9 @@ pub struct Dispatch {
     /// Shipments that could not be placed on any route or parcel.
     pub undeliverable: Vec<Undeliverable>,
 }
+
+mod build;
+pub mod tsp;
+pub mod vrptw;
+
+pub use build::{DispatchOptions, dispatch, dispatch_with};

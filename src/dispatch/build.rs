@@ -1,0 +1,444 @@
+//! From an allocation to routes and parcels: one VRPTW per (depot, dispatch day), solved by
+//! [`super::vrptw::solve`], and the parcel batches checked against the carrier's days, the
+//! daily parcel cap and the vials' release-by times.
+
+use std::collections::BTreeMap;
+use std::time::Duration;
+
+use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime};
+
+use super::vrptw::{self, Customer, Instance, SolveOptions, VehicleSpec};
+use super::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
+use crate::allocate::Allocation;
+use crate::arcs::Mode;
+use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
+use crate::travel::{Place, TravelTimes};
+
+/// Route-search settings for [`dispatch_with`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct DispatchOptions {
+    /// Base seed; each depot-day mixes in its depot and date.
+    pub seed: u64,
+    /// Wall-clock budget per depot-day; `None` for the iteration cap only. A binding limit
+    /// makes routes depend on the machine's speed.
+    pub time_limit: Option<Duration>,
+    /// Most perturbation rounds per depot-day.
+    pub max_iterations: u32,
+}
+
+impl DispatchOptions {
+    /// `dispatch.seed` and `dispatch.time_limit_seconds` from the scenario, 3,000 rounds.
+    pub fn from_scenario(scenario: &Scenario) -> Self {
+        let secs = scenario.dispatch.time_limit_seconds;
+        DispatchOptions {
+            seed: scenario.dispatch.seed,
+            time_limit: (secs.is_finite() && secs > 0.0)
+                .then(|| Duration::from_secs_f64(secs.min(86_400.0))),
+            max_iterations: SolveOptions::default().max_iterations,
+        }
+    }
+}
+
+/// Routes and parcels for `allocation`, with the scenario's search settings
+/// ([`DispatchOptions::from_scenario`]). See [`dispatch_with`].
+pub fn dispatch(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+) -> Dispatch {
+    dispatch_with(
+        scenario,
+        allocation,
+        travel,
+        &DispatchOptions::from_scenario(scenario),
+    )
+}
+
+/// Routes and parcels for `allocation`.
+///
+/// Route shipments are grouped by (facility, dispatch date); shipments to the same site that
+/// day become one visit (their vials add up, the earliest release-by is the deadline) written
+/// as consecutive [`Stop`]s with the same times. Each group is one VRPTW over the depot's
+/// vehicles running that day: capacity in vials, departure at shift start, return by shift
+/// end, service start inside the block's access hours or the dooryard window and no later than
+/// release-by. Visits no route can take are [`Undeliverable`] with the solver's reason.
+/// Parcel shipments are handed over at `parcel.ship_time` on the dispatch date and must fall on
+/// a parcel day (`window` otherwise), fit the daily cap over all facilities (`capacity`,
+/// filled earliest release-by first) and arrive by release-by (`deadline`).
+///
+/// Cost: one [`vrptw::solve`] per depot-day plus O(p log p) for p parcels. Deterministic for
+/// the same inputs unless `opts.time_limit` binds.
+pub fn dispatch_with(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+    opts: &DispatchOptions,
+) -> Dispatch {
+    let mut out = Dispatch::default();
+    let mut groups: BTreeMap<(FacilityIdx, NaiveDate), BTreeMap<SiteIdx, Vec<usize>>> =
+        BTreeMap::new();
+    let mut parcels: Vec<usize> = Vec::new();
+    for (i, sh) in allocation.shipments.iter().enumerate() {
+        match sh.arc.mode {
+            Mode::Route => groups
+                .entry((sh.arc.facility, sh.arc.dispatch_date))
+                .or_default()
+                .entry(sh.arc.site)
+                .or_default()
+                .push(i),
+            Mode::Parcel => parcels.push(i),
+        }
+    }
+    for ((facility, date), visits) in &groups {
+        route_depot_day(
+            scenario, allocation, travel, opts, *facility, *date, visits, &mut out,
+        );
+    }
+    dispatch_parcels(scenario, allocation, &parcels, &mut out);
+    out.routes.sort_by(|a, b| {
+        (a.date, a.depot, route_number(&a.id)).cmp(&(b.date, b.depot, route_number(&b.id)))
+    });
+    out.parcels.sort_by_key(|p| (p.ship_at, p.site, p.shipment));
+    out.undeliverable.sort_by_key(|u| u.shipment);
+    out
+}
+
+/// The trailing `<n>` of a route id, so route 10 sorts after route 9.
+fn route_number(id: &str) -> u64 {
+    id.rsplit('-')
+        .next()
+        .and_then(|n| n.parse().ok())
+        .unwrap_or(0)
+}
+
+fn minutes_since(base: NaiveDateTime, t: NaiveDateTime) -> f64 {
+    (t - base).num_milliseconds() as f64 / 60_000.0
+}
+
+fn at_minutes(base: NaiveDateTime, minutes: f64) -> NaiveDateTime {
+    // Clamp keeps the conversion total for absurd inputs (a year either way).
+    let ms = (minutes.clamp(-525_600.0, 525_600.0) * 60_000.0).round() as i64;
+    base + chrono::Duration::milliseconds(ms)
+}
+
+fn hours_between(from: NaiveDateTime, to: NaiveDateTime) -> f64 {
+    (to - from).num_milliseconds() as f64 / 3_600_000.0
+}
+
+#[expect(
+    clippy::too_many_arguments,
+    reason = "one depot-day needs the scenario, the plan, travel, settings, its key, its visits and the output"
+)]
+fn route_depot_day(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+    opts: &DispatchOptions,
+    facility: FacilityIdx,
+    date: NaiveDate,
+    visits: &BTreeMap<SiteIdx, Vec<usize>>,
+    out: &mut Dispatch,
+) {
+    let base = date.and_time(NaiveTime::MIN);
+    let settings = &scenario.dispatch;
+    let visit_list: Vec<(SiteIdx, &Vec<usize>)> = visits.iter().map(|(s, v)| (*s, v)).collect();
+    let customers: Vec<Customer> = visit_list
+        .iter()
+        .map(|(site, ships)| {
+            let s = &scenario.sites[*site];
+            let (service, open, close) = match s.as_block() {
+                Some(b) => (settings.service_minutes_block, b.access_start, b.access_end),
+                None => (
+                    settings.service_minutes_dooryard,
+                    settings.dooryard_window_start,
+                    settings.dooryard_window_end,
+                ),
+            };
+            let deadline = ships
+                .iter()
+                .map(|&i| minutes_since(base, allocation.shipments[i].arc.release_by))
+                .fold(f64::INFINITY, f64::min);
+            Customer {
+                demand_vials: ships
+                    .iter()
+                    .map(|&i| allocation.shipments[i].vials)
+                    .fold(0u32, u32::saturating_add),
+                service_minutes: service,
+                earliest: minutes_since(base, date.and_time(open)),
+                latest: minutes_since(base, date.and_time(close)),
+                deadline,
+            }
+        })
+        .collect();
+    let fleet: Vec<usize> = scenario
+        .fleet
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.depot == facility && v.runs_on(date))
+        .map(|(i, _)| i)
+        .collect();
+    let vehicles: Vec<VehicleSpec> = fleet
+        .iter()
+        .map(|&i| {
+            let v = &scenario.fleet[i];
+            let (start, end) = v.shift_on(date);
+            VehicleSpec {
+                capacity_vials: v.capacity_vials,
+                start: minutes_since(base, start),
+                latest_return: minutes_since(base, end),
+            }
+        })
+        .collect();
+    let places: Vec<Place> = std::iter::once(Place::Facility(facility))
+        .chain(visit_list.iter().map(|(s, _)| Place::Site(*s)))
+        .collect();
+    let minutes: Vec<Vec<f64>> = places
+        .iter()
+        .map(|&a| places.iter().map(|&b| travel.minutes(a, b)).collect())
+        .collect();
+    let inst = Instance {
+        customers,
+        minutes,
+        vehicles,
+    };
+    let seed = opts.seed
+        ^ (facility as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        ^ (date.num_days_from_ce() as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    let sol = vrptw::solve(
+        &inst,
+        &SolveOptions {
+            seed,
+            time_limit: opts.time_limit,
+            max_iterations: opts.max_iterations,
+            ..SolveOptions::default()
+        },
+    );
+    let depot_id = &scenario.facilities[facility].id;
+    let pack_time = scenario.agent.pack_time;
+    let wasps_per_vial = f64::from(scenario.facilities[facility].wasps_per_vial);
+    for (n, plan) in sol.routes.iter().enumerate() {
+        let mut stops = Vec::new();
+        for (k, &node) in plan.customers.iter().enumerate() {
+            let (site, ships) = visit_list[node - 1];
+            let arrival = at_minutes(base, plan.arrival[k]);
+            let service_start = at_minutes(base, plan.service_start[k]);
+            for &i in ships {
+                let sh = &allocation.shipments[i];
+                let packed = sh.arc.pack_date.and_time(pack_time);
+                let alive = scenario
+                    .agent
+                    .survival_at(hours_between(packed, service_start));
+                stops.push(Stop {
+                    shipment: i,
+                    site,
+                    arrival,
+                    service_start,
+                    vials: sh.vials,
+                    wasps_expected_alive: wasps_per_vial * alive * f64::from(sh.vials),
+                    release_by: sh.arc.release_by,
+                });
+            }
+        }
+        out.routes.push(Route {
+            id: format!("R-{}-{}-{}", depot_id, date.format("%Y%m%d"), n + 1),
+            vehicle: fleet[plan.vehicle],
+            depot: facility,
+            date,
+            depart: at_minutes(base, plan.depart),
+            return_at: at_minutes(base, plan.return_at),
+            stops,
+            drive_minutes: plan.drive_minutes,
+        });
+    }
+    for &(node, why) in &sol.unserved {
+        for &i in visit_list[node - 1].1 {
+            out.undeliverable.push(Undeliverable {
+                shipment: i,
+                reason: why.as_str(),
+            });
+        }
+    }
+}
+
+fn dispatch_parcels(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    parcels: &[usize],
+    out: &mut Dispatch,
+) {
+    let p = &scenario.parcel;
+    let mut order: Vec<usize> = parcels.to_vec();
+    order.sort_by_key(|&i| {
+        let a = &allocation.shipments[i].arc;
+        (a.dispatch_date, a.release_by, a.site, i)
+    });
+    let transit =
+        chrono::Duration::milliseconds((p.transit_hours.clamp(0.0, 8_760.0) * 3_600_000.0) as i64);
+    let mut used: BTreeMap<NaiveDate, u32> = BTreeMap::new();
+    for i in order {
+        let sh = &allocation.shipments[i];
+        let a = &sh.arc;
+        let ship_at = a.dispatch_date.and_time(p.ship_time);
+        let eta = ship_at + transit;
+        let day_used = used.entry(a.dispatch_date).or_insert(0);
+        let reason = if !p.days.contains(&a.dispatch_date.weekday()) {
+            Some("window")
+        } else if eta > a.release_by {
+            Some("deadline")
+        } else if day_used.saturating_add(sh.vials) > p.max_vials_per_day {
+            Some("capacity")
+        } else {
+            None
+        };
+        if let Some(reason) = reason {
+            out.undeliverable.push(Undeliverable {
+                shipment: i,
+                reason,
+            });
+            continue;
+        }
+        *day_used += sh.vials;
+        let packed = a.pack_date.and_time(scenario.agent.pack_time);
+        let alive = scenario.agent.survival_at(hours_between(packed, eta));
+        let wasps_per_vial = f64::from(scenario.facilities[a.facility].wasps_per_vial);
+        out.parcels.push(ParcelShipment {
+            shipment: i,
+            site: a.site,
+            ship_at,
+            eta,
+            vials: sh.vials,
+            wasps_expected_alive: wasps_per_vial * alive * f64::from(sh.vials),
+            release_by: a.release_by,
+        });
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::allocate::Shipment;
+    use crate::arcs::Arc;
+    use crate::scenario::fixture::tiny;
+    use crate::travel::TravelModel;
+
+    fn ship(
+        s: &Scenario,
+        facility: usize,
+        day: u64,
+        site: &str,
+        mode: Mode,
+        vials: u32,
+    ) -> Shipment {
+        let date = s.week_start + chrono::Days::new(day);
+        let packed = date.and_time(s.agent.pack_time);
+        Shipment {
+            arc: Arc {
+                facility,
+                pack_date: date,
+                dispatch_date: date,
+                site: s.site_idx(site).expect("fixture site"),
+                mode,
+                eta: packed,
+                release_by: packed + chrono::Duration::hours(72),
+                survival: 1.0,
+                wasps_alive_per_vial: 100.0,
+                drive_minutes: 0.0,
+            },
+            vials,
+        }
+    }
+
+    fn allocation(shipments: Vec<Shipment>) -> Allocation {
+        Allocation {
+            shipments,
+            sites: Vec::new(),
+            lp_bound: 0.0,
+            objective: 0.0,
+            gap: 0.0,
+            marginal_value_per_vial: Vec::new(),
+            binding: Vec::new(),
+            notes: Vec::new(),
+        }
+    }
+
+    fn opts() -> DispatchOptions {
+        DispatchOptions {
+            seed: 1,
+            time_limit: None,
+            max_iterations: 100,
+        }
+    }
+
+    #[test]
+    fn same_site_same_day_is_one_visit_with_two_stops() {
+        let s = tiny();
+        let mut a = ship(&s, 0, 0, "B1", Mode::Route, 3);
+        let mut b = a.clone();
+        b.arc.pack_date = a.arc.pack_date - chrono::Days::new(1);
+        b.vials = 2;
+        a.arc.release_by -= chrono::Duration::hours(1);
+        let alloc = allocation(vec![a, b, ship(&s, 0, 0, "B2", Mode::Route, 4)]);
+        let d = dispatch_with(&s, &alloc, &TravelModel::new(&s), &opts());
+        assert_eq!(d.routes.len(), 1);
+        let r = &d.routes[0];
+        assert_eq!(r.id, "R-F1-20270301-1");
+        assert_eq!(r.vials(), 9);
+        let b1: Vec<&Stop> = r.stops.iter().filter(|st| st.site == 0).collect();
+        assert_eq!(b1.len(), 2);
+        assert_eq!(b1[0].service_start, b1[1].service_start);
+        // The older vial has aged a day more, so fewer wasps per vial are alive.
+        assert!(b1[1].wasps_expected_alive / 2.0 < b1[0].wasps_expected_alive / 3.0);
+    }
+
+    #[test]
+    fn no_vehicle_that_day_is_a_shift_problem_and_over_capacity_is_capacity() {
+        let s = tiny();
+        // F2's vehicle runs only Tuesday and Thursday; Monday has none.
+        let alloc = allocation(vec![
+            ship(&s, 1, 0, "B6", Mode::Route, 2),
+            ship(&s, 0, 1, "B1", Mode::Route, 25),
+        ]);
+        let d = dispatch_with(&s, &alloc, &TravelModel::new(&s), &opts());
+        assert!(d.routes.is_empty());
+        assert_eq!(
+            d.undeliverable,
+            vec![
+                Undeliverable {
+                    shipment: 0,
+                    reason: "shift"
+                },
+                Undeliverable {
+                    shipment: 1,
+                    reason: "capacity"
+                }
+            ]
+        );
+    }
+
+    #[test]
+    fn parcels_respect_days_cap_and_deadline() {
+        let s = tiny();
+        let mut late = ship(&s, 0, 0, "R3", Mode::Parcel, 1);
+        late.arc.release_by = late.arc.dispatch_date.and_time(s.parcel.ship_time);
+        let alloc = allocation(vec![
+            ship(&s, 0, 0, "R2", Mode::Parcel, 6),
+            ship(&s, 1, 0, "R3", Mode::Parcel, 6), // Monday cap 10 reached by the first
+            ship(&s, 0, 1, "R3", Mode::Parcel, 2), // Tuesday is no parcel day
+            late,
+        ]);
+        let d = dispatch_with(&s, &alloc, &TravelModel::new(&s), &opts());
+        assert_eq!(d.parcels.len(), 1);
+        let p = &d.parcels[0];
+        assert_eq!(p.shipment, 0);
+        assert_eq!(p.eta - p.ship_at, chrono::Duration::hours(24));
+        let reasons: Vec<(usize, &str)> = d
+            .undeliverable
+            .iter()
+            .map(|u| (u.shipment, u.reason))
+            .collect();
+        assert_eq!(
+            reasons,
+            vec![(1, "capacity"), (2, "window"), (3, "deadline")]
+        );
+    }
+}
