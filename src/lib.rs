@@ -12,5 +12,6 @@ pub mod arcs;
 pub mod dispatch;
 pub mod eligibility;
 pub mod geodesy;
+pub mod output;
 pub mod scenario;
 pub mod travel;
