@@ -15,5 +15,6 @@ pub mod eligibility;
 pub mod generate;
 pub mod geodesy;
 pub mod pressure;
+pub mod output;
 pub mod scenario;
 pub mod travel;

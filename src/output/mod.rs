@@ -1,0 +1,262 @@
+//! Outputs of `plan`: every file of the output contract in DESIGN.md, rendered to bytes, and
+//! an atomic directory writer so that a folder is never left half-written.
+//!
+//! [`render_all`] turns a [`PlanView`] into `(file name, bytes)` pairs; [`write_dir_atomically`]
+//! puts them on disk. Rendering is deterministic: floats are written with fixed decimals, rows
+//! are sorted, maps are `BTreeMap`s, and no clock or random source is read.
+//!
+//! Personal data: the only output that carries a request's street address is
+//! `route-sheets.html` (the driver and dispatcher need it). Analyst outputs (`manifest.*`,
+//! `allocation.csv`, `summary.json`, `plan.geojson`, `report.html`) carry ids and coordinates
+//! only. The scenario never holds names, phones or e-mails.
+
+mod allocation_csv;
+mod atomic;
+#[doc(hidden)]
+pub mod fixture;
+mod geojson;
+mod manifest;
+mod report;
+mod route_sheets;
+mod summary;
+mod svg;
+
+use std::collections::BTreeMap;
+
+use chrono::{NaiveDate, NaiveDateTime};
+
+use crate::allocate::Allocation;
+use crate::arcs::Mode;
+use crate::dispatch::Dispatch;
+use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
+
+pub use atomic::{write_dir_atomically, write_file_atomically};
+pub use manifest::ManifestRow;
+
+/// Everything the outputs are rendered from: the validated scenario and the results of the
+/// later stages. Borrowed, never modified.
+#[derive(Clone, Copy, Debug)]
+pub struct PlanView<'a> {
+    /// The validated inputs.
+    pub scenario: &'a Scenario,
+    /// Site priority, indexed by `SiteIdx` (≥ 0, unitless weight).
+    pub priority: &'a [f64],
+    /// The whole-vial allocation.
+    pub allocation: &'a Allocation,
+    /// Routes and parcels that deliver the allocation.
+    pub dispatch: &'a Dispatch,
+    /// Lines saying what the route feedback moved and why (plain text).
+    pub moved: &'a [String],
+}
+
+/// Why the outputs could not be rendered.
+#[derive(Debug, thiserror::Error)]
+pub enum OutputError {
+    /// The view does not hang together (an index out of range); a bug in an earlier stage.
+    #[error("inconsistent plan: {0}")]
+    Inconsistent(String),
+    /// Writing CSV failed.
+    #[error("writing CSV: {0}")]
+    Csv(#[from] csv::Error),
+    /// Writing JSON failed.
+    #[error("writing JSON: {0}")]
+    Json(#[from] serde_json::Error),
+}
+
+/// File names of the output contract, in the order [`render_all`] returns them.
+pub const FILE_NAMES: [&str; 7] = [
+    "manifest.csv",
+    "manifest.json",
+    "allocation.csv",
+    "summary.json",
+    "route-sheets.html",
+    "plan.geojson",
+    "report.html",
+];
+
+/// The cautions shown at the foot of every route sheet and in the report (DESIGN.md,
+/// "Cautions the tool must show").
+pub const CAUTIONS: [&str; 4] = [
+    "Follow the release permits and local rules of your jurisdiction.",
+    "Do not enter a treated block before its re-entry interval ends.",
+    "Keep vials shaded and cool in transit; never leave them in a closed vehicle in the sun.",
+    "This plan is decision support: local extension and licensed pest-control practice decide.",
+];
+
+/// Renders every output file: `(file name, bytes)` in [`FILE_NAMES`] order.
+///
+/// Cost: O(S + R·k + P) for S sites, R routes of k stops and P parcels, plus sorting.
+///
+/// # Errors
+/// [`OutputError::Inconsistent`] when a stop, parcel or outcome points at a site, shipment,
+/// facility or vehicle that does not exist; CSV/JSON errors otherwise (not expected for
+/// in-memory writers).
+pub fn render_all(view: &PlanView) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
+    let plan = Delivered::build(view)?;
+    let files = vec![
+        ("manifest.csv", manifest::csv(&plan.rows)?),
+        ("manifest.json", manifest::json(view, &plan)?),
+        ("allocation.csv", allocation_csv::render(view, &plan)?),
+        ("summary.json", summary::render(view, &plan)?),
+        ("route-sheets.html", route_sheets::render(view, &plan)?),
+        ("plan.geojson", geojson::render(view, &plan)?),
+        ("report.html", report::render(view, &plan)?),
+    ];
+    Ok(files.into_iter().map(|(n, b)| (n.to_string(), b)).collect())
+}
+
+/// What actually gets delivered: the manifest rows and per-site totals, computed once and
+/// shared by every renderer so that all files agree.
+pub(crate) struct Delivered {
+    /// One row per delivered shipment, sorted by (dispatch date, mode, route, stop, site).
+    pub rows: Vec<ManifestRow>,
+    /// Per site (indexed by `SiteIdx`): delivered vials, wasps, facility ids and route ids.
+    pub per_site: Vec<SiteDelivery>,
+    /// Per (facility, pack date): delivered vials.
+    pub used_by_pack_day: BTreeMap<(FacilityIdx, NaiveDate), u64>,
+}
+
+/// Delivered totals for one site.
+#[derive(Clone, Debug, Default)]
+pub(crate) struct SiteDelivery {
+    /// Vials delivered.
+    pub vials: u64,
+    /// Expected live wasps at release.
+    pub wasps_expected_alive: f64,
+    /// Facility ids that sent them (sorted, unique).
+    pub facilities: Vec<String>,
+    /// Route ids that carried them (sorted, unique).
+    pub routes: Vec<String>,
+}
+
+impl Delivered {
+    fn build(view: &PlanView) -> Result<Self, OutputError> {
+        let rows = manifest::rows(view)?;
+        let sc = view.scenario;
+        let mut per_site = vec![SiteDelivery::default(); sc.sites.len()];
+        let mut used_by_pack_day = BTreeMap::new();
+        for r in &rows {
+            let d = per_site.get_mut(r.site).ok_or_else(|| bad_site(r.site))?;
+            d.vials += u64::from(r.vials);
+            d.wasps_expected_alive += r.wasps_expected_alive;
+            push_unique(&mut d.facilities, &r.facility_id);
+            if let Some(route) = &r.route_id {
+                push_unique(&mut d.routes, route);
+            }
+            *used_by_pack_day
+                .entry((r.facility, r.pack_date))
+                .or_insert(0) += u64::from(r.vials);
+        }
+        Ok(Delivered {
+            rows,
+            per_site,
+            used_by_pack_day,
+        })
+    }
+
+    /// Vials delivered, all rows.
+    pub fn shipped_vials(&self) -> u64 {
+        self.rows.iter().map(|r| u64::from(r.vials)).sum()
+    }
+
+    /// Expected live wasps delivered, all rows.
+    pub fn wasps_expected_alive(&self) -> f64 {
+        self.rows.iter().map(|r| r.wasps_expected_alive).sum()
+    }
+
+    /// Whether a site received at least one vial.
+    pub fn served(&self, site: SiteIdx) -> bool {
+        self.per_site.get(site).is_some_and(|d| d.vials > 0)
+    }
+
+    /// The reason code for a site that got nothing delivered (`None` when served).
+    pub fn reason(&self, view: &PlanView, site: SiteIdx) -> Option<&'static str> {
+        if self.served(site) {
+            return None;
+        }
+        let outcome = view.allocation.sites.get(site);
+        match outcome.and_then(|o| o.reason) {
+            Some(r) => Some(r.code()),
+            // Allocated but not on any route or parcel: the dispatch stage dropped it.
+            None => Some(crate::eligibility::Reason::Undeliverable.code()),
+        }
+    }
+}
+
+fn push_unique(v: &mut Vec<String>, s: &str) {
+    if let Err(pos) = v.binary_search_by(|x| x.as_str().cmp(s)) {
+        v.insert(pos, s.to_string());
+    }
+}
+
+pub(crate) fn bad_site(i: SiteIdx) -> OutputError {
+    OutputError::Inconsistent(format!("site index {i} is out of range"))
+}
+
+/// ISO 8601 local time to the minute, e.g. `2027-03-02T10:15`.
+pub(crate) fn iso_minutes(t: NaiveDateTime) -> String {
+    t.format("%Y-%m-%dT%H:%M").to_string()
+}
+
+/// Clock time `HH:MM`.
+pub(crate) fn hhmm(t: NaiveDateTime) -> String {
+    t.format("%H:%M").to_string()
+}
+
+/// Rounds to `decimals` places so that JSON writes a fixed, short number; non-finite → 0
+/// (outputs must never carry NaN or infinity, which JSON and GeoJSON cannot hold).
+pub(crate) fn round_to(x: f64, decimals: i32) -> f64 {
+    if !x.is_finite() {
+        return 0.0;
+    }
+    let k = 10f64.powi(decimals);
+    let r = (x * k).round() / k;
+    // Avoid "-0.0" in outputs.
+    if r == 0.0 { 0.0 } else { r }
+}
+
+/// Fixed-decimal text for CSV and HTML (`-0.00` written as `0.00`; non-finite as `0`).
+pub(crate) fn fixed(x: f64, decimals: usize) -> String {
+    let r = round_to(x, decimals as i32);
+    format!("{r:.decimals$}")
+}
+
+/// The `mode` of a row as written in outputs.
+pub(crate) fn mode_str(m: Mode) -> &'static str {
+    m.as_str()
+}
+
+/// HTML-escapes text for element content and quoted attribute values.
+pub(crate) fn esc(s: &str) -> String {
+    html_escape::encode_quoted_attribute(s).into_owned()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fixed_never_writes_negative_zero_or_nan() {
+        assert_eq!(fixed(-0.0001, 2), "0.00");
+        assert_eq!(fixed(f64::NAN, 1), "0.0");
+        assert_eq!(fixed(2.345, 1), "2.3");
+        assert_eq!(round_to(f64::INFINITY, 3), 0.0);
+    }
+
+    #[test]
+    fn esc_escapes_markup_and_quotes() {
+        assert_eq!(
+            esc("<a href=\"x\">&'"),
+            "&lt;a href=&quot;x&quot;&gt;&amp;&#x27;"
+        );
+    }
+
+    #[test]
+    fn render_all_returns_every_contract_file_in_order() {
+        let p = fixture::tiny_plan();
+        let files = render_all(&p.view()).expect("renders");
+        let names: Vec<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
+        assert_eq!(names, FILE_NAMES);
+        assert!(files.iter().all(|(_, b)| !b.is_empty()));
+    }
+}

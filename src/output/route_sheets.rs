@@ -1,0 +1,379 @@
+//! `route-sheets.html`: one printed page per route for the driver, and a parcel label list
+//! for the dispatcher. Print-ready (portrait A4 or Letter, `@page` margins, a page break
+//! before every sheet).
+//!
+//! This is the ONLY output that carries a request's street address: a driver needs it to find
+//! a dooryard, and the dispatcher needs it on parcel labels. Blocks are found by their block
+//! id and access point. Every value from the input is HTML-escaped.
+
+use std::fmt::Write;
+
+use chrono::{NaiveDate, NaiveDateTime};
+
+use super::svg::{Frame, f1};
+use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed, hhmm};
+use crate::dispatch::Route;
+use crate::scenario::{LonLat, Scenario, SiteDetail};
+
+/// Print stylesheet shared by the sheets. Sizes in mm and pt so the page prints the same on
+/// any screen.
+const CSS: &str = r#"
+@page { size: portrait; margin: 12mm; }
+* { box-sizing: border-box; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9.5pt; color: #000; margin: 0; }
+.sheet { break-before: page; }
+.sheet:first-of-type { break-before: auto; }
+h1 { font-size: 15pt; margin: 0 0 2mm 0; }
+h2 { font-size: 11pt; margin: 3mm 0 1mm 0; }
+table { border-collapse: collapse; width: 100%; }
+table.meta td { padding: 0.6mm 2mm 0.6mm 0; vertical-align: top; }
+table.meta td.k { color: #444; white-space: nowrap; }
+table.meta td.v { font-weight: bold; }
+table.stops th, table.stops td { border: 0.3mm solid #777; padding: 1mm 1.2mm; text-align: left; vertical-align: top; }
+table.stops th { background: #eee; font-size: 8.5pt; }
+table.stops tr { break-inside: avoid; }
+td.num { text-align: right; white-space: nowrap; }
+td.seq { font-weight: bold; text-align: center; width: 8mm; }
+td.find { font-size: 8.5pt; }
+td.tick { width: 9mm; text-align: center; }
+td.notes { width: 38mm; }
+.box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
+.map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
+.cautions { margin-top: 3mm; border-top: 0.4mm solid #000; padding-top: 1.5mm; font-size: 8pt; break-inside: avoid; }
+.cautions ul { margin: 0.5mm 0 0 4mm; padding: 0; }
+.muted { color: #555; }
+"#;
+
+/// Map canvas size, SVG user units (scaled to the sheet's width).
+const MAP_W: f64 = 680.0;
+const MAP_H: f64 = 330.0;
+
+pub(crate) fn render(view: &PlanView, _plan: &Delivered) -> Result<Vec<u8>, OutputError> {
+    let sc = view.scenario;
+    let mut h = String::new();
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}</title>\n<style>{CSS}</style>\n</head>\n<body>\n",
+        esc(&sc.name),
+        sc.week_start
+    );
+    if view.dispatch.routes.is_empty() && view.dispatch.parcels.is_empty() {
+        let _ = writeln!(
+            h,
+            "<section class=\"sheet\"><h1>No routes or parcels this week</h1>{}</section>",
+            cautions()
+        );
+    }
+    for route in &view.dispatch.routes {
+        sheet(&mut h, sc, route)?;
+    }
+    if !view.dispatch.parcels.is_empty() {
+        parcel_page(&mut h, view)?;
+    }
+    h.push_str("</body>\n</html>\n");
+    Ok(h.into_bytes())
+}
+
+fn cautions() -> String {
+    let mut s = String::from("<footer class=\"cautions\"><strong>Cautions</strong><ul>");
+    for c in CAUTIONS {
+        let _ = write!(s, "<li>{}</li>", esc(c));
+    }
+    s.push_str("</ul></footer>");
+    s
+}
+
+/// `Tue 2027-03-02`.
+fn day(d: NaiveDate) -> String {
+    d.format("%a %Y-%m-%d").to_string()
+}
+
+/// Time of day, with the weekday when it is not on `base` (release-by is often days later).
+fn time_on(t: NaiveDateTime, base: NaiveDate) -> String {
+    if t.date() == base {
+        hhmm(t)
+    } else {
+        t.format("%a %H:%M").to_string()
+    }
+}
+
+/// `1 h 05 min` from minutes.
+pub(crate) fn duration(minutes: f64) -> String {
+    let m = if minutes.is_finite() {
+        minutes.max(0.0).round() as u64
+    } else {
+        0
+    };
+    if m >= 60 {
+        format!("{} h {:02} min", m / 60, m % 60)
+    } else {
+        format!("{m} min")
+    }
+}
+
+fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
+    let depot = sc.facilities.get(r.depot).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: depot index {} is out of range",
+            r.id, r.depot
+        ))
+    })?;
+    let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: vehicle index {} is out of range",
+            r.id, r.vehicle
+        ))
+    })?;
+    let wasps: f64 = r.stops.iter().map(|s| s.wasps_expected_alive).sum();
+    let _ = write!(
+        h,
+        "<section class=\"sheet\">\n<h1>Route {id}</h1>\n<table class=\"meta\"><tr>\
+<td class=\"k\">Date</td><td class=\"v\">{date}</td>\
+<td class=\"k\">Vehicle</td><td class=\"v\">{veh}</td>\
+<td class=\"k\">Depot</td><td class=\"v\">{dname} ({did})</td></tr>\n<tr>\
+<td class=\"k\">Leave depot</td><td class=\"v\">{dep}</td>\
+<td class=\"k\">Back at depot</td><td class=\"v\">{ret}</td>\
+<td class=\"k\">Drive time</td><td class=\"v\">{drive}</td></tr>\n<tr>\
+<td class=\"k\">Stops</td><td class=\"v\">{n}</td>\
+<td class=\"k\">Vials on board</td><td class=\"v\">{vials}</td>\
+<td class=\"k\">Expected live wasps</td><td class=\"v\">{wasps}</td></tr></table>\n",
+        id = esc(&r.id),
+        date = day(r.date),
+        veh = esc(vehicle.id.as_str()),
+        dname = esc(&depot.name),
+        did = esc(depot.id.as_str()),
+        dep = time_on(r.depart, r.date),
+        ret = time_on(r.return_at, r.date),
+        drive = duration(r.drive_minutes),
+        n = r.stops.len(),
+        vials = r.vials(),
+        wasps = fixed(wasps, 0),
+    );
+    h.push_str(&route_map(sc, r, depot.location)?);
+    h.push_str(
+        "<table class=\"stops\"><thead><tr><th>#</th><th>Site</th><th>Kind</th>\
+<th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
+<th>Notes</th></tr></thead><tbody>\n",
+    );
+    for (i, st) in r.stops.iter().enumerate() {
+        let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
+        let find = match &site.detail {
+            SiteDetail::Dooryard(req) => format!(
+                "{}<br><span class=\"muted\">{}, {}</span>",
+                esc(&req.address),
+                fixed(site.location.lat, 6),
+                fixed(site.location.lon, 6)
+            ),
+            SiteDetail::Block(b) => format!(
+                "Block {} ({}, {} ha); access point {}, {}<br><span class=\"muted\">access {}–{}</span>",
+                esc(site.id.as_str()),
+                esc(&b.crop),
+                fixed(b.area_ha, 1),
+                fixed(site.location.lat, 6),
+                fixed(site.location.lon, 6),
+                b.access_start.format("%H:%M"),
+                b.access_end.format("%H:%M"),
+            ),
+        };
+        let arrive = if st.service_start > st.arrival {
+            format!(
+                "{}<br><span class=\"muted\">release from {}</span>",
+                time_on(st.arrival, r.date),
+                time_on(st.service_start, r.date)
+            )
+        } else {
+            time_on(st.arrival, r.date)
+        };
+        let _ = writeln!(
+            h,
+            "<tr><td class=\"seq\">{seq}</td><td>{id}</td><td>{kind}</td><td class=\"find\">{find}</td>\
+<td class=\"num\">{arrive}</td><td class=\"num\">{vials}</td><td class=\"num\">{by}</td>\
+<td class=\"tick\"><span class=\"box\"></span></td><td class=\"notes\"></td></tr>",
+            seq = i + 1,
+            id = esc(site.id.as_str()),
+            kind = site.kind().as_str(),
+            vials = st.vials,
+            by = time_on(st.release_by, r.date),
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    h.push_str(&cautions());
+    h.push_str("\n</section>\n");
+    Ok(())
+}
+
+/// The route's map: block outlines, the path depot → stops → depot, numbered stops, the
+/// depot square, scale bar and north arrow. O(k) in stops plus block vertices.
+fn route_map(sc: &Scenario, r: &Route, depot: LonLat) -> Result<String, OutputError> {
+    let mut pts = vec![depot];
+    for st in &r.stops {
+        pts.push(
+            sc.sites
+                .get(st.site)
+                .ok_or_else(|| bad_site(st.site))?
+                .location,
+        );
+    }
+    let frame = Frame::fit(&pts, MAP_W, MAP_H, 34.0, 1.0);
+    let mut s = String::new();
+    let _ = write!(
+        s,
+        "<svg class=\"map\" xmlns=\"http://www.w3.org/2000/svg\" viewBox=\"0 0 {w} {hh}\" role=\"img\" aria-label=\"Map of route {id}\">\
+<rect width=\"{w}\" height=\"{hh}\" fill=\"#fbfbf7\"/>",
+        w = MAP_W,
+        hh = MAP_H,
+        id = esc(&r.id)
+    );
+    for st in &r.stops {
+        if let Some(SiteDetail::Block(b)) = sc.sites.get(st.site).map(|s| &s.detail) {
+            for poly in &b.geometry.0 {
+                let d: Vec<String> = poly
+                    .exterior()
+                    .coords()
+                    .map(|c| {
+                        let (x, y) = frame.px(LonLat { lon: c.x, lat: c.y });
+                        format!("{},{}", f1(x), f1(y))
+                    })
+                    .collect();
+                let _ = write!(
+                    s,
+                    "<polygon points=\"{}\" fill=\"#cfe8c4\" stroke=\"#4d7f3a\" stroke-width=\"1\"/>",
+                    d.join(" ")
+                );
+            }
+        }
+    }
+    let mut path: Vec<String> = pts
+        .iter()
+        .map(|p| {
+            let (x, y) = frame.px(*p);
+            format!("{},{}", f1(x), f1(y))
+        })
+        .collect();
+    path.push(path[0].clone());
+    let _ = write!(
+        s,
+        "<polyline points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2\" stroke-linejoin=\"round\"/>",
+        path.join(" ")
+    );
+    let (dx, dy) = frame.px(depot);
+    let _ = write!(
+        s,
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text>",
+        f1(dx - 8.0),
+        f1(dy - 8.0),
+        f1(dx),
+        f1(dy + 4.0)
+    );
+    for (i, st) in r.stops.iter().enumerate() {
+        let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
+        let (x, y) = frame.px(site.location);
+        let _ = write!(
+            s,
+            "<circle cx=\"{x}\" cy=\"{y}\" r=\"10\" fill=\"#fff\" stroke=\"#1f4e9c\" stroke-width=\"2\"/>\
+<text x=\"{x}\" y=\"{ty}\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">{n}</text>\
+<text x=\"{lx}\" y=\"{ty}\" font-size=\"10\" fill=\"#333\">{id}</text>",
+            x = f1(x),
+            y = f1(y),
+            ty = f1(y + 4.0),
+            lx = f1(x + 13.0),
+            n = i + 1,
+            id = esc(site.id.as_str())
+        );
+    }
+    s.push_str(&frame.furniture());
+    s.push_str("</svg>\n");
+    Ok(s)
+}
+
+fn parcel_page(h: &mut String, view: &PlanView) -> Result<(), OutputError> {
+    let sc = view.scenario;
+    let _ = write!(
+        h,
+        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n\
+<table class=\"stops\"><thead><tr><th>#</th><th>Request</th><th>Address</th><th>From</th><th>Hand over</th><th>Delivery (est.)</th><th>Vials</th><th>Release by</th><th>Packed</th></tr></thead><tbody>\n",
+        sc.week_start
+    );
+    for (i, p) in view.dispatch.parcels.iter().enumerate() {
+        let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
+        let address = match &site.detail {
+            SiteDetail::Dooryard(r) => esc(&r.address),
+            SiteDetail::Block(_) => format!("block {}", esc(site.id.as_str())),
+        };
+        let from = view
+            .allocation
+            .shipments
+            .get(p.shipment)
+            .and_then(|s| sc.facilities.get(s.arc.facility))
+            .map(|f| format!("{} ({})", esc(&f.name), esc(f.id.as_str())))
+            .ok_or_else(|| {
+                OutputError::Inconsistent(format!("parcel shipment {} is out of range", p.shipment))
+            })?;
+        let base = p.ship_at.date();
+        let _ = writeln!(
+            h,
+            "<tr><td class=\"seq\">{}</td><td>{}</td><td class=\"find\">{}</td><td>{}</td><td class=\"num\">{}</td>\
+<td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"tick\"><span class=\"box\"></span></td></tr>",
+            i + 1,
+            esc(site.id.as_str()),
+            address,
+            from,
+            p.ship_at.format("%a %H:%M"),
+            time_on(p.eta, base),
+            p.vials,
+            time_on(p.release_by, base),
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    h.push_str(&cautions());
+    h.push_str("\n</section>\n");
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::fixture::tiny_plan;
+    use super::*;
+
+    fn html() -> String {
+        let p = tiny_plan();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        String::from_utf8(render(&v, &plan).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn one_sheet_per_route_plus_the_parcel_page() {
+        let h = html();
+        assert_eq!(h.matches("<section class=\"sheet\">").count(), 3);
+        assert_eq!(h.matches("<svg class=\"map\"").count(), 2);
+        assert_eq!(
+            h.matches("<footer class=\"cautions\">").count(),
+            3,
+            "cautions on every page"
+        );
+        assert!(h.contains("Route R-F1-20270302-1"));
+        assert!(h.contains("North insectary (F1)"));
+    }
+
+    #[test]
+    fn dooryards_by_address_blocks_by_access_point() {
+        let h = html();
+        assert!(h.contains("12 Palm Row"), "R1 is on route 1");
+        assert!(h.contains("3 Grove Lane"), "R2 is on route 2");
+        assert!(h.contains("88 Canal Street"), "R3 is the parcel");
+        assert!(!h.contains("5 Dune Court"), "R4 is not served");
+        assert!(h.contains("access point 26.980000, -80.020000"));
+        assert!(
+            h.contains("release from 08:00"),
+            "R1 waits for the dooryard window"
+        );
+    }
+
+    #[test]
+    fn durations_read_as_hours_and_minutes() {
+        assert_eq!(duration(65.4), "1 h 05 min");
+        assert_eq!(duration(42.0), "42 min");
+        assert_eq!(duration(f64::NAN), "0 min");
+    }
+}
