@@ -183,6 +183,15 @@ impl Delivered {
     }
 }
 
+/// A site's priority: the view's, else the allocation's outcome, else 0.
+pub(crate) fn priority_of(view: &PlanView, site: SiteIdx) -> f64 {
+    view.priority
+        .get(site)
+        .copied()
+        .or_else(|| view.allocation.sites.get(site).map(|o| o.priority))
+        .unwrap_or(0.0)
+}
+
 fn push_unique(v: &mut Vec<String>, s: &str) {
     if let Err(pos) = v.binary_search_by(|x| x.as_str().cmp(s)) {
         v.insert(pos, s.to_string());

@@ -34,7 +34,7 @@ table.stops th { background: #eee; font-size: 8.5pt; }
 table.stops tr { break-inside: avoid; }
 td.num { text-align: right; white-space: nowrap; }
 td.seq { font-weight: bold; text-align: center; width: 8mm; }
-td.find { font-size: 8.5pt; }
+td.find { font-size: 8.5pt; width: 58mm; }
 td.tick { width: 9mm; text-align: center; }
 td.notes { width: 38mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
@@ -149,7 +149,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
         vials = r.vials(),
         wasps = fixed(wasps, 0),
     );
-    h.push_str(&route_map(sc, r, depot.location)?);
+    h.push_str(&route_map(sc, r, depot.location, depot.id.as_str())?);
     h.push_str(
         "<table class=\"stops\"><thead><tr><th>#</th><th>Site</th><th>Kind</th>\
 <th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
@@ -202,9 +202,14 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
     Ok(())
 }
 
-/// The route's map: block outlines, the path depot → stops → depot, numbered stops, the
+/// The route's map: block outlines, the path depot → stops → depot (home leg dashed), numbered stops, the
 /// depot square, scale bar and north arrow. O(k) in stops plus block vertices.
-fn route_map(sc: &Scenario, r: &Route, depot: LonLat) -> Result<String, OutputError> {
+fn route_map(
+    sc: &Scenario,
+    r: &Route,
+    depot: LonLat,
+    depot_id: &str,
+) -> Result<String, OutputError> {
     let mut pts = vec![depot];
     for st in &r.stops {
         pts.push(
@@ -243,27 +248,60 @@ fn route_map(sc: &Scenario, r: &Route, depot: LonLat) -> Result<String, OutputEr
             }
         }
     }
-    let mut path: Vec<String> = pts
-        .iter()
-        .map(|p| {
-            let (x, y) = frame.px(*p);
-            format!("{},{}", f1(x), f1(y))
-        })
-        .collect();
-    path.push(path[0].clone());
-    let _ = write!(
-        s,
-        "<polyline points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2\" stroke-linejoin=\"round\"/>",
-        path.join(" ")
-    );
+    // Outbound legs solid with a direction arrow at mid-leg; the drive home dashed, so the
+    // order reads even where legs overlap.
+    let px: Vec<(f64, f64)> = pts.iter().map(|p| frame.px(*p)).collect();
+    let legs = px.len();
+    for i in 0..legs {
+        let (a, b) = (px[i], px[(i + 1) % legs]);
+        let home = i + 1 == legs;
+        if legs < 2 {
+            break;
+        }
+        let _ = write!(
+            s,
+            "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"#1f4e9c\" stroke-width=\"2\"{}/>",
+            f1(a.0),
+            f1(a.1),
+            f1(b.0),
+            f1(b.1),
+            if home {
+                " stroke-dasharray=\"6 4\" stroke-opacity=\"0.7\""
+            } else {
+                ""
+            }
+        );
+        let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+        let len = dx.hypot(dy);
+        if !home && len > 40.0 {
+            let (ux, uy) = (dx / len, dy / len);
+            let (mx, my) = (a.0 + dx * 0.5, a.1 + dy * 0.5);
+            let tip = (mx + ux * 6.0, my + uy * 6.0);
+            let l = (mx - ux * 5.0 - uy * 5.0, my - uy * 5.0 + ux * 5.0);
+            let r = (mx - ux * 5.0 + uy * 5.0, my - uy * 5.0 - ux * 5.0);
+            let _ = write!(
+                s,
+                "<path d=\"M{} {}L{} {}L{} {}Z\" fill=\"#1f4e9c\"/>",
+                f1(tip.0),
+                f1(tip.1),
+                f1(l.0),
+                f1(l.1),
+                f1(r.0),
+                f1(r.1)
+            );
+        }
+    }
     let (dx, dy) = frame.px(depot);
     let _ = write!(
         s,
-        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text>",
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\">{}</text>",
         f1(dx - 8.0),
         f1(dy - 8.0),
         f1(dx),
-        f1(dy + 4.0)
+        f1(dy + 4.0),
+        f1(dx + 11.0),
+        f1(dy + 4.0),
+        esc(depot_id)
     );
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
