@@ -325,12 +325,29 @@ fn route_sheets_print_at_least_one_page_per_route() {
     // Two routes plus the parcel page; each short route fits one page.
     assert!(pages as usize >= p.dispatch.routes.len(), "{pages} pages");
     assert_eq!(pages, 3, "one page per route and one parcel page");
+    // A long route spills onto a second page; the next route still starts on its own page.
+    let mut long = tiny_plan();
+    let base = long.dispatch.routes[0].stops.clone();
+    long.dispatch.routes[0].stops = (0..30).map(|i| base[i % base.len()].clone()).collect();
+    let long_out = dir.path().join("long");
+    write_dir_atomically(&long_out, &render_all(&long.view()).unwrap()).unwrap();
+    let long_pdf = dir.path().join("long.pdf");
+    print_pdf(&long_out.join("route-sheets.html"), &long_pdf);
+    let long_pages = pdf_pages(&long_pdf);
+    assert!(
+        long_pages >= 4,
+        "30 stops need 2 pages, then route 2 and parcels: {long_pages}"
+    );
     let report_pdf = dir.path().join("report.pdf");
     print_pdf(&out.join("report.html"), &report_pdf);
     assert!(pdf_pages(&report_pdf) >= 1);
     if let Ok(img) = std::env::var("BROODCAST_DOCS_IMG") {
         std::fs::create_dir_all(&img).unwrap();
-        for (pdf, name, last) in [(&sheets_pdf, "route-sheet", 3), (&report_pdf, "report", 2)] {
+        for (pdf, name, last) in [
+            (&sheets_pdf, "route-sheet", 3),
+            (&report_pdf, "report", 2),
+            (&long_pdf, "long-route", 2),
+        ] {
             let st = Command::new("pdftoppm")
                 .args(["-png", "-r", "90", "-f", "1", "-l", &last.to_string()])
                 .arg(pdf)

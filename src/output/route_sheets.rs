@@ -34,14 +34,16 @@ table.stops th { background: #eee; font-size: 8.5pt; }
 table.stops tr { break-inside: avoid; }
 td.num { text-align: right; white-space: nowrap; }
 td.seq { font-weight: bold; text-align: center; width: 8mm; }
-td.find { font-size: 8.5pt; width: 58mm; }
+td.find { font-size: 8.5pt; width: 66mm; }
 td.tick { width: 9mm; text-align: center; }
-td.notes { width: 38mm; }
+td.notes { width: 32mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
 .map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
 .cautions { margin-top: 3mm; border-top: 0.4mm solid #000; padding-top: 1.5mm; font-size: 8pt; break-inside: avoid; }
 .cautions ul { margin: 0.5mm 0 0 4mm; padding: 0; }
 .muted { color: #555; }
+.nw { white-space: nowrap; }
+table.stops th.cont { background: #fff; font-weight: normal; color: #444; border-left: none; border-right: none; border-top: none; }
 "#;
 
 /// Map canvas size, SVG user units (scaled to the sheet's width).
@@ -150,22 +152,29 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
         wasps = fixed(wasps, 0),
     );
     h.push_str(&route_map(sc, r, depot.location, depot.id.as_str())?);
-    h.push_str(
-        "<table class=\"stops\"><thead><tr><th>#</th><th>Site</th><th>Kind</th>\
+    // The route line inside <thead> repeats on every printed page of a long route, so a
+    // loose second page still says which run it belongs to.
+    let _ = writeln!(
+        h,
+        "<table class=\"stops\"><thead><tr><th colspan=\"9\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
+<tr><th>#</th><th>Site</th><th>Kind</th>\
 <th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
-<th>Notes</th></tr></thead><tbody>\n",
+<th>Notes</th></tr></thead><tbody>",
+        esc(&r.id),
+        day(r.date),
+        r.stops.len()
     );
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
         let find = match &site.detail {
             SiteDetail::Dooryard(req) => format!(
-                "{}<br><span class=\"muted\">{}, {}</span>",
+                "{}<br><span class=\"muted nw\">{}, {}</span>",
                 esc(&req.address),
                 fixed(site.location.lat, 6),
                 fixed(site.location.lon, 6)
             ),
             SiteDetail::Block(b) => format!(
-                "Block {} ({}, {} ha); access point {}, {}<br><span class=\"muted\">access {}–{}</span>",
+                "Block {} ({}, {} ha); access point <span class=\"nw\">{}, {}</span><br><span class=\"muted\">access {}–{}</span>",
                 esc(site.id.as_str()),
                 esc(&b.crop),
                 fixed(b.area_ha, 1),
@@ -401,7 +410,7 @@ mod tests {
         assert!(h.contains("3 Grove Lane"), "R2 is on route 2");
         assert!(h.contains("88 Canal Street"), "R3 is the parcel");
         assert!(!h.contains("5 Dune Court"), "R4 is not served");
-        assert!(h.contains("access point 26.980000, -80.020000"));
+        assert!(h.contains("access point <span class=\"nw\">26.980000, -80.020000</span>"));
         assert!(
             h.contains("release from 08:00"),
             "R1 waits for the dooryard window"
