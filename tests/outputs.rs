@@ -358,3 +358,40 @@ fn route_sheets_print_at_least_one_page_per_route() {
         }
     }
 }
+
+#[test]
+fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let mut r = csv::Reader::from_reader(f["manifest.csv"].as_bytes());
+    let mut per_site: BTreeMap<String, u64> = BTreeMap::new();
+    let mut alive = 0.0;
+    for row in r.records() {
+        let row = row.unwrap();
+        *per_site.entry(row[6].to_string()).or_default() += row[10].parse::<u64>().unwrap();
+        alive += row[12].parse::<f64>().unwrap();
+    }
+    let s: serde_json::Value = serde_json::from_str(&f["summary.json"]).unwrap();
+    assert_eq!(
+        s["shipped_vials"].as_u64().unwrap(),
+        per_site.values().sum::<u64>()
+    );
+    assert_eq!(s["sites_served"].as_u64().unwrap(), per_site.len() as u64);
+    // Rows round to 0.1 wasps each; the summary rounds the exact sum.
+    assert!((s["wasps_expected_alive"].as_f64().unwrap() - alive).abs() < 0.05 * 6.0 + 0.1);
+    let gj: serde_json::Value = serde_json::from_str(&f["plan.geojson"]).unwrap();
+    for feat in gj["features"].as_array().unwrap() {
+        let props = &feat["properties"];
+        if props["kind"] == "facility" {
+            continue;
+        }
+        let id = props["id"].as_str().unwrap();
+        let vials = props["vials"].as_u64().unwrap();
+        assert_eq!(vials, per_site.get(id).copied().unwrap_or(0), "{id}");
+        assert_eq!(
+            props["reason"].is_null(),
+            vials > 0,
+            "{id}: reason iff unserved"
+        );
+    }
+}
