@@ -30,8 +30,9 @@ use crate::arcs::Mode;
 use crate::dispatch::Dispatch;
 use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
+pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
-pub use manifest::ManifestRow;
+pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
 
 /// Everything the outputs are rendered from: the validated scenario and the results of the
 /// later stages. Borrowed, never modified.
