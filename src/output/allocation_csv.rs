@@ -1,6 +1,6 @@
 //! `allocation.csv`: every candidate site, what it was allocated and, if nothing arrives, why.
 
-use super::{Delivered, OutputError, PlanView, bad_site, fixed};
+use super::{Delivered, OutputError, PlanView, bad_site, fixed, priority_of};
 
 /// The `allocation.csv` header, the contract's column order.
 pub const ALLOCATION_COLUMNS: [&str; 7] = [
@@ -26,7 +26,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         w.write_record([
             site.id.as_str(),
             site.kind().as_str(),
-            &fixed(o.priority, 4),
+            &fixed(priority_of(view, o.site), 4),
             if o.eligible { "true" } else { "false" },
             plan.reason(view, o.site).unwrap_or(""),
             &o.vials.to_string(),

@@ -82,7 +82,7 @@ pub fn tiny_plan() -> TinyPlan {
     let (tue, wed, thu, mon) = (d(1), d(2), d(3), d(0));
     let shipments = vec![
         (arc(0, tue, tue, B1, Mode::Route, at(tue, 7, 40)), 3),
-        (arc(0, tue, tue, B2, Mode::Route, at(tue, 8, 25)), 4),
+        (arc(0, mon, tue, B2, Mode::Route, at(tue, 8, 25)), 4),
         (arc(0, tue, tue, R1, Mode::Route, at(tue, 8, 0)), 2),
         (arc(0, wed, wed, B3, Mode::Route, at(wed, 8, 0)), 3),
         (arc(1, mon, mon, R3, Mode::Parcel, at(tue, 15, 0)), 2),

@@ -8,7 +8,7 @@
 use geo::{LineString, MultiPolygon, Orient, orient::Direction};
 use serde_json::{Map, Value, json};
 
-use super::{Delivered, OutputError, PlanView, round_to};
+use super::{Delivered, OutputError, PlanView, priority_of, round_to};
 use crate::scenario::{LonLat, SiteDetail};
 
 fn pos(x: f64, y: f64) -> Value {
@@ -61,18 +61,10 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
             SiteDetail::Block(b) if !b.geometry.0.is_empty() => multipolygon(&b.geometry),
             _ => point(site.location),
         };
-        let priority = view
-            .priority
-            .get(i)
-            .copied()
-            .or_else(|| view.allocation.sites.get(i).map(|o| o.priority));
         let mut props = Map::new();
         props.insert("id".into(), json!(site.id.as_str()));
         props.insert("kind".into(), json!(site.kind().as_str()));
-        props.insert(
-            "priority".into(),
-            priority.map_or(Value::Null, |p| json!(round_to(p, 4))),
-        );
+        props.insert("priority".into(), json!(round_to(priority_of(view, i), 4)));
         props.insert("vials".into(), json!(d.vials));
         props.insert(
             "wasps_expected_alive".into(),

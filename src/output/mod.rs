@@ -30,8 +30,9 @@ use crate::arcs::Mode;
 use crate::dispatch::Dispatch;
 use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
+pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
-pub use manifest::ManifestRow;
+pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
 
 /// Everything the outputs are rendered from: the validated scenario and the results of the
 /// later stages. Borrowed, never modified.
@@ -169,18 +170,30 @@ impl Delivered {
         self.per_site.get(site).is_some_and(|d| d.vials > 0)
     }
 
-    /// The reason code for a site that got nothing delivered (`None` when served).
+    /// The reason code for a site that got nothing delivered (`None` when served): the
+    /// allocation's reason; `undeliverable` when vials were allocated but no route or parcel
+    /// carries them; `below-cutoff` when the allocation gave no reason and no vials.
     pub fn reason(&self, view: &PlanView, site: SiteIdx) -> Option<&'static str> {
+        use crate::eligibility::Reason;
         if self.served(site) {
             return None;
         }
         let outcome = view.allocation.sites.get(site);
-        match outcome.and_then(|o| o.reason) {
-            Some(r) => Some(r.code()),
-            // Allocated but not on any route or parcel: the dispatch stage dropped it.
-            None => Some(crate::eligibility::Reason::Undeliverable.code()),
-        }
+        Some(match outcome {
+            Some(o) if o.vials > 0 => Reason::Undeliverable.code(),
+            Some(o) => o.reason.unwrap_or(Reason::BelowCutoff).code(),
+            None => Reason::BelowCutoff.code(),
+        })
     }
+}
+
+/// A site's priority: the view's, else the allocation's outcome, else 0.
+pub(crate) fn priority_of(view: &PlanView, site: SiteIdx) -> f64 {
+    view.priority
+        .get(site)
+        .copied()
+        .or_else(|| view.allocation.sites.get(site).map(|o| o.priority))
+        .unwrap_or(0.0)
 }
 
 fn push_unique(v: &mut Vec<String>, s: &str) {
@@ -249,6 +262,38 @@ mod tests {
             esc("<a href=\"x\">&'"),
             "&lt;a href=&quot;x&quot;&gt;&amp;&#x27;"
         );
+    }
+
+    #[test]
+    fn allocated_but_not_delivered_reads_undeliverable() {
+        let mut p = fixture::tiny_plan();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        assert_eq!(plan.reason(&v, 2), Some("undeliverable"), "B3");
+        assert_eq!(plan.reason(&v, 3), Some("no-flush"), "B4");
+        assert_eq!(plan.reason(&v, 0), None, "B1 is served");
+        // An outcome with neither vials nor reason: eligible but left out.
+        p.allocation.sites[2].vials = 0;
+        let v = p.view();
+        assert_eq!(plan.reason(&v, 2), Some("below-cutoff"));
+    }
+
+    #[test]
+    fn non_finite_numbers_never_reach_json() {
+        let mut p = fixture::tiny_plan();
+        p.priority[0] = f64::NAN;
+        p.allocation.lp_bound = f64::INFINITY;
+        p.dispatch.routes[0].stops[0].wasps_expected_alive = f64::NAN;
+        let files = render_all(&p.view()).unwrap();
+        // serde_json would write NaN and infinity as null; every field must stay a number.
+        let summary: serde_json::Value = serde_json::from_slice(&files[3].1).unwrap();
+        assert!(summary["lp_bound"].is_f64(), "{}", summary["lp_bound"]);
+        let manifest: serde_json::Value = serde_json::from_slice(&files[1].1).unwrap();
+        for row in manifest["rows"].as_array().unwrap() {
+            assert!(row["wasps_expected_alive"].is_number(), "{row}");
+        }
+        let gj: serde_json::Value = serde_json::from_slice(&files[5].1).unwrap();
+        assert_eq!(gj["features"][0]["properties"]["priority"], 0.0);
     }
 
     #[test]

@@ -10,7 +10,7 @@ use std::fmt::Write;
 use chrono::NaiveDate;
 
 use super::svg::{Frame, f1};
-use super::{CAUTIONS, Delivered, OutputError, PlanView, esc, fixed};
+use super::{CAUTIONS, Delivered, OutputError, PlanView, esc, fixed, priority_of};
 use crate::scenario::SiteKind;
 
 const CSS: &str = r#"
@@ -114,10 +114,10 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     }
     let _ = writeln!(
         h,
-        "</div>\n<p class=\"muted\">{} routes, {} parcels, {} shipments allocated but undeliverable.</p>",
-        view.dispatch.routes.len(),
-        view.dispatch.parcels.len(),
-        view.dispatch.undeliverable.len()
+        "</div>\n<p class=\"muted\">{}, {}, {} allocated but undeliverable.</p>",
+        count(view.dispatch.routes.len(), "route", "routes"),
+        count(view.dispatch.parcels.len(), "parcel", "parcels"),
+        count(view.dispatch.undeliverable.len(), "shipment", "shipments")
     );
 
     h.push_str("<section><h2>Map</h2>\n");
@@ -183,11 +183,11 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     Ok(h.into_bytes())
 }
 
-/// Sites as dots (served: filled green, unserved eligible: open orange, ineligible: grey
-/// cross), facilities as labelled squares, legend, scale bar, north arrow. O(S + F).
+/// Sites as markers (circle: block, diamond: request; served: filled green, unserved
+/// eligible: open orange, ineligible: open grey), facilities as labelled squares, legend, scale bar, north arrow. O(S + F).
 fn overview_map(view: &PlanView, plan: &Delivered) -> String {
     let sc = view.scenario;
-    let (w, hgt) = (700.0, 420.0);
+    let (w, hgt) = (700.0, 380.0);
     let mut pts: Vec<_> = sc.sites.iter().map(|s| s.location).collect();
     pts.extend(sc.facilities.iter().map(|f| f.location));
     let frame = Frame::fit(&pts, w, hgt, 30.0, 2.0);
@@ -203,28 +203,14 @@ fn overview_map(view: &PlanView, plan: &Delivered) -> String {
         let site = &sc.sites[i];
         let (x, y) = frame.px(site.location);
         let ineligible = view.allocation.sites.get(i).is_some_and(|o| !o.eligible);
-        if plan.served(i) {
-            let _ = write!(
-                s,
-                "<circle cx=\"{}\" cy=\"{}\" r=\"5\" fill=\"#3a7d2c\" stroke=\"#fff\" stroke-width=\"1\"/>",
-                f1(x),
-                f1(y)
-            );
+        let (fill, stroke, width) = if plan.served(i) {
+            ("#3a7d2c", "#fff", 1.0)
         } else if ineligible {
-            let _ = write!(
-                s,
-                "<path d=\"M{} {}l6 6m0 -6l-6 6\" stroke=\"#888\" stroke-width=\"1.5\"/>",
-                f1(x - 3.0),
-                f1(y - 3.0)
-            );
+            ("none", "#999", 1.2)
         } else {
-            let _ = write!(
-                s,
-                "<circle cx=\"{}\" cy=\"{}\" r=\"4\" fill=\"none\" stroke=\"#d9a441\" stroke-width=\"1.8\"/>",
-                f1(x),
-                f1(y)
-            );
-        }
+            ("none", "#d9a441", 1.8)
+        };
+        s.push_str(&marker(site.kind(), x, y, fill, stroke, width));
     }
     for f in &sc.facilities {
         let (x, y) = frame.px(f.location);
@@ -238,15 +224,45 @@ fn overview_map(view: &PlanView, plan: &Delivered) -> String {
             esc(f.id.as_str())
         );
     }
-    // Legend, top-left.
+    // Legend, top-left: colour says what happened, shape says what kind of site.
     let _ = write!(
         s,
-        "<g class=\"legend\" font-size=\"11\"><rect x=\"8\" y=\"8\" width=\"150\" height=\"78\" fill=\"#fff\" fill-opacity=\"0.85\" stroke=\"#999\"/>\
-<circle cx=\"20\" cy=\"22\" r=\"5\" fill=\"#3a7d2c\"/><text x=\"32\" y=\"26\">served</text>\
-<circle cx=\"20\" cy=\"38\" r=\"4\" fill=\"none\" stroke=\"#d9a441\" stroke-width=\"1.8\"/><text x=\"32\" y=\"42\">eligible, not served</text>\
-<path d=\"M17 51l6 6m0 -6l-6 6\" stroke=\"#888\" stroke-width=\"1.5\"/><text x=\"32\" y=\"58\">ineligible</text>\
-<rect x=\"14\" y=\"66\" width=\"12\" height=\"12\" fill=\"#000\"/><text x=\"32\" y=\"76\">facility</text></g>"
+        "<g class=\"legend\" font-size=\"11\"><rect x=\"8\" y=\"8\" width=\"160\" height=\"108\" fill=\"#fff\" fill-opacity=\"0.85\" stroke=\"#999\"/>"
     );
+    let rows = [
+        (
+            marker(SiteKind::Block, 20.0, 22.0, "#3a7d2c", "#fff", 1.0),
+            "served",
+        ),
+        (
+            marker(SiteKind::Block, 20.0, 38.0, "none", "#d9a441", 1.8),
+            "eligible, not served",
+        ),
+        (
+            marker(SiteKind::Block, 20.0, 54.0, "none", "#999", 1.2),
+            "ineligible",
+        ),
+        (
+            marker(SiteKind::Block, 20.0, 70.0, "#555", "#fff", 1.0),
+            "grove block",
+        ),
+        (
+            marker(SiteKind::Dooryard, 20.0, 86.0, "#555", "#fff", 1.0),
+            "dooryard request",
+        ),
+        (
+            "<rect x=\"14\" y=\"96\" width=\"12\" height=\"12\" fill=\"#000\"/>".to_string(),
+            "facility",
+        ),
+    ];
+    for (k, (m, label)) in rows.iter().enumerate() {
+        let _ = write!(
+            s,
+            "{m}<text x=\"32\" y=\"{}\">{label}</text>",
+            f1(26.0 + 16.0 * k as f64)
+        );
+    }
+    s.push_str("</g>");
     s.push_str(&frame.furniture());
     s.push_str("</svg>\n");
     s
@@ -269,7 +285,7 @@ fn supply_chart(view: &PlanView, plan: &Delivered) -> String {
         .max()
         .unwrap_or(0)
         .max(1);
-    let (w, hgt) = (700.0, 260.0);
+    let (w, hgt) = (700.0, 230.0);
     let (left, right, top, bottom) = (56.0, 12.0, 26.0, 44.0);
     let plot_w = w - left - right;
     let plot_h = hgt - top - bottom;
@@ -355,6 +371,27 @@ fn supply_chart(view: &PlanView, plan: &Delivered) -> String {
     s
 }
 
+/// A site marker: circle for a block, diamond for a dooryard request (5 px radius).
+fn marker(kind: SiteKind, x: f64, y: f64, fill: &str, stroke: &str, width: f64) -> String {
+    match kind {
+        SiteKind::Block => format!(
+            "<circle cx=\"{}\" cy=\"{}\" r=\"5\" fill=\"{fill}\" stroke=\"{stroke}\" stroke-width=\"{width}\"/>",
+            f1(x),
+            f1(y)
+        ),
+        SiteKind::Dooryard => format!(
+            "<path d=\"M{} {}l6 6l-6 6l-6 -6Z\" fill=\"{fill}\" stroke=\"{stroke}\" stroke-width=\"{width}\"/>",
+            f1(x),
+            f1(y - 6.0)
+        ),
+    }
+}
+
+/// `1 parcel`, `2 parcels`.
+fn count(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
+}
+
 /// 1-2-5 × 10ⁿ step not below `raw`.
 fn nice_step(raw: f64) -> f64 {
     let raw = if raw.is_finite() && raw > 0.0 {
@@ -378,7 +415,7 @@ fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
         .sites
         .iter()
         .filter(|o| o.eligible)
-        .map(|o| (o.site, o.priority))
+        .map(|o| (o.site, priority_of(view, o.site)))
         .collect();
     ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
     h.push_str("<section><h2>Served and unmet by priority band</h2>\
@@ -423,7 +460,7 @@ fn why_not(h: &mut String, view: &PlanView, plan: &Delivered) {
                 SiteKind::Block => e.0 += 1,
                 SiteKind::Dooryard => e.1 += 1,
             }
-            let p = view.allocation.sites.get(i).map_or(0.0, |o| o.priority);
+            let p = priority_of(view, i);
             unserved.push((i, p, r));
         }
     }

@@ -34,14 +34,16 @@ table.stops th { background: #eee; font-size: 8.5pt; }
 table.stops tr { break-inside: avoid; }
 td.num { text-align: right; white-space: nowrap; }
 td.seq { font-weight: bold; text-align: center; width: 8mm; }
-td.find { font-size: 8.5pt; }
+td.find { font-size: 8.5pt; width: 66mm; }
 td.tick { width: 9mm; text-align: center; }
-td.notes { width: 38mm; }
+td.notes { width: 32mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
 .map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
 .cautions { margin-top: 3mm; border-top: 0.4mm solid #000; padding-top: 1.5mm; font-size: 8pt; break-inside: avoid; }
 .cautions ul { margin: 0.5mm 0 0 4mm; padding: 0; }
 .muted { color: #555; }
+.nw { white-space: nowrap; }
+table.stops th.cont { background: #fff; font-weight: normal; color: #444; border-left: none; border-right: none; border-top: none; }
 "#;
 
 /// Map canvas size, SVG user units (scaled to the sheet's width).
@@ -149,23 +151,30 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
         vials = r.vials(),
         wasps = fixed(wasps, 0),
     );
-    h.push_str(&route_map(sc, r, depot.location)?);
-    h.push_str(
-        "<table class=\"stops\"><thead><tr><th>#</th><th>Site</th><th>Kind</th>\
+    h.push_str(&route_map(sc, r, depot.location, depot.id.as_str())?);
+    // The route line inside <thead> repeats on every printed page of a long route, so a
+    // loose second page still says which run it belongs to.
+    let _ = writeln!(
+        h,
+        "<table class=\"stops\"><thead><tr><th colspan=\"9\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
+<tr><th>#</th><th>Site</th><th>Kind</th>\
 <th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
-<th>Notes</th></tr></thead><tbody>\n",
+<th>Notes</th></tr></thead><tbody>",
+        esc(&r.id),
+        day(r.date),
+        r.stops.len()
     );
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
         let find = match &site.detail {
             SiteDetail::Dooryard(req) => format!(
-                "{}<br><span class=\"muted\">{}, {}</span>",
+                "{}<br><span class=\"muted nw\">{}, {}</span>",
                 esc(&req.address),
                 fixed(site.location.lat, 6),
                 fixed(site.location.lon, 6)
             ),
             SiteDetail::Block(b) => format!(
-                "Block {} ({}, {} ha); access point {}, {}<br><span class=\"muted\">access {}–{}</span>",
+                "Block {} ({}, {} ha); access point <span class=\"nw\">{}, {}</span><br><span class=\"muted\">access {}–{}</span>",
                 esc(site.id.as_str()),
                 esc(&b.crop),
                 fixed(b.area_ha, 1),
@@ -202,9 +211,14 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
     Ok(())
 }
 
-/// The route's map: block outlines, the path depot → stops → depot, numbered stops, the
+/// The route's map: block outlines, the path depot → stops → depot (home leg dashed), numbered stops, the
 /// depot square, scale bar and north arrow. O(k) in stops plus block vertices.
-fn route_map(sc: &Scenario, r: &Route, depot: LonLat) -> Result<String, OutputError> {
+fn route_map(
+    sc: &Scenario,
+    r: &Route,
+    depot: LonLat,
+    depot_id: &str,
+) -> Result<String, OutputError> {
     let mut pts = vec![depot];
     for st in &r.stops {
         pts.push(
@@ -243,27 +257,60 @@ fn route_map(sc: &Scenario, r: &Route, depot: LonLat) -> Result<String, OutputEr
             }
         }
     }
-    let mut path: Vec<String> = pts
-        .iter()
-        .map(|p| {
-            let (x, y) = frame.px(*p);
-            format!("{},{}", f1(x), f1(y))
-        })
-        .collect();
-    path.push(path[0].clone());
-    let _ = write!(
-        s,
-        "<polyline points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2\" stroke-linejoin=\"round\"/>",
-        path.join(" ")
-    );
+    // Outbound legs solid with a direction arrow at mid-leg; the drive home dashed, so the
+    // order reads even where legs overlap.
+    let px: Vec<(f64, f64)> = pts.iter().map(|p| frame.px(*p)).collect();
+    let legs = px.len();
+    for i in 0..legs {
+        let (a, b) = (px[i], px[(i + 1) % legs]);
+        let home = i + 1 == legs;
+        if legs < 2 {
+            break;
+        }
+        let _ = write!(
+            s,
+            "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"#1f4e9c\" stroke-width=\"2\"{}/>",
+            f1(a.0),
+            f1(a.1),
+            f1(b.0),
+            f1(b.1),
+            if home {
+                " stroke-dasharray=\"6 4\" stroke-opacity=\"0.7\""
+            } else {
+                ""
+            }
+        );
+        let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+        let len = dx.hypot(dy);
+        if !home && len > 40.0 {
+            let (ux, uy) = (dx / len, dy / len);
+            let (mx, my) = (a.0 + dx * 0.5, a.1 + dy * 0.5);
+            let tip = (mx + ux * 6.0, my + uy * 6.0);
+            let l = (mx - ux * 5.0 - uy * 5.0, my - uy * 5.0 + ux * 5.0);
+            let r = (mx - ux * 5.0 + uy * 5.0, my - uy * 5.0 - ux * 5.0);
+            let _ = write!(
+                s,
+                "<path d=\"M{} {}L{} {}L{} {}Z\" fill=\"#1f4e9c\"/>",
+                f1(tip.0),
+                f1(tip.1),
+                f1(l.0),
+                f1(l.1),
+                f1(r.0),
+                f1(r.1)
+            );
+        }
+    }
     let (dx, dy) = frame.px(depot);
     let _ = write!(
         s,
-        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text>",
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\">{}</text>",
         f1(dx - 8.0),
         f1(dy - 8.0),
         f1(dx),
-        f1(dy + 4.0)
+        f1(dy + 4.0),
+        f1(dx + 11.0),
+        f1(dy + 4.0),
+        esc(depot_id)
     );
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
@@ -363,7 +410,7 @@ mod tests {
         assert!(h.contains("3 Grove Lane"), "R2 is on route 2");
         assert!(h.contains("88 Canal Street"), "R3 is the parcel");
         assert!(!h.contains("5 Dune Court"), "R4 is not served");
-        assert!(h.contains("access point 26.980000, -80.020000"));
+        assert!(h.contains("access point <span class=\"nw\">26.980000, -80.020000</span>"));
         assert!(
             h.contains("release from 08:00"),
             "R1 waits for the dooryard window"

@@ -1,0 +1,397 @@
+//! Output files of `plan`, checked as data: manifest and allocation CSV parse back, the
+//! GeoJSON parses with the `geojson` crate, addresses stay on route sheets, bytes are
+//! deterministic, hostile ids are escaped, and route sheets print one page per route in
+//! Chromium (skipped when Chromium or poppler's `pdfinfo` is absent).
+
+use std::collections::BTreeMap;
+use std::path::Path;
+use std::process::Command;
+
+use broodcast::output::fixture::{TinyPlan, tiny_plan};
+use broodcast::output::{FILE_NAMES, render_all, write_dir_atomically};
+use broodcast::scenario::SiteDetail;
+use chrono::NaiveDateTime;
+
+fn files(p: &TinyPlan) -> BTreeMap<String, String> {
+    render_all(&p.view())
+        .expect("renders")
+        .into_iter()
+        .map(|(n, b)| (n, String::from_utf8(b).expect("UTF-8")))
+        .collect()
+}
+
+fn ts(s: &str) -> NaiveDateTime {
+    NaiveDateTime::parse_from_str(s, "%Y-%m-%dT%H:%M").unwrap_or_else(|e| panic!("{s:?}: {e}"))
+}
+
+#[test]
+fn manifest_csv_has_the_contract_columns_and_values_parse_back() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let mut r = csv::Reader::from_reader(f["manifest.csv"].as_bytes());
+    assert_eq!(
+        r.headers().unwrap().iter().collect::<Vec<_>>(),
+        "shipment_id,facility_id,dispatch_date,mode,route_id,stop_seq,site_id,site_kind,lat,lon,vials,wasps_packed,wasps_expected_alive,eta,release_by"
+            .split(',')
+            .collect::<Vec<_>>()
+    );
+    let rows: Vec<csv::StringRecord> = r.records().map(|x| x.unwrap()).collect();
+    // 3 + 2 route stops and 1 parcel; the undeliverable B3 shipment is not a row.
+    assert_eq!(rows.len(), 6);
+    let mut ids = std::collections::BTreeSet::new();
+    for row in &rows {
+        assert!(
+            ids.insert(row[0].to_string()),
+            "duplicate shipment id {}",
+            &row[0]
+        );
+        let site = &row[6];
+        assert_ne!(site, "B3");
+        let idx = p.scenario.site_idx(site).expect("site exists");
+        let s = &p.scenario.sites[idx];
+        let lat: f64 = row[8].parse().unwrap();
+        let lon: f64 = row[9].parse().unwrap();
+        assert!((lat - s.location.lat).abs() < 1e-6 && (lon - s.location.lon).abs() < 1e-6);
+        assert_eq!(
+            row[8].split('.').nth(1).map(str::len),
+            Some(6),
+            "6 decimals"
+        );
+        let vials: u64 = row[10].parse().unwrap();
+        let fac = p.scenario.facility_idx(&row[1]).expect("facility exists");
+        let packed: u64 = row[11].parse().unwrap();
+        assert_eq!(
+            packed,
+            vials * u64::from(p.scenario.facilities[fac].wasps_per_vial)
+        );
+        let alive: f64 = row[12].parse().unwrap();
+        assert!(alive > 0.0 && alive <= packed as f64, "{alive} of {packed}");
+        let (eta, by) = (ts(&row[13]), ts(&row[14]));
+        assert!(eta <= by, "eta {eta} after release-by {by}");
+        assert!(row[0].starts_with(&format!(
+            "S-{}-{}-{}",
+            &row[1],
+            row[2].replace('-', ""),
+            site
+        )));
+        match &row[3] {
+            "route" => {
+                assert!(row[4].starts_with("R-"));
+                let seq: u32 = row[5].parse().unwrap();
+                let route = p.dispatch.routes.iter().find(|r| r.id == row[4]).unwrap();
+                let stop = &route.stops[seq as usize - 1];
+                assert_eq!(stop.site, idx);
+                assert!((stop.wasps_expected_alive - alive).abs() < 0.05 + 1e-9);
+                assert_eq!(eta, stop.arrival);
+            }
+            "parcel" => {
+                assert_eq!((&row[4], &row[5]), ("", ""));
+                assert_eq!(site, "R3");
+            }
+            m => panic!("mode {m}"),
+        }
+    }
+}
+
+#[test]
+fn manifest_json_rows_match_csv_and_route_totals_add_up() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let j: serde_json::Value = serde_json::from_str(&f["manifest.json"]).unwrap();
+    let rows = j["rows"].as_array().unwrap();
+    assert_eq!(rows.len(), 6);
+    let routes = j["routes"].as_array().unwrap();
+    assert_eq!(routes.len(), 2);
+    for rt in routes {
+        let id = rt["route_id"].as_str().unwrap();
+        let from_rows: u64 = rows
+            .iter()
+            .filter(|r| r["route_id"] == id)
+            .map(|r| r["vials"].as_u64().unwrap())
+            .sum();
+        assert_eq!(rt["vials"].as_u64().unwrap(), from_rows, "{id}");
+        assert!(ts(rt["depart"].as_str().unwrap()) < ts(rt["return"].as_str().unwrap()));
+    }
+    assert_eq!(routes[0]["vehicle_id"], "V1");
+    assert_eq!(routes[0]["drive_minutes"], 60.0);
+    let parcels = j["parcels_per_day"].as_array().unwrap();
+    assert_eq!(parcels.len(), 1);
+    assert_eq!(parcels[0]["date"], "2027-03-01");
+    assert_eq!(parcels[0]["vials"], 2);
+    // Sorted by dispatch date: Monday's parcel comes before Tuesday's route.
+    assert_eq!(rows[0]["mode"], "parcel");
+    assert_eq!(
+        (&rows[1]["route_id"], &rows[1]["stop_seq"]),
+        (&"R-F1-20270302-1".into(), &1.into())
+    );
+    let parcel_row = rows.iter().find(|r| r["mode"] == "parcel").unwrap();
+    assert!(parcel_row["route_id"].is_null() && parcel_row["stop_seq"].is_null());
+}
+
+#[test]
+fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let text = &f["plan.geojson"];
+    let gj: geojson::GeoJson = text.parse().expect("valid GeoJSON");
+    let geojson::GeoJson::FeatureCollection(fc) = gj else {
+        panic!("not a FeatureCollection")
+    };
+    assert_eq!(
+        fc.features.len(),
+        p.scenario.sites.len() + p.scenario.facilities.len()
+    );
+    assert!(!text.to_lowercase().contains("address"));
+    for s in &p.scenario.sites {
+        if let Some(r) = s.as_request() {
+            assert!(!text.contains(&r.address));
+        }
+    }
+    let raw: serde_json::Value = serde_json::from_str(text).unwrap();
+    assert!(raw.get("crs").is_none(), "RFC 7946 §4: no crs member");
+    let mut polygons = 0;
+    for feat in &fc.features {
+        let props = feat.properties.as_ref().expect("properties");
+        for key in [
+            "id",
+            "kind",
+            "priority",
+            "vials",
+            "wasps_expected_alive",
+            "facility_id",
+            "route_id",
+            "reason",
+        ] {
+            assert!(props.contains_key(key), "missing {key}");
+        }
+        let geom = feat.geometry.as_ref().expect("geometry");
+        let g: geo::Geometry<f64> = geom.clone().try_into().expect("converts to geo");
+        if let geo::Geometry::Polygon(poly) = g {
+            polygons += 1;
+            use geo::Winding;
+            assert!(
+                poly.exterior().is_ccw(),
+                "right-hand rule: exterior counter-clockwise"
+            );
+            // lon first: the tiny fixture is near lon -80, lat 27.
+            let c = poly.exterior().0[0];
+            assert!(c.x < -79.0 && c.y > 26.0);
+        }
+    }
+    assert_eq!(polygons, 6, "every block is a polygon");
+}
+
+#[test]
+fn request_addresses_appear_on_route_sheets_and_nowhere_else() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let served = ["12 Palm Row", "3 Grove Lane", "88 Canal Street"];
+    for a in served {
+        assert!(
+            f["route-sheets.html"].contains(a),
+            "{a} missing from route sheets"
+        );
+    }
+    for s in &p.scenario.sites {
+        let SiteDetail::Dooryard(r) = &s.detail else {
+            continue;
+        };
+        for (name, body) in &f {
+            if name != "route-sheets.html" {
+                assert!(
+                    !body.contains(&r.address),
+                    "{} leaks into {name}",
+                    r.address
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn rendering_twice_gives_identical_bytes_and_the_folder_holds_them() {
+    let p = tiny_plan();
+    let a = render_all(&p.view()).unwrap();
+    let b = render_all(&p.view()).unwrap();
+    assert_eq!(a, b);
+    let names: Vec<&str> = a.iter().map(|(n, _)| n.as_str()).collect();
+    assert_eq!(names, FILE_NAMES);
+    let root = tempfile::tempdir().unwrap();
+    let out = root.path().join("out");
+    write_dir_atomically(&out, &a).unwrap();
+    write_dir_atomically(&out, &b).unwrap();
+    for (n, bytes) in &a {
+        assert_eq!(&std::fs::read(out.join(n)).unwrap(), bytes, "{n}");
+    }
+}
+
+#[test]
+fn hostile_ids_are_escaped_in_html_and_survive_csv_and_json() {
+    let mut p = tiny_plan();
+    let evil = "<script>alert(1)</script>";
+    p.scenario.sites[0].id.0 = evil.into(); // B1, on route 1
+    p.scenario.sites[3].id.0 = "\"><img src=x onerror=alert(2)>".into(); // B4, unserved
+    p.scenario.facilities[0].name = "<b>North</b> & co".into();
+    if let SiteDetail::Dooryard(r) = &mut p.scenario.sites[6].detail {
+        r.address = "1 <i>Evil</i> Way".into();
+    }
+    p.moved.push("<script>moved</script>".into());
+    let f = files(&p);
+    for name in ["route-sheets.html", "report.html"] {
+        let h = &f[name];
+        assert!(!h.contains("<script"), "{name} holds a raw script tag");
+        assert!(!h.contains("<img src=x"), "{name} holds a raw img tag");
+        assert!(
+            !h.contains("<b>North"),
+            "{name} holds raw markup from a name"
+        );
+    }
+    assert!(f["route-sheets.html"].contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
+    assert!(f["route-sheets.html"].contains("1 &lt;i&gt;Evil&lt;/i&gt; Way"));
+    assert!(f["report.html"].contains("&lt;script&gt;moved&lt;/script&gt;"));
+    let mut r = csv::Reader::from_reader(f["allocation.csv"].as_bytes());
+    let ids: Vec<String> = r.records().map(|x| x.unwrap()[0].to_string()).collect();
+    assert!(ids.contains(&evil.to_string()), "CSV keeps the id as data");
+    let gj: geojson::GeoJson = f["plan.geojson"].parse().unwrap();
+    assert!(gj.to_string().contains("alert(1)"));
+}
+
+fn have(cmd: &str) -> bool {
+    Command::new("sh")
+        .arg("-c")
+        .arg(format!("command -v {cmd}"))
+        .output()
+        .map(|o| o.status.success())
+        .unwrap_or(false)
+}
+
+fn print_pdf(html: &Path, pdf: &Path) {
+    let profile = tempfile::tempdir().unwrap();
+    let status = Command::new("timeout")
+        .arg("120")
+        .arg("chromium")
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ])
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .arg(format!("--print-to-pdf={}", pdf.display()))
+        .arg("--no-pdf-header-footer")
+        .arg(format!("file://{}", html.display()))
+        .output()
+        .expect("chromium runs");
+    assert!(
+        status.status.success() && pdf.exists(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&status.stderr)
+    );
+}
+
+fn pdf_pages(pdf: &Path) -> u32 {
+    let out = Command::new("pdfinfo")
+        .arg(pdf)
+        .output()
+        .expect("pdfinfo runs");
+    String::from_utf8_lossy(&out.stdout)
+        .lines()
+        .find_map(|l| l.strip_prefix("Pages:").map(|v| v.trim().parse().unwrap()))
+        .expect("pdfinfo prints Pages:")
+}
+
+/// Prints route sheets and report with Chromium; route sheets need at least one page per
+/// route. With `BROODCAST_DOCS_IMG=DIR`, also writes PNGs of page 1 of each (pdftoppm) for
+/// docs/img.
+#[test]
+fn route_sheets_print_at_least_one_page_per_route() {
+    if !have("chromium") || !have("pdfinfo") {
+        eprintln!(
+            "skipped: chromium or pdfinfo not on PATH (apt-get install chromium poppler-utils)"
+        );
+        return;
+    }
+    let p = tiny_plan();
+    let dir = tempfile::tempdir().unwrap();
+    let files = render_all(&p.view()).unwrap();
+    write_dir_atomically(&dir.path().join("out"), &files).unwrap();
+    let out = dir.path().join("out");
+    let sheets_pdf = dir.path().join("route-sheets.pdf");
+    print_pdf(&out.join("route-sheets.html"), &sheets_pdf);
+    let pages = pdf_pages(&sheets_pdf);
+    // Two routes plus the parcel page; each short route fits one page.
+    assert!(pages as usize >= p.dispatch.routes.len(), "{pages} pages");
+    assert_eq!(pages, 3, "one page per route and one parcel page");
+    // A long route spills onto a second page; the next route still starts on its own page.
+    let mut long = tiny_plan();
+    let base = long.dispatch.routes[0].stops.clone();
+    long.dispatch.routes[0].stops = (0..30).map(|i| base[i % base.len()].clone()).collect();
+    let long_out = dir.path().join("long");
+    write_dir_atomically(&long_out, &render_all(&long.view()).unwrap()).unwrap();
+    let long_pdf = dir.path().join("long.pdf");
+    print_pdf(&long_out.join("route-sheets.html"), &long_pdf);
+    let long_pages = pdf_pages(&long_pdf);
+    assert!(
+        long_pages >= 4,
+        "30 stops need 2 pages, then route 2 and parcels: {long_pages}"
+    );
+    let report_pdf = dir.path().join("report.pdf");
+    print_pdf(&out.join("report.html"), &report_pdf);
+    assert!(pdf_pages(&report_pdf) >= 1);
+    if let Ok(img) = std::env::var("BROODCAST_DOCS_IMG") {
+        std::fs::create_dir_all(&img).unwrap();
+        for (pdf, name, last) in [
+            (&sheets_pdf, "route-sheet", 3),
+            (&report_pdf, "report", 2),
+            (&long_pdf, "long-route", 2),
+        ] {
+            let st = Command::new("pdftoppm")
+                .args(["-png", "-r", "90", "-f", "1", "-l", &last.to_string()])
+                .arg(pdf)
+                .arg(Path::new(&img).join(name))
+                .status()
+                .expect("pdftoppm runs");
+            assert!(st.success());
+        }
+    }
+}
+
+#[test]
+fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
+    let p = tiny_plan();
+    let f = files(&p);
+    let mut r = csv::Reader::from_reader(f["manifest.csv"].as_bytes());
+    let mut per_site: BTreeMap<String, u64> = BTreeMap::new();
+    let mut alive = 0.0;
+    for row in r.records() {
+        let row = row.unwrap();
+        *per_site.entry(row[6].to_string()).or_default() += row[10].parse::<u64>().unwrap();
+        alive += row[12].parse::<f64>().unwrap();
+    }
+    let s: serde_json::Value = serde_json::from_str(&f["summary.json"]).unwrap();
+    assert_eq!(
+        s["shipped_vials"].as_u64().unwrap(),
+        per_site.values().sum::<u64>()
+    );
+    assert_eq!(s["sites_served"].as_u64().unwrap(), per_site.len() as u64);
+    // Rows round to 0.1 wasps each; the summary rounds the exact sum.
+    assert!((s["wasps_expected_alive"].as_f64().unwrap() - alive).abs() < 0.05 * 6.0 + 0.1);
+    let gj: serde_json::Value = serde_json::from_str(&f["plan.geojson"]).unwrap();
+    for feat in gj["features"].as_array().unwrap() {
+        let props = &feat["properties"];
+        if props["kind"] == "facility" {
+            continue;
+        }
+        let id = props["id"].as_str().unwrap();
+        let vials = props["vials"].as_u64().unwrap();
+        assert_eq!(vials, per_site.get(id).copied().unwrap_or(0), "{id}");
+        assert_eq!(
+            props["reason"].is_null(),
+            vials > 0,
+            "{id}: reason iff unserved"
+        );
+    }
+}
