@@ -442,3 +442,33 @@ fn check_summary_of_the_minimal_folder() {
     let text = c.to_text();
     assert!(text.contains("total vials"), "{text}");
 }
+
+#[test]
+fn matrix_ids_that_are_not_locations_are_a_warning() {
+    let tmp = util::copy_minimal();
+    util::replace(tmp.path(), "travel.csv", "id,F1,B1,R1", "id,F1,B1,X7");
+    util::replace(tmp.path(), "travel.csv", "R1,3,4,0", "X7,3,4,0");
+    let s = scenario::load_dir(tmp.path()).expect("unknown matrix ids do not stop loading");
+    let w: Vec<String> = s.warnings.iter().map(|w| w.to_string()).collect();
+    assert_eq!(w.len(), 1, "{w:?}");
+    assert!(
+        w[0].starts_with("travel.csv:1:") && w[0].contains("X7"),
+        "{}",
+        w[0]
+    );
+}
+
+#[test]
+fn feature_level_id_is_used_when_properties_have_none() {
+    let tmp = util::copy_minimal();
+    util::replace(
+        tmp.path(),
+        "blocks.geojson",
+        r#""properties": {
+        "id": "B1", "crop""#,
+        r#""id": "B1", "properties": {
+        "crop""#,
+    );
+    let s = scenario::load_dir(tmp.path()).unwrap();
+    assert_eq!(s.sites[0].id.as_str(), "B1");
+}

@@ -628,6 +628,64 @@ pub fn cases() -> Vec<Case> {
             |d| replace(d, "blocks.geojson", r#", "access_lat": 26.947"#, ""),
             "feature 1"
         ),
+        case!(
+            "forbid with vials",
+            "overrides.csv",
+            |d| replace(d, "overrides.csv", "R4,forbid,", "R4,forbid,3"),
+            ":3"
+        ),
+        case!(
+            "two overrides for one site",
+            "overrides.csv",
+            |d| replace(d, "overrides.csv", "R4,forbid,", "B2,forbid,"),
+            ":3"
+        ),
+        case!(
+            "duplicate request id",
+            "requests.csv",
+            |d| replace(d, "requests.csv", "R3,2027", "R1,2027"),
+            ":4"
+        ),
+        case!(
+            "duplicate vehicle id",
+            "fleet.csv",
+            |d| replace(d, "fleet.csv", "V2,F2", "V1,F2"),
+            ":3"
+        ),
+        case!(
+            "received not a date",
+            "requests.csv",
+            |d| replace(d, "requests.csv", "2027-02-25", "2027-02-29"),
+            ":5"
+        ),
+        case!(
+            "invalid UTF-8 in JSON",
+            "scenario.json",
+            |d| replace_bytes(d, "scenario.json", b"Marrow", b"M\xe9rrow"),
+            ":2"
+        ),
+        case!(
+            "access_lat out of range",
+            "blocks.geojson",
+            |d| replace(
+                d,
+                "blocks.geojson",
+                r#""access_lat": 26.947"#,
+                r#""access_lat": 126.947"#
+            ),
+            "feature 1"
+        ),
+        case!(
+            "hole outside its outline",
+            "blocks.geojson",
+            |d| replace(
+                d,
+                "blocks.geojson",
+                B4_RING,
+                r#"[[[-80.032, 26.748], [-80.032, 26.752], [-80.028, 26.752], [-80.028, 26.748], [-80.032, 26.748]], [[-80.02, 26.70], [-80.01, 26.70], [-80.01, 26.71], [-80.02, 26.70]]]"#
+            ),
+            "feature 3"
+        ),
         // Travel matrix.
         case!(
             "matrix not square",

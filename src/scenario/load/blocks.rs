@@ -132,12 +132,18 @@ pub(super) fn parse(
     (out, Some(declared))
 }
 
-/// `properties.id` as text (strings, or whole numbers written without quotes).
+/// `properties.id` as text (strings, or whole numbers written without quotes); when the
+/// properties have none, the Feature's own `id` member (RFC 7946 §3.2), which many GIS
+/// exports write instead.
 fn feature_id(feature: &Value) -> Option<String> {
-    match feature.get("properties")?.get("id")? {
+    let as_text = |v: &Value| match v {
         Value::String(s) if !s.trim().is_empty() => Some(s.trim().to_string()),
         Value::Number(n) if n.is_u64() || n.is_i64() => Some(n.to_string()),
         _ => None,
+    };
+    match feature.get("properties").and_then(|p| p.get("id")) {
+        Some(v) if !v.is_null() => as_text(v),
+        _ => feature.get("id").and_then(as_text),
     }
 }
 

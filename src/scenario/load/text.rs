@@ -47,21 +47,28 @@ impl Sink {
 /// Decodes a file as UTF-8 text without a byte-order mark. An invalid byte or an empty file is
 /// a problem (the line of the first invalid byte is named).
 pub(super) fn decode<'a>(file: &str, bytes: &'a [u8], sink: &mut Sink) -> Option<&'a str> {
-    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let (bom, bytes) = match bytes.strip_prefix(b"\xEF\xBB\xBF") {
+        Some(rest) => (3, rest),
+        None => (0, bytes),
+    };
     let text = match std::str::from_utf8(bytes) {
         Ok(t) => t,
         Err(e) => {
             let good = &bytes[..e.valid_up_to()];
             let line = 1 + good.iter().filter(|&&b| b == b'\n').count() as u64;
+            let hint = if file.ends_with(".csv") {
+                " (from a spreadsheet: save as 'CSV UTF-8')"
+            } else {
+                ""
+            };
             sink.problem(
                 file,
                 Location::Line(line),
                 None,
                 None,
                 format!(
-                    "byte {} is not valid UTF-8; save the file as UTF-8 text (in a spreadsheet: \
-                     'CSV UTF-8')",
-                    e.valid_up_to() + 1
+                    "byte {} of the file is not valid UTF-8; save the file as UTF-8 text{hint}",
+                    bom + e.valid_up_to() + 1
                 ),
             );
             return None;
@@ -109,7 +116,6 @@ pub(super) fn newline_offsets(text: &str) -> Vec<usize> {
 pub(super) struct Table<'f> {
     pub(super) file: &'f str,
     columns: BTreeMap<String, usize>,
-    width: usize,
     pub(super) rows: Vec<(u64, StringRecord)>,
 }
 
@@ -227,18 +233,11 @@ pub(super) fn read_table<'f>(
     Some(Table {
         file,
         columns,
-        width,
         rows,
     })
 }
 
 impl Table<'_> {
-    /// Number of header fields.
-    #[cfg_attr(not(test), allow(dead_code))]
-    pub(super) fn width(&self) -> usize {
-        self.width
-    }
-
     /// The trimmed cell of `col` in `rec` ("" when the column is absent).
     pub(super) fn cell<'r>(&self, rec: &'r StringRecord, col: &str) -> &'r str {
         self.columns
@@ -301,7 +300,6 @@ mod tests {
         let t = read_table("t.csv", text, &["id"], &mut sink).unwrap();
         let lines: Vec<u64> = t.rows.iter().map(|(l, _)| *l).collect();
         assert_eq!(lines, vec![2, 4]);
-        assert_eq!(t.width(), 2);
         assert!(sink.problems.is_empty());
     }
 
