@@ -472,3 +472,57 @@ fn feature_level_id_is_used_when_properties_have_none() {
     let s = scenario::load_dir(tmp.path()).unwrap();
     assert_eq!(s.sites[0].id.as_str(), "B1");
 }
+
+mod never_panics {
+    use super::*;
+    use proptest::prelude::*;
+
+    const FILES: [&str; 9] = [
+        "scenario.json",
+        "facilities.csv",
+        "supply.csv",
+        "blocks.geojson",
+        "requests.csv",
+        "scouting.csv",
+        "fleet.csv",
+        "overrides.csv",
+        "travel.csv",
+    ];
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(64))]
+
+        /// Any bytes in any one file give a scenario or problems, never a panic; and a file
+        /// that is not the original gives problems naming that file or loads cleanly.
+        #[test]
+        fn arbitrary_bytes_in_one_file(which in 0usize..FILES.len(), bytes in proptest::collection::vec(any::<u8>(), 0..400)) {
+            let dir = util::minimal_dir();
+            let mut owned: Vec<(String, Vec<u8>)> = FILES
+                .iter()
+                .map(|n| (n.to_string(), fs::read(dir.join(n)).unwrap()))
+                .collect();
+            owned[which].1 = bytes;
+            let files: Vec<(&str, &[u8])> = owned.iter().map(|(n, b)| (n.as_str(), b.as_slice())).collect();
+            if let Err(e) = scenario::load_files(&files) {
+                prop_assert!(!e.problems.is_empty());
+            }
+        }
+
+        /// Arbitrary text in one CSV cell is reported on that line or accepted.
+        #[test]
+        fn arbitrary_cell_text(cell in "[0-9]{0,3}[^\n\r\",]{0,6}[0-9]{0,12}") {
+            let dir = util::minimal_dir();
+            let supply = fs::read_to_string(dir.join("supply.csv")).unwrap().replacen("F1,2027-03-03,10", &format!("F1,2027-03-03,{cell}"), 1);
+            let mut owned: Vec<(String, Vec<u8>)> = FILES
+                .iter()
+                .map(|n| (n.to_string(), fs::read(dir.join(n)).unwrap()))
+                .collect();
+            owned[2].1 = supply.into_bytes();
+            let files: Vec<(&str, &[u8])> = owned.iter().map(|(n, b)| (n.as_str(), b.as_slice())).collect();
+            match scenario::load_files(&files) {
+                Ok(s) => prop_assert_eq!(Ok(s.supply[1].vials), cell.trim().parse::<u32>()),
+                Err(e) => prop_assert!(e.problems.iter().all(|p| p.to_string().starts_with("supply.csv:3: field 'vials'"))),
+            }
+        }
+    }
+}

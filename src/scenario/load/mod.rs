@@ -53,6 +53,13 @@ pub fn load_dir(dir: &Path) -> Result<Scenario, InputError> {
 /// Loads and validates a scenario given as (file name, bytes) pairs, e.g. files embedded in
 /// the binary. Names are relative to the scenario folder (`supply.csv`, or the
 /// `travel.matrix` path as written).
+///
+/// ```
+/// // Nothing given: every required file is reported missing, none is assumed.
+/// let err = broodcast::scenario::load_files(&[]).unwrap_err();
+/// assert_eq!(err.problems.len(), 7);
+/// assert!(err.to_string().contains("scenario.json: required file is missing"));
+/// ```
 pub fn load_files(files: &[(&str, &[u8])]) -> Result<Scenario, InputError> {
     load_with(&|name: &str| {
         files
@@ -68,6 +75,14 @@ pub fn load_embedded_demo() -> Result<Scenario, InputError> {
 }
 
 /// Parses and validates a travel-time matrix CSV; `file` names it in problems.
+///
+/// ```
+/// let m = broodcast::scenario::parse_travel_matrix("m.csv", b"id,F1,B1\nF1,0,12\nB1,11.5,0\n")
+///     .unwrap();
+/// assert_eq!(m.minutes[1][0], 11.5);
+/// let err = broodcast::scenario::parse_travel_matrix("m.csv", b"id,F1\nF1,3\n").unwrap_err();
+/// assert!(err.problems[0].to_string().starts_with("m.csv:2: field 'F1': value '3'"));
+/// ```
 pub fn parse_travel_matrix(file: &str, text: &[u8]) -> Result<TravelMatrix, InputError> {
     let mut sink = Sink::default();
     match matrix::parse(file, text, &mut sink) {
