@@ -9,6 +9,7 @@
 
 pub mod allocate;
 pub mod arcs;
+pub mod check;
 pub mod demo;
 pub mod dispatch;
 pub mod eligibility;

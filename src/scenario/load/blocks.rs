@@ -1,0 +1,464 @@
+//! `blocks.geojson`: an RFC 7946 FeatureCollection of Polygon/MultiPolygon grove blocks.
+//!
+//! Geometry is checked in three steps: the GeoJSON structure (through the `geojson` crate),
+//! ring rules from RFC 7946 §3.1.6 (closed, at least four positions) and coordinate ranges, then
+//! OGC simple-feature validity (self-intersection, holes outside, overlaps) through geo's
+//! `Validation`. Complexity: validation is O(n log n) to O(n²) in ring vertices per feature
+//! (geo's sweep), fine at block scale.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use geo::algorithm::Validation;
+use geo::orient::Direction;
+use geo::{Coord, LineString, MultiPolygon, Orient, Polygon};
+use serde_json::Value;
+
+use super::fields::{check_lat, check_lon, parse_date, parse_enum, parse_time};
+use super::text::Sink;
+use crate::scenario::problems::Location;
+use crate::scenario::{Block, Flush, LonLat, Management};
+
+/// A block as read, before it becomes a site.
+pub(super) struct BlockRow {
+    pub(super) index: usize,
+    pub(super) id: String,
+    pub(super) location: LonLat,
+    pub(super) block: Block,
+}
+
+struct Feat<'a> {
+    file: &'a str,
+    index: usize,
+    id: Option<String>,
+}
+
+impl Feat<'_> {
+    fn bad(
+        &self,
+        sink: &mut Sink,
+        field: Option<&str>,
+        value: Option<&str>,
+        msg: impl Into<String>,
+    ) {
+        sink.problem(
+            self.file,
+            Location::Feature {
+                index: self.index,
+                id: self.id.clone(),
+            },
+            field,
+            value,
+            msg,
+        );
+    }
+}
+
+fn shown(v: &Value) -> String {
+    match v {
+        Value::String(s) => s.clone(),
+        other => other.to_string(),
+    }
+}
+
+/// Parses and validates every feature. Also returns every block id written in the file, valid
+/// or not (`None` when the file is unusable as a whole), so that references to a block whose
+/// feature already has a problem are not reported twice.
+pub(super) fn parse(
+    file: &str,
+    text: &str,
+    sink: &mut Sink,
+) -> (Vec<BlockRow>, Option<BTreeSet<String>>) {
+    let root: Value = match serde_json::from_str(text) {
+        Ok(v) => v,
+        Err(e) => {
+            sink.problem(
+                file,
+                Location::Line(e.line() as u64),
+                None,
+                None,
+                format!("not valid JSON (column {}): {e}", e.column()),
+            );
+            return (Vec::new(), None);
+        }
+    };
+    if root.get("type").and_then(Value::as_str) != Some("FeatureCollection") {
+        sink.problem(
+            file,
+            Location::Key("type".into()),
+            None,
+            root.get("type").map(shown).as_deref(),
+            "the file must be a GeoJSON FeatureCollection: {\"type\": \"FeatureCollection\", \
+             \"features\": [...]}",
+        );
+        return (Vec::new(), None);
+    }
+    let Some(features) = root.get("features").and_then(Value::as_array) else {
+        sink.problem(
+            file,
+            Location::Key("features".into()),
+            None,
+            None,
+            "a FeatureCollection needs a \"features\" list",
+        );
+        return (Vec::new(), None);
+    };
+    let mut out = Vec::new();
+    let mut seen: BTreeMap<String, usize> = BTreeMap::new();
+    let mut declared = BTreeSet::new();
+    for (index, feature) in features.iter().enumerate() {
+        let id = feature_id(feature);
+        if let Some(id) = &id {
+            declared.insert(id.clone());
+        }
+        let f = Feat {
+            file,
+            index,
+            id: id.clone(),
+        };
+        if let Some(row) = parse_feature(&f, feature, sink) {
+            if let Some(first) = seen.get(&row.id) {
+                f.bad(
+                    sink,
+                    Some("id"),
+                    Some(&row.id),
+                    format!("duplicate id, first used by feature {first}; ids must be unique"),
+                );
+                continue;
+            }
+            seen.insert(row.id.clone(), index);
+            out.push(row);
+        }
+    }
+    (out, Some(declared))
+}
+
+/// `properties.id` as text (strings, or whole numbers written without quotes); when the
+/// properties have none, the Feature's own `id` member (RFC 7946 §3.2), which many GIS
+/// exports write instead.
+fn feature_id(feature: &Value) -> Option<String> {
+    let as_text = |v: &Value| match v {
+        Value::String(s) if !s.trim().is_empty() => Some(s.trim().to_string()),
+        Value::Number(n) if n.is_u64() || n.is_i64() => Some(n.to_string()),
+        _ => None,
+    };
+    match feature.get("properties").and_then(|p| p.get("id")) {
+        Some(v) if !v.is_null() => as_text(v),
+        _ => feature.get("id").and_then(as_text),
+    }
+}
+
+fn parse_feature(f: &Feat<'_>, feature: &Value, sink: &mut Sink) -> Option<BlockRow> {
+    if feature.get("type").and_then(Value::as_str) != Some("Feature") {
+        f.bad(
+            sink,
+            Some("type"),
+            None,
+            "each entry of \"features\" must be a GeoJSON Feature",
+        );
+        return None;
+    }
+    let Some(props) = feature.get("properties").and_then(Value::as_object) else {
+        f.bad(
+            sink,
+            Some("properties"),
+            None,
+            "the feature needs a \"properties\" object",
+        );
+        return None;
+    };
+    let id = match &f.id {
+        Some(id) => Some(id.clone()),
+        None => {
+            f.bad(
+                sink,
+                Some("id"),
+                props.get("id").map(shown).as_deref(),
+                "every block needs an \"id\" property (a non-empty string)",
+            );
+            None
+        }
+    };
+    let text_prop = |key: &str, sink: &mut Sink| -> Option<String> {
+        match props.get(key) {
+            Some(Value::String(s)) => Some(s.trim().to_string()),
+            Some(v) => {
+                f.bad(sink, Some(key), Some(&shown(v)), "expected a string");
+                None
+            }
+            None => {
+                f.bad(sink, Some(key), None, "required property is missing");
+                None
+            }
+        }
+    };
+    let parsed = |key: &str, sink: &mut Sink, p: &dyn Fn(&str) -> Result<_, String>| {
+        let s = text_prop(key, sink)?;
+        p(&s)
+            .map_err(|msg| f.bad(sink, Some(key), Some(&s), msg))
+            .ok()
+    };
+    let crop = text_prop("crop", sink);
+    let management = text_prop("management", sink).and_then(|s| {
+        parse_enum(
+            &s,
+            &[
+                ("conventional", Management::Conventional),
+                ("organic", Management::Organic),
+                ("abandoned", Management::Abandoned),
+            ],
+        )
+        .map_err(|msg| f.bad(sink, Some("management"), Some(&s), msg))
+        .ok()
+    });
+    let flush = text_prop("flush", sink).and_then(|s| {
+        parse_enum(
+            &s,
+            &[
+                ("none", Flush::None),
+                ("light", Flush::Light),
+                ("heavy", Flush::Heavy),
+            ],
+        )
+        .map_err(|msg| f.bad(sink, Some("flush"), Some(&s), msg))
+        .ok()
+    });
+    let last_insecticide = match props.get("last_insecticide") {
+        None | Some(Value::Null) => Some(None),
+        Some(Value::String(s)) => match parse_date(s.trim()) {
+            Ok(d) => Some(Some(d)),
+            Err(msg) => {
+                f.bad(
+                    sink,
+                    Some("last_insecticide"),
+                    Some(s),
+                    format!("{msg}, or null"),
+                );
+                None
+            }
+        },
+        Some(v) => {
+            f.bad(
+                sink,
+                Some("last_insecticide"),
+                Some(&shown(v)),
+                "expected a date string YYYY-MM-DD or null",
+            );
+            None
+        }
+    };
+    let access_start = parsed("access_start", sink, &parse_time);
+    let access_end = parsed("access_end", sink, &parse_time);
+    if let (Some(s), Some(e)) = (access_start, access_end)
+        && s >= e
+    {
+        f.bad(
+            sink,
+            Some("access_end"),
+            Some(&e.format("%H:%M").to_string()),
+            format!("access must end after it starts ({})", s.format("%H:%M")),
+        );
+    }
+    let access = access_point(f, props, sink);
+    let geometry = geometry(f, feature.get("geometry"), sink);
+
+    let (Some(id), Some(crop), Some(management), Some(flush), Some(last_insecticide)) =
+        (id, crop, management, flush, last_insecticide)
+    else {
+        return None;
+    };
+    let (Some(access_start), Some(access_end), Some(access), Some(geometry)) =
+        (access_start, access_end, access, geometry)
+    else {
+        return None;
+    };
+    if access_start >= access_end {
+        return None;
+    }
+    let location = match access {
+        Some(p) => p,
+        None => match crate::geodesy::default_access_point(&geometry) {
+            Some(p) => p,
+            None => {
+                f.bad(
+                    sink,
+                    Some("geometry"),
+                    None,
+                    "no access point can be derived; give access_lon and access_lat",
+                );
+                return None;
+            }
+        },
+    };
+    Some(BlockRow {
+        index: f.index,
+        id,
+        location,
+        block: Block {
+            crop,
+            management,
+            flush,
+            last_insecticide,
+            access_start,
+            access_end,
+            area_ha: crate::geodesy::area_ha(&geometry),
+            geometry,
+        },
+    })
+}
+
+/// `Some(None)`: neither given; `Some(Some(p))`: both valid; `None`: a problem was recorded.
+fn access_point(
+    f: &Feat<'_>,
+    props: &serde_json::Map<String, Value>,
+    sink: &mut Sink,
+) -> Option<Option<LonLat>> {
+    let get = |k: &str| props.get(k).filter(|v| !v.is_null());
+    match (get("access_lon"), get("access_lat")) {
+        (None, None) => Some(None),
+        (Some(lon), Some(lat)) => {
+            let lon_ok = lon
+                .as_f64()
+                .ok_or_else(|| "expected a number of degrees".to_string())
+                .and_then(check_lon)
+                .map_err(|m| f.bad(sink, Some("access_lon"), Some(&shown(lon)), m))
+                .ok();
+            let lat_ok = lat
+                .as_f64()
+                .ok_or_else(|| "expected a number of degrees".to_string())
+                .and_then(check_lat)
+                .map_err(|m| f.bad(sink, Some("access_lat"), Some(&shown(lat)), m))
+                .ok();
+            Some(Some(LonLat {
+                lon: lon_ok?,
+                lat: lat_ok?,
+            }))
+        }
+        (Some(_), None) | (None, Some(_)) => {
+            f.bad(
+                sink,
+                Some("access_lon/access_lat"),
+                None,
+                "give both access_lon and access_lat, or neither",
+            );
+            None
+        }
+    }
+}
+
+fn geometry(f: &Feat<'_>, geom: Option<&Value>, sink: &mut Sink) -> Option<MultiPolygon<f64>> {
+    let Some(geom) = geom.filter(|g| !g.is_null()) else {
+        f.bad(
+            sink,
+            Some("geometry"),
+            None,
+            "the block needs a Polygon or MultiPolygon geometry",
+        );
+        return None;
+    };
+    let parsed: geojson::Geometry = match serde_json::from_value(geom.clone()) {
+        Ok(g) => g,
+        Err(e) => {
+            f.bad(
+                sink,
+                Some("geometry"),
+                None,
+                format!("not a valid GeoJSON geometry: {e}"),
+            );
+            return None;
+        }
+    };
+    let polygons: Vec<&geojson::PolygonType> = match &parsed.value {
+        geojson::GeometryValue::Polygon { coordinates } => vec![coordinates],
+        geojson::GeometryValue::MultiPolygon { coordinates } => coordinates.iter().collect(),
+        other => {
+            f.bad(
+                sink,
+                Some("geometry"),
+                Some(other.type_name()),
+                "blocks must be Polygon or MultiPolygon",
+            );
+            return None;
+        }
+    };
+    let mut ok = true;
+    let mut out = Vec::with_capacity(polygons.len());
+    for (pi, rings) in polygons.iter().enumerate() {
+        if rings.is_empty() {
+            f.bad(
+                sink,
+                Some("geometry"),
+                None,
+                format!("polygon {pi} has no rings"),
+            );
+            ok = false;
+            continue;
+        }
+        let mut geo_rings = Vec::with_capacity(rings.len());
+        for (ri, ring) in rings.iter().enumerate() {
+            match ring_coords(ring) {
+                Ok(c) => geo_rings.push(LineString::new(c)),
+                Err(msg) => {
+                    f.bad(
+                        sink,
+                        Some("geometry"),
+                        None,
+                        format!("polygon {pi} ring {ri}: {msg}"),
+                    );
+                    ok = false;
+                }
+            }
+        }
+        if ok {
+            let mut it = geo_rings.into_iter();
+            if let Some(exterior) = it.next() {
+                out.push(Polygon::new(exterior, it.collect()));
+            }
+        }
+    }
+    if !ok {
+        return None;
+    }
+    let shape = MultiPolygon::new(out);
+    let errors = shape.validation_errors();
+    if !errors.is_empty() {
+        for e in errors {
+            f.bad(
+                sink,
+                Some("geometry"),
+                None,
+                format!(
+                    "invalid polygon: {e}; fix the outline in a GIS (e.g. remove the crossing)"
+                ),
+            );
+        }
+        return None;
+    }
+    Some(shape.orient(Direction::Default))
+}
+
+/// RFC 7946 ring rules and coordinate ranges.
+fn ring_coords(ring: &[geojson::Position]) -> Result<Vec<Coord<f64>>, String> {
+    if ring.len() < 4 {
+        return Err(format!(
+            "a ring needs at least 4 positions (first repeated last), found {}",
+            ring.len()
+        ));
+    }
+    let mut coords = Vec::with_capacity(ring.len());
+    for (i, p) in ring.iter().enumerate() {
+        let s = p.as_slice();
+        let (Some(&x), Some(&y)) = (s.first(), s.get(1)) else {
+            return Err(format!("position {i} needs a longitude and a latitude"));
+        };
+        if !x.is_finite() || !y.is_finite() {
+            return Err(format!("position {i} is not finite"));
+        }
+        check_lon(x).map_err(|m| format!("position {i}: {m}"))?;
+        check_lat(y).map_err(|m| format!("position {i}: {m}"))?;
+        coords.push(Coord { x, y });
+    }
+    if coords.first() != coords.last() {
+        return Err("the ring is not closed; repeat the first position at the end".into());
+    }
+    Ok(coords)
+}

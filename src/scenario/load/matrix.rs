@@ -1,0 +1,230 @@
+//! The optional travel-time matrix: a square CSV of drive minutes.
+//!
+//! ```text
+//! id,F1,B1,R1
+//! F1,0,12.5,20
+//! B1,13,0,9
+//! R1,21,9.5,0
+//! ```
+//! The first header cell is a free label; the other header cells are location ids, and row `i`
+//! starts with the `i`-th of them. Complexity: O(n²) cells, O(n log n) for the id check.
+
+use std::collections::BTreeMap;
+
+use super::fields::parse_f64;
+use super::text::{Sink, decode, line_of, newline_offsets};
+use crate::scenario::TravelMatrix;
+use crate::scenario::problems::Location;
+
+/// Parses a matrix from bytes; every problem goes to `sink`. `None` if anything is wrong.
+pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelMatrix> {
+    let before = sink.problems.len();
+    let text = decode(file, bytes, sink)?;
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    let newlines = newline_offsets(text);
+    let mut records = reader.records();
+    let header = match records.next() {
+        Some(Ok(h)) => h,
+        Some(Err(e)) => {
+            sink.problem(
+                file,
+                Location::Line(1),
+                None,
+                None,
+                format!("unreadable header: {e}"),
+            );
+            return None;
+        }
+        None => {
+            sink.problem(
+                file,
+                Location::File,
+                None,
+                None,
+                "the matrix has no header row",
+            );
+            return None;
+        }
+    };
+    let ids: Vec<String> = header
+        .iter()
+        .skip(1)
+        .map(|s| s.trim().to_string())
+        .collect();
+    if ids.is_empty() {
+        sink.problem(
+            file,
+            Location::Line(1),
+            None,
+            None,
+            "the header lists no location ids; write a corner label, then one id per column",
+        );
+        return None;
+    }
+    let mut seen = BTreeMap::new();
+    for (j, id) in ids.iter().enumerate() {
+        if id.is_empty() {
+            sink.problem(
+                file,
+                Location::Line(1),
+                Some(&format!("column {}", j + 2)),
+                None,
+                "an empty location id; every column needs the id of a facility or site",
+            );
+        } else if let Some(first) = seen.insert(id.clone(), j) {
+            sink.problem(
+                file,
+                Location::Line(1),
+                Some(&format!("column {}", j + 2)),
+                Some(id),
+                format!("the id is also column {}; each id appears once", first + 2),
+            );
+        }
+    }
+    let n = ids.len();
+    let mut minutes: Vec<Vec<f64>> = Vec::with_capacity(n);
+    let mut last_line = 1;
+    for rec in records {
+        let rec = match rec {
+            Ok(r) => r,
+            Err(e) => {
+                let line = line_of(text, &newlines, e.position());
+                sink.problem(
+                    file,
+                    Location::Line(line),
+                    None,
+                    None,
+                    format!("unreadable row: {e}"),
+                );
+                continue;
+            }
+        };
+        let line = line_of(text, &newlines, rec.position());
+        last_line = line;
+        if rec.len() == 1 && rec.get(0).is_some_and(|c| c.trim().is_empty()) {
+            continue;
+        }
+        let i = minutes.len();
+        if i >= n {
+            sink.problem(
+                file,
+                Location::Line(line),
+                None,
+                None,
+                format!("more rows than the {n} ids in the header; the matrix must be square"),
+            );
+            minutes.push(Vec::new());
+            continue;
+        }
+        let row_id = rec.get(0).map_or("", str::trim);
+        if row_id != ids[i] {
+            sink.problem(
+                file,
+                Location::Line(line),
+                Some("column 1"),
+                Some(row_id),
+                format!(
+                    "row {} must start with '{}', the id of header column {}; rows follow the \
+                     header order",
+                    i + 1,
+                    ids[i],
+                    i + 2
+                ),
+            );
+        }
+        if rec.len() != n + 1 {
+            sink.problem(
+                file,
+                Location::Line(line),
+                None,
+                None,
+                format!(
+                    "the row has {} values, expected {n} (one per header id)",
+                    rec.len() - 1
+                ),
+            );
+            minutes.push(Vec::new());
+            continue;
+        }
+        let mut row = Vec::with_capacity(n);
+        for (j, cell) in rec.iter().skip(1).enumerate() {
+            let cell = cell.trim();
+            let col = ids.get(j).map_or("", String::as_str);
+            match parse_f64(cell) {
+                Ok(v) if v < 0.0 => sink.problem(
+                    file,
+                    Location::Line(line),
+                    Some(col),
+                    Some(cell),
+                    "drive minutes are 0 or more",
+                ),
+                Ok(v) if i == j && v != 0.0 => sink.problem(
+                    file,
+                    Location::Line(line),
+                    Some(col),
+                    Some(cell),
+                    "a location is 0 minutes from itself; the diagonal must be 0",
+                ),
+                Ok(v) => row.push(v),
+                Err(msg) => {
+                    sink.problem(file, Location::Line(line), Some(col), Some(cell), msg);
+                }
+            }
+        }
+        minutes.push(row);
+    }
+    if minutes.len() < n {
+        sink.problem(
+            file,
+            Location::Line(last_line),
+            None,
+            None,
+            format!(
+                "{} rows for {n} header ids; the matrix must be square (add the missing rows)",
+                minutes.len()
+            ),
+        );
+    }
+    if sink.problems.len() > before {
+        return None;
+    }
+    Some(TravelMatrix { ids, minutes })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn square_matrix_parses() {
+        let mut sink = Sink::default();
+        let m = parse("m.csv", b"id,A,B\nA,0,5\nB,6.5,0\n", &mut sink).unwrap();
+        assert_eq!(m.ids, vec!["A", "B"]);
+        assert_eq!(m.minutes, vec![vec![0.0, 5.0], vec![6.5, 0.0]]);
+    }
+
+    #[test]
+    fn each_matrix_defect_is_reported() {
+        let cases: [(&[u8], &str); 7] = [
+            (b"id,A,B\nA,0,5\n", "square"),
+            (b"id,A,A\nA,0,5\nA,5,0\n", "appears once"),
+            (b"id,A,B\nB,0,5\nA,5,0\n", "must start with"),
+            (b"id,A,B\nA,0,-5\nB,5,0\n", "0 or more"),
+            (b"id,A,B\nA,1,5\nB,5,0\n", "diagonal"),
+            (b"id,A,B\nA,0,x\nB,5,0\n", "number"),
+            (b"id,A,B\nA,0\nB,5,0\n", "expected 2"),
+        ];
+        for (text, want) in cases {
+            let mut sink = Sink::default();
+            assert!(parse("m.csv", text, &mut sink).is_none());
+            assert!(
+                sink.problems.iter().any(|p| p.to_string().contains(want)),
+                "{want}: {:?}",
+                sink.problems
+            );
+        }
+    }
+}

@@ -1,0 +1,400 @@
+//! Loading and validating a scenario folder (format v1, `docs/formats.md`).
+//! Raw rows live here and nowhere else.
+//!
+//! Disk folders and embedded files go through one path: the files are fetched by name, decoded
+//! (UTF-8, BOM and CRLF accepted), each file is checked row by row, then references and ids
+//! are checked across files. Every problem in every file is collected; a scenario comes out
+//! only when there are none. Complexity: O(total rows · log rows) plus geometry validation
+//! and O((sites + scouting points) · facilities) distance checks.
+
+mod blocks;
+mod config;
+mod fields;
+mod matrix;
+mod tables;
+mod text;
+
+use std::borrow::Cow;
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use super::problems::Location;
+use super::{
+    InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel, TravelMatrix,
+};
+use text::{Sink, decode};
+
+/// Where a scenario comes from.
+#[derive(Clone, Debug)]
+pub enum Source {
+    /// A folder on disk.
+    Dir(PathBuf),
+    /// The demo scenario built into the binary.
+    EmbeddedDemo,
+}
+
+/// Loads and validates a scenario from `source`.
+pub fn load(source: &Source) -> Result<Scenario, InputError> {
+    match source {
+        Source::Dir(dir) => load_dir(dir),
+        Source::EmbeddedDemo => load_embedded_demo(),
+    }
+}
+
+/// Loads and validates the scenario folder `dir`.
+pub fn load_dir(dir: &Path) -> Result<Scenario, InputError> {
+    load_with(&|name: &str| match std::fs::read(dir.join(name)) {
+        Ok(bytes) => Fetched::Found(Cow::Owned(bytes)),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Fetched::Missing,
+        Err(e) => Fetched::Unreadable(e.to_string()),
+    })
+}
+
+/// Loads and validates a scenario given as (file name, bytes) pairs, e.g. files embedded in
+/// the binary. Names are relative to the scenario folder (`supply.csv`, or the
+/// `travel.matrix` path as written).
+///
+/// ```
+/// // Nothing given: every required file is reported missing, none is assumed.
+/// let err = broodcast::scenario::load_files(&[]).unwrap_err();
+/// assert_eq!(err.problems.len(), 7);
+/// assert!(err.to_string().contains("scenario.json: required file is missing"));
+/// ```
+pub fn load_files(files: &[(&str, &[u8])]) -> Result<Scenario, InputError> {
+    load_with(&|name: &str| {
+        files
+            .iter()
+            .find(|(n, _)| normalize(n) == name)
+            .map_or(Fetched::Missing, |(_, b)| Fetched::Found(Cow::Borrowed(*b)))
+    })
+}
+
+/// Loads the built-in demo scenario ([`crate::demo::FILES`]) through the same checks.
+pub fn load_embedded_demo() -> Result<Scenario, InputError> {
+    load_files(crate::demo::FILES)
+}
+
+/// Parses and validates a travel-time matrix CSV; `file` names it in problems.
+///
+/// ```
+/// let m = broodcast::scenario::parse_travel_matrix("m.csv", b"id,F1,B1\nF1,0,12\nB1,11.5,0\n")
+///     .unwrap();
+/// assert_eq!(m.minutes[1][0], 11.5);
+/// let err = broodcast::scenario::parse_travel_matrix("m.csv", b"id,F1\nF1,3\n").unwrap_err();
+/// assert!(err.problems[0].to_string().starts_with("m.csv:2: field 'F1': value '3'"));
+/// ```
+pub fn parse_travel_matrix(file: &str, text: &[u8]) -> Result<TravelMatrix, InputError> {
+    let mut sink = Sink::default();
+    match matrix::parse(file, text, &mut sink) {
+        Some(m) if sink.problems.is_empty() => Ok(m),
+        _ => Err(InputError::from_problems(sink.problems)),
+    }
+}
+
+enum Fetched<'a> {
+    Found(Cow<'a, [u8]>),
+    Missing,
+    Unreadable(String),
+}
+
+/// Distance past which a site or scouting point is probably mistyped, km (common practice: a
+/// weekly delivery program serves a region, not a continent).
+const FAR_KM: f64 = 500.0;
+
+fn normalize(name: &str) -> &str {
+    name.trim_start_matches("./")
+}
+
+/// Fetches `name`; a missing required file is a problem, a missing optional file is `None`.
+fn fetch<'a>(
+    get: &dyn Fn(&str) -> Fetched<'a>,
+    name: &str,
+    required: bool,
+    sink: &mut Sink,
+) -> Option<Cow<'a, [u8]>> {
+    match get(name) {
+        Fetched::Found(b) => Some(b),
+        Fetched::Missing => {
+            if required {
+                sink.problem(
+                    name,
+                    Location::File,
+                    None,
+                    None,
+                    "required file is missing from the scenario folder; see docs/formats.md \
+                     (`broodcast demo --out DIR` writes an example)",
+                );
+            }
+            None
+        }
+        Fetched::Unreadable(e) => {
+            sink.problem(
+                name,
+                Location::File,
+                None,
+                None,
+                format!("cannot read the file: {e}"),
+            );
+            None
+        }
+    }
+}
+
+fn load_with<'a>(get: &dyn Fn(&str) -> Fetched<'a>) -> Result<Scenario, InputError> {
+    let mut sink = Sink::default();
+    let sink = &mut sink;
+
+    let cfg_bytes = fetch(get, "scenario.json", true, sink);
+    let cfg = cfg_bytes
+        .as_deref()
+        .and_then(|b| decode("scenario.json", b, sink))
+        .and_then(|t| config::parse("scenario.json", t, sink));
+    let week_start = cfg.as_ref().and_then(|c| c.week_start);
+
+    let bytes = fetch(get, "facilities.csv", true, sink);
+    let (facilities, facility_index) = match bytes
+        .as_deref()
+        .and_then(|b| decode("facilities.csv", b, sink))
+    {
+        Some(t) => tables::facilities("facilities.csv", t, sink),
+        None => (Vec::new(), None),
+    };
+
+    let bytes = fetch(get, "supply.csv", true, sink);
+    let supply = bytes
+        .as_deref()
+        .and_then(|b| decode("supply.csv", b, sink))
+        .map(|t| tables::supply("supply.csv", t, &facility_index, week_start, sink))
+        .unwrap_or_default();
+
+    let bytes = fetch(get, "blocks.geojson", true, sink);
+    let (blocks, block_ids_written) = bytes
+        .as_deref()
+        .and_then(|b| decode("blocks.geojson", b, sink))
+        .map(|t| blocks::parse("blocks.geojson", t, sink))
+        .unwrap_or_default();
+
+    let bytes = fetch(get, "requests.csv", true, sink);
+    let (requests, request_ids_written) = bytes
+        .as_deref()
+        .and_then(|b| decode("requests.csv", b, sink))
+        .map(|t| tables::requests("requests.csv", t, sink))
+        .unwrap_or_default();
+
+    // Blocks and requests share one id space: overrides and outputs name sites by id alone.
+    let block_ids: BTreeMap<&str, usize> =
+        blocks.iter().map(|b| (b.id.as_str(), b.index)).collect();
+    let mut sites: Vec<Site> = Vec::with_capacity(blocks.len() + requests.len());
+    let mut site_where: Vec<(&str, Location)> = Vec::with_capacity(blocks.len() + requests.len());
+    for b in &blocks {
+        site_where.push((
+            "blocks.geojson",
+            Location::Feature {
+                index: b.index,
+                id: Some(b.id.clone()),
+            },
+        ));
+        sites.push(Site {
+            id: SiteId(b.id.clone()),
+            location: b.location,
+            detail: SiteDetail::Block(b.block.clone()),
+        });
+    }
+    for r in requests {
+        if let Some(feature) = block_ids.get(r.id.as_str()) {
+            sink.problem(
+                "requests.csv",
+                Location::Line(r.line),
+                Some("id"),
+                Some(&r.id),
+                format!(
+                    "the id is already used by block feature {feature} in blocks.geojson; block \
+                     and request ids must differ (e.g. prefix requests with R)"
+                ),
+            );
+            continue;
+        }
+        site_where.push(("requests.csv", Location::Line(r.line)));
+        sites.push(Site {
+            id: SiteId(r.id),
+            location: r.location,
+            detail: SiteDetail::Dooryard(r.request),
+        });
+    }
+
+    let bytes = fetch(get, "scouting.csv", true, sink);
+    let scouting = bytes
+        .as_deref()
+        .and_then(|b| decode("scouting.csv", b, sink))
+        .map(|t| tables::scouting("scouting.csv", t, sink))
+        .unwrap_or_default();
+
+    let bytes = fetch(get, "fleet.csv", true, sink);
+    let fleet = bytes
+        .as_deref()
+        .and_then(|b| decode("fleet.csv", b, sink))
+        .map(|t| tables::fleet("fleet.csv", t, &facility_index, sink))
+        .unwrap_or_default();
+
+    let bytes = fetch(get, "overrides.csv", false, sink);
+    let override_rows = bytes
+        .as_deref()
+        .and_then(|b| decode("overrides.csv", b, sink))
+        .map(|t| tables::overrides("overrides.csv", t, sink))
+        .unwrap_or_default();
+    let site_index: BTreeMap<&str, usize> = sites
+        .iter()
+        .enumerate()
+        .map(|(i, s)| (s.id.as_str(), i))
+        .collect();
+    let mut overrides = Vec::with_capacity(override_rows.len());
+    // An id written in a file whose row or feature has a problem is not unknown: that problem
+    // is already reported. When a whole site file is unusable, nothing can be resolved.
+    let written = |id: &str| match (&block_ids_written, &request_ids_written) {
+        (Some(b), Some(r)) => b.contains(id) || r.contains(id),
+        _ => true,
+    };
+    for o in override_rows {
+        match site_index.get(o.site_id.as_str()) {
+            Some(&site) => overrides.push(Override {
+                site,
+                action: o.action,
+            }),
+            None if written(&o.site_id) => {}
+            None => sink.problem(
+                "overrides.csv",
+                Location::Line(o.line),
+                Some("site_id"),
+                Some(&o.site_id),
+                "no block or request has this id; check blocks.geojson and requests.csv",
+            ),
+        }
+    }
+
+    let travel_matrix = cfg
+        .as_ref()
+        .and_then(|c| c.matrix.as_deref())
+        .and_then(|path| load_matrix(get, path, sink));
+    if let Some(m) = &travel_matrix {
+        let file = cfg
+            .as_ref()
+            .and_then(|c| c.matrix.as_deref())
+            .unwrap_or("travel matrix");
+        let unknown: Vec<&str> = m
+            .ids
+            .iter()
+            .map(String::as_str)
+            .filter(|id| {
+                !site_index.contains_key(id) && !facilities.iter().any(|f| f.id.as_str() == *id)
+            })
+            .collect();
+        if !unknown.is_empty() {
+            sink.warning(
+                normalize(file),
+                Location::Line(1),
+                format!(
+                    "{} id(s) are not a facility or site and are ignored: {}",
+                    unknown.len(),
+                    unknown
+                        .iter()
+                        .take(10)
+                        .copied()
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            );
+        }
+    }
+
+    if !facilities.is_empty() {
+        let far = |p: LonLat| {
+            facilities
+                .iter()
+                .all(|f| crate::geodesy::distance_m(p, f.location) > FAR_KM * 1000.0)
+        };
+        for (site, (file, loc)) in sites.iter().zip(&site_where) {
+            if far(site.location) {
+                sink.warning(
+                    file,
+                    loc.clone(),
+                    format!(
+                        "site '{}' is more than {FAR_KM} km from every facility; check its \
+                         coordinates (lat/lon swapped, or a sign lost?)",
+                        site.id
+                    ),
+                );
+            }
+        }
+        for (line, s) in &scouting {
+            if far(s.location) {
+                sink.warning(
+                    "scouting.csv",
+                    Location::Line(*line),
+                    format!(
+                        "scouting point '{}' is more than {FAR_KM} km from every facility; check \
+                         its coordinates",
+                        s.id
+                    ),
+                );
+            }
+        }
+    }
+
+    let Some(cfg) = cfg.filter(|_| sink.problems.is_empty()) else {
+        return Err(InputError::from_problems(std::mem::take(
+            &mut sink.problems,
+        )));
+    };
+    let Some(week_start) = cfg.week_start else {
+        return Err(InputError::from_problems(std::mem::take(
+            &mut sink.problems,
+        )));
+    };
+    Ok(Scenario {
+        name: cfg.name,
+        week_start,
+        agent: cfg.agent,
+        policy: cfg.policy,
+        travel: Travel {
+            circuity: cfg.circuity,
+            speed_kmh: cfg.speed_kmh,
+            matrix: travel_matrix,
+        },
+        parcel: cfg.parcel,
+        dispatch: cfg.dispatch,
+        facilities,
+        supply: supply
+            .into_iter()
+            .map(|s| Supply {
+                facility: s.facility,
+                date: s.date,
+                vials: s.vials,
+            })
+            .collect(),
+        sites,
+        scouting: scouting.into_iter().map(|(_, s)| s).collect(),
+        fleet,
+        overrides,
+        warnings: std::mem::take(&mut sink.warnings),
+    })
+}
+
+fn load_matrix<'a>(
+    get: &dyn Fn(&str) -> Fetched<'a>,
+    path: &str,
+    sink: &mut Sink,
+) -> Option<TravelMatrix> {
+    let name = normalize(path.trim());
+    if name.is_empty() || Path::new(name).is_absolute() {
+        sink.problem(
+            "scenario.json",
+            Location::Key("travel.matrix".into()),
+            None,
+            Some(path),
+            "give the matrix file's path relative to the scenario folder, e.g. \"travel.csv\"",
+        );
+        return None;
+    }
+    let bytes = fetch(get, name, true, sink)?;
+    matrix::parse(name, &bytes, sink)
+}
