@@ -70,3 +70,519 @@ pub struct Allocation {
     /// Human-readable notes (e.g. "dooryard share 0.30 cannot be met: ...").
     pub notes: Vec<String>,
 }
+
+pub mod model;
+pub mod mps;
+
+mod lp;
+mod rounding;
+
+use std::collections::BTreeSet;
+
+use chrono::NaiveDate;
+
+use crate::arcs::{Arcs, Mode};
+use crate::scenario::{FacilityIdx, OverrideAction, Scenario};
+
+/// An arc as the dispatch feedback loop names it: (facility, dispatch date, site, mode).
+pub type ArcKey = (FacilityIdx, NaiveDate, SiteIdx, Mode);
+
+/// Allocation settings.
+#[derive(Clone, Debug)]
+pub struct AllocOptions {
+    /// Arcs to leave out (e.g. stops a route could not serve), by (facility, dispatch date,
+    /// site, mode); every pack date of a matching arc is left out.
+    pub excluded: BTreeSet<ArcKey>,
+    /// Solve on a working set of promising sites and price the rest with the duals (default
+    /// true). Off: one LP over every site. Both reach the same optimum.
+    pub pricing: bool,
+    /// Most rounding moves evaluated (default 20 million): a work budget, not a time limit,
+    /// so the plan does not depend on machine speed.
+    pub rounding_budget: u64,
+}
+
+impl Default for AllocOptions {
+    fn default() -> Self {
+        AllocOptions {
+            excluded: BTreeSet::new(),
+            pricing: true,
+            rounding_budget: 20_000_000,
+        }
+    }
+}
+
+/// Allocation errors. Infeasible policies are not errors: they are relaxed and explained in
+/// [`Allocation::notes`].
+#[derive(Debug, thiserror::Error)]
+pub enum AllocError {
+    /// `priority` must have one value per site.
+    #[error("scenario `{scenario}`: {got} priorities for {sites} sites")]
+    PriorityLength {
+        /// Scenario name.
+        scenario: String,
+        /// Priorities given.
+        got: usize,
+        /// Sites in the scenario.
+        sites: usize,
+    },
+    /// A priority is negative or not finite.
+    #[error(
+        "scenario `{scenario}`: site {site} has priority {value}; priorities must be finite and ≥ 0"
+    )]
+    BadPriority {
+        /// Scenario name.
+        scenario: String,
+        /// Site id.
+        site: String,
+        /// The value.
+        value: f64,
+    },
+    /// The arcs do not belong to this scenario.
+    #[error("scenario `{scenario}`: arcs do not match the scenario: {message}")]
+    ArcsMismatch {
+        /// Scenario name.
+        scenario: String,
+        /// What does not match.
+        message: String,
+    },
+    /// The LP solver failed (numerical trouble); the model is always feasible by
+    /// construction.
+    #[error("scenario `{scenario}`: {source}")]
+    Solver {
+        /// Scenario name.
+        scenario: String,
+        /// Solver error.
+        source: model::ModelError,
+    },
+}
+
+/// The objective of a whole-vial plan, recomputed from its shipments alone: Σ_s priority_s ·
+/// benefit(wasps alive at s) − Σ travel cost per vial × vials − force shortfall penalties
+/// (objective units: priority-weighted wasps). See `docs/model.md`.
+pub fn plan_objective(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+    shipments: &[Shipment],
+) -> Result<f64, AllocError> {
+    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
+    Ok(objective_of(&inst, scenario, shipments))
+}
+
+fn objective_of(inst: &lp::Instance, scenario: &Scenario, shipments: &[Shipment]) -> f64 {
+    let n = scenario.sites.len();
+    let mut e = vec![0.0; n];
+    let mut v = vec![0u32; n];
+    let mut cost = 0.0;
+    for sh in shipments {
+        if sh.arc.site < n {
+            e[sh.arc.site] += sh.wasps_expected_alive();
+            v[sh.arc.site] += sh.vials;
+        }
+        cost += scenario.policy.travel_cost_per_hour * sh.arc.drive_minutes.max(0.0) / 60.0
+            * f64::from(sh.vials);
+    }
+    let mut total = -cost;
+    for (sp, site) in inst.sites.iter().enumerate() {
+        let s = site.site;
+        total += inst.benefit(sp, e[s]);
+        match site.force {
+            Some(lp::Force::Vials(need)) => {
+                total -= inst.force_penalty_per_vial * (need - f64::from(v[s])).max(0.0)
+            }
+            Some(lp::Force::Wasps(need)) => {
+                total -= inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0)
+                    * (need - e[s]).max(0.0)
+            }
+            None => {}
+        }
+    }
+    total
+}
+
+/// The LP relaxation over every usable arc, as free MPS (maximisation, `OBJSENSE MAX`), with
+/// columns and rows named after domain ids. Its optimum is [`Allocation::lp_bound`] (the
+/// working set of `allocate` reaches the same optimum; pricing certifies it).
+pub fn export_mps(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+) -> Result<String, AllocError> {
+    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
+    let built = lp::build_model(&inst, &vec![true; inst.sites.len()]);
+    Ok(mps::write_mps(&built.model))
+}
+
+/// Plans the week in whole vials: LP relaxation (clarabel) with working-set pricing, then
+/// rounding and repair (see `docs/model.md`).
+///
+/// Complexity: each LP round is an interior-point solve over the working set (roughly
+/// O(nnz^1.2) in practice); pricing is O(arcs) per round; rounding is O(budget).
+pub fn allocate(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+) -> Result<Allocation, AllocError> {
+    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
+    let mut notes = inst.notes.clone();
+    let n = scenario.sites.len();
+    let (x, lp_bound, marginal, binding) = if inst.arcs.is_empty() {
+        notes.push(if scenario.total_supply_vials() == 0 {
+            "no vials are packed this week: nothing to allocate".to_string()
+        } else {
+            "no site can be reached with live wasps and a priority above 0: nothing to allocate"
+                .to_string()
+        });
+        (
+            Vec::new(),
+            0.0,
+            vec![0.0; scenario.facilities.len()],
+            Vec::new(),
+        )
+    } else {
+        let relax = lp::solve_relaxation(&inst, opts).map_err(|source| AllocError::Solver {
+            scenario: scenario.name.clone(),
+            source,
+        })?;
+        if opts.pricing {
+            let priced = relax.in_set.iter().filter(|b| **b).count();
+            notes.push(format!(
+                "LP solved on {priced} of {} reachable sites in {} round(s); no other site has \
+                 a positive reduced cost, so the bound holds for the whole pool",
+                inst.sites.len(),
+                relax.rounds
+            ));
+        }
+        let scale = inst.force_penalty_per_vial / 10.0;
+        let tol = 1e-6 * scale.max(1e-9);
+        let sol = &relax.solution;
+        for &(sp, slack, _) in &relax.built.force_rows {
+            if sol.values[slack] > 1e-6 {
+                notes.push(format!(
+                    "force of site {} cannot be met in full: short by {:.1} {} (supply, \
+                     capacity or policy limits); a penalty of {:.1} per vial of shortfall keeps \
+                     the plan valid",
+                    scenario.sites[inst.sites[sp].site].id,
+                    sol.values[slack],
+                    match inst.sites[sp].force {
+                        Some(lp::Force::Wasps(_)) => "wasps",
+                        _ => "vials",
+                    },
+                    inst.force_penalty_per_vial
+                ));
+            }
+        }
+        let mut marginal = vec![0.0f64; scenario.facilities.len()];
+        for (r, res) in inst.resources.iter().enumerate() {
+            if let lp::Resource::Supply(f, _) = res {
+                marginal[*f] = marginal[*f].max(relax.res_dual[r].max(0.0));
+            }
+        }
+        let mut binding: Vec<Binding> = relax
+            .built
+            .model
+            .rows
+            .iter()
+            .zip(&sol.duals)
+            .filter(|(_, d)| d.abs() > tol)
+            .map(|(r, d)| Binding {
+                name: r.name.clone(),
+                dual: *d,
+            })
+            .collect();
+        binding.sort_by(|a, b| {
+            b.dual
+                .abs()
+                .total_cmp(&a.dual.abs())
+                .then(a.name.cmp(&b.name))
+        });
+        if let Some(s) = inst.share
+            && relax.share_dual.abs() > tol
+        {
+            let requests = inst
+                .sites
+                .iter()
+                .filter(|s| s.kind == crate::scenario::SiteKind::Dooryard)
+                .count() as u64;
+            notes.push(format!(
+                "dooryard share {s:.2} binds: {requests} reachable request(s) × {} vials allow \
+                 at most {} dooryard vials, so block vials are held back to keep the share; \
+                 each vial the floor demands costs {:.1} objective units",
+                inst.per_request,
+                requests * u64::from(inst.per_request),
+                -relax.share_dual
+            ));
+        }
+        let x = rounding::round(&inst, &relax.x, &relax.in_set, opts.rounding_budget);
+        (x, sol.objective, marginal, binding)
+    };
+    let mut shipments: Vec<Shipment> = x
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| **v > 0)
+        .map(|(a, &v)| Shipment {
+            arc: inst.arcs[a].clone(),
+            vials: v,
+        })
+        .collect();
+    shipments.sort_by(|a, b| {
+        (
+            a.arc.facility,
+            a.arc.dispatch_date,
+            a.arc.site,
+            a.arc.pack_date,
+            a.arc.mode,
+        )
+            .cmp(&(
+                b.arc.facility,
+                b.arc.dispatch_date,
+                b.arc.site,
+                b.arc.pack_date,
+                b.arc.mode,
+            ))
+    });
+    let objective = objective_of(&inst, scenario, &shipments);
+    let mut vials = vec![0u32; n];
+    let mut alive = vec![0.0; n];
+    for sh in &shipments {
+        vials[sh.arc.site] += sh.vials;
+        alive[sh.arc.site] += sh.wasps_expected_alive();
+    }
+    let forbidden: BTreeSet<SiteIdx> = scenario
+        .overrides
+        .iter()
+        .filter(|o| o.action == OverrideAction::Forbid)
+        .map(|o| o.site)
+        .collect();
+    let has_usable: BTreeSet<SiteIdx> = inst.sites.iter().map(|s| s.site).collect();
+    let sites = (0..n)
+        .map(|s| {
+            let reason = if vials[s] > 0 {
+                None
+            } else if forbidden.contains(&s) {
+                Some(Reason::Forbidden)
+            } else if let Some(r) = arcs.no_arc_reason[s] {
+                Some(r)
+            } else if priority[s] == 0.0 {
+                Some(Reason::LowPriority)
+            } else if !has_usable.contains(&s) {
+                // Every arc was excluded by dispatch, or none has supply or capacity.
+                Some(if opts.excluded.iter().any(|k| k.2 == s) {
+                    Reason::Undeliverable
+                } else {
+                    Reason::OutOfReach
+                })
+            } else {
+                Some(Reason::BelowCutoff)
+            };
+            SiteOutcome {
+                site: s,
+                priority: priority[s],
+                eligible: arcs.no_arc_reason[s].is_none() && !forbidden.contains(&s),
+                reason,
+                vials: vials[s],
+                wasps_expected_alive: alive[s],
+            }
+        })
+        .collect();
+    let supply = scenario.total_supply_vials();
+    let shipped: u64 = shipments.iter().map(|s| u64::from(s.vials)).sum();
+    if supply > 0 && shipped < supply && !inst.arcs.is_empty() {
+        notes.push(format!(
+            "{shipped} of {supply} vials shipped; no whole vial more adds value within the release \
+             limits, vehicle and parcel capacity, shelf life and the dooryard share"
+        ));
+    }
+    let gap = if lp_bound.abs() > 1e-12 {
+        (1.0 - objective / lp_bound).max(0.0)
+    } else {
+        0.0
+    };
+    Ok(Allocation {
+        shipments,
+        sites,
+        lp_bound,
+        objective,
+        gap,
+        marginal_value_per_vial: marginal,
+        binding,
+        notes,
+    })
+}
+
+/// Seeded synthetic allocation inputs for tests and benchmarks (not a demo, not a reference):
+/// the `tiny()` fixture's policy, agent and fleet with generated sites, supply and arcs.
+#[doc(hidden)]
+pub mod synthetic {
+    use chrono::{Datelike, Days, NaiveTime};
+
+    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::scenario::{Scenario, Site, SiteDetail, SiteId, Supply, fixture::tiny};
+
+    /// SplitMix64: a tiny seeded generator, enough for test data.
+    #[derive(Clone, Debug)]
+    pub struct Rng(pub u64);
+
+    impl Rng {
+        /// Next 64 random bits.
+        pub fn next_u64(&mut self) -> u64 {
+            self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+            let mut z = self.0;
+            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+            z ^ (z >> 31)
+        }
+        /// Uniform in [0, 1).
+        pub fn unit(&mut self) -> f64 {
+            (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+        }
+        /// Uniform in 0..n (n ≥ 1).
+        pub fn below(&mut self, n: u64) -> u64 {
+            self.next_u64() % n.max(1)
+        }
+    }
+
+    /// `n_sites` sites (about one in five a dooryard request), `supply_vials` vials over the
+    /// five weekdays of both facilities, two or three arcs a site, skewed priorities (one in
+    /// ten 0). Returns (scenario, priority per site, arcs).
+    pub fn generate(seed: u64, n_sites: usize, supply_vials: u32) -> (Scenario, Vec<f64>, Arcs) {
+        let mut rng = Rng(seed);
+        let mut s = tiny();
+        let block = s.sites[0].clone();
+        let request = s.sites[6].clone();
+        s.sites = (0..n_sites)
+            .map(|i| {
+                let door = rng.below(5) == 0;
+                let mut site = if door { request.clone() } else { block.clone() };
+                site.id = SiteId(format!("{}{:05}", if door { "R" } else { "B" }, i + 1));
+                site.location.lon += rng.unit() * 0.4 - 0.2;
+                site.location.lat += rng.unit() * 0.4 - 0.2;
+                if let SiteDetail::Dooryard(r) = &mut site.detail {
+                    r.delivery = match rng.below(3) {
+                        0 => crate::scenario::Delivery::Route,
+                        1 => crate::scenario::Delivery::Parcel,
+                        _ => crate::scenario::Delivery::Either,
+                    };
+                }
+                site
+            })
+            .collect::<Vec<Site>>();
+        let per = supply_vials / 10;
+        let mut extra = supply_vials - per * 10;
+        s.supply = (0..2)
+            .flat_map(|f| (0..5u64).map(move |d| (f, d)))
+            .map(|(f, d)| {
+                let add = u32::from(extra > 0);
+                extra = extra.saturating_sub(1);
+                Supply {
+                    facility: f,
+                    date: s.week_start + Days::new(d),
+                    vials: per + add,
+                }
+            })
+            .collect();
+        // Vehicle capacity: most of a day's supply, so capacity binds on some days.
+        let daily = f64::from(supply_vials) / 5.0;
+        s.fleet[0].capacity_vials = (daily * 0.45).ceil() as u32 + 1;
+        s.fleet[1].capacity_vials = (daily * 0.6).ceil() as u32 + 1;
+        s.parcel.max_vials_per_day = (daily * 0.2).ceil() as u32 + 2;
+        let priority: Vec<f64> = (0..n_sites)
+            .map(|_| {
+                if rng.below(10) == 0 {
+                    0.0
+                } else {
+                    0.05 + rng.unit().powi(3) * 10.0
+                }
+            })
+            .collect();
+        let pack =
+            |d: chrono::NaiveDate| d.and_time(NaiveTime::from_hms_opt(6, 0, 0).expect("valid"));
+        let mut arcs = Vec::new();
+        for (i, site) in s.sites.iter().enumerate() {
+            let door = matches!(site.detail, SiteDetail::Dooryard(_));
+            let k = 2 + rng.below(2);
+            for _ in 0..k {
+                let facility = rng.below(2) as usize;
+                let day = rng.below(5);
+                let dispatch = s.week_start + Days::new(day);
+                let wd = dispatch.weekday();
+                let parcel_ok = door && s.parcel.days.contains(&wd) && rng.below(2) == 0;
+                let route_ok = s
+                    .fleet
+                    .iter()
+                    .any(|v| v.depot == facility && v.runs_on(dispatch));
+                let mode = if parcel_ok {
+                    Mode::Parcel
+                } else if route_ok {
+                    Mode::Route
+                } else {
+                    continue;
+                };
+                let held = if day > 0 { rng.below(2) } else { 0 };
+                let pack_date = dispatch - Days::new(held);
+                let drive = 10.0 + rng.unit() * 80.0;
+                let eta = match mode {
+                    Mode::Route => {
+                        dispatch.and_hms_opt(8, 0, 0).expect("valid")
+                            + chrono::Duration::minutes(drive as i64)
+                    }
+                    Mode::Parcel => {
+                        dispatch.and_hms_opt(15, 0, 0).expect("valid") + chrono::Duration::hours(24)
+                    }
+                };
+                let hours = (eta - pack(pack_date)).num_minutes() as f64 / 60.0;
+                let survival = s.agent.survival_at(hours);
+                let release_by =
+                    pack(pack_date) + chrono::Duration::hours(s.agent.shelf_life_hours as i64);
+                if survival <= 0.0 || eta > release_by {
+                    continue;
+                }
+                arcs.push(Arc {
+                    facility,
+                    pack_date,
+                    dispatch_date: dispatch,
+                    site: i,
+                    mode,
+                    eta,
+                    release_by,
+                    survival,
+                    wasps_alive_per_vial: f64::from(s.facilities[facility].wasps_per_vial)
+                        * survival,
+                    drive_minutes: if mode == Mode::Route { drive } else { 0.0 },
+                });
+            }
+        }
+        arcs.sort_by(|a, b| {
+            (a.site, a.facility, a.pack_date, a.dispatch_date, a.mode).cmp(&(
+                b.site,
+                b.facility,
+                b.pack_date,
+                b.dispatch_date,
+                b.mode,
+            ))
+        });
+        arcs.dedup_by(|a, b| {
+            (a.site, a.facility, a.pack_date, a.dispatch_date, a.mode)
+                == (b.site, b.facility, b.pack_date, b.dispatch_date, b.mode)
+        });
+        let mut has = vec![false; n_sites];
+        for a in &arcs {
+            has[a.site] = true;
+        }
+        let no_arc_reason = has
+            .iter()
+            .map(|&h| (!h).then_some(crate::eligibility::Reason::OutOfReach))
+            .collect();
+        (
+            s,
+            priority,
+            Arcs {
+                arcs,
+                no_arc_reason,
+            },
+        )
+    }
+}

@@ -1,0 +1,64 @@
+//! Allocation benchmark on seeded synthetic scenarios (`broodcast::allocate::synthetic`):
+//! model build, LP solve (with and without working-set pricing), rounding, gap and peak memory.
+//!
+//! Run: `cargo run --release --example bench_allocate [sizes...]` (default 500 1000 5000 20000
+//! 35000). Prints a Markdown table (the one in `docs/performance-allocate.md`).
+
+use std::time::Instant;
+
+use broodcast::allocate::{AllocOptions, allocate, export_mps, synthetic};
+
+/// Peak resident set of this process so far, MB (Linux `/proc/self/status` VmHWM; 0 elsewhere).
+fn peak_mb() -> f64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines()
+                .find(|l| l.starts_with("VmHWM:"))
+                .and_then(|l| l.split_whitespace().nth(1).map(str::to_string))
+        })
+        .and_then(|kb| kb.parse::<f64>().ok())
+        .map(|kb| kb / 1024.0)
+        .unwrap_or(0.0)
+}
+
+fn main() {
+    let sizes: Vec<usize> = std::env::args()
+        .skip(1)
+        .filter_map(|a| a.parse().ok())
+        .collect();
+    let sizes = if sizes.is_empty() {
+        vec![500, 1000, 5000, 20000, 35000]
+    } else {
+        sizes
+    };
+    println!(
+        "| sites | arcs | supply vials | build MPS s | allocate s (pricing) | LP rounds | gap | shipped | peak MB |"
+    );
+    println!("|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
+    for &n in &sizes {
+        let supply = if n <= 1000 { 800 } else { 1000 };
+        let (s, p, arcs) = synthetic::generate(42 + n as u64, n, supply);
+        let opts = AllocOptions::default();
+        let t = Instant::now();
+        let mps = export_mps(&s, &p, &arcs, &opts).expect("synthetic inputs are valid");
+        let build = t.elapsed().as_secs_f64();
+        drop(mps);
+        let t = Instant::now();
+        let a = allocate(&s, &p, &arcs, &opts).expect("synthetic inputs are valid");
+        let solve = t.elapsed().as_secs_f64();
+        let rounds = a
+            .notes
+            .iter()
+            .find(|n| n.starts_with("LP solved"))
+            .cloned()
+            .unwrap_or_default();
+        let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
+        println!(
+            "| {n} | {} | {supply} | {build:.2} | {solve:.2} | {rounds} | {:.3} % | {shipped} | {:.0} |",
+            arcs.arcs.len(),
+            a.gap * 100.0,
+            peak_mb()
+        );
+    }
+}

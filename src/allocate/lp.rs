@@ -1,0 +1,607 @@
+//! The allocation LP (formulation and symbols: `docs/model.md`).
+//!
+//! [`Instance`] gathers, once, everything both the LP and the rounding need: the usable arcs
+//! (excluded, forbidden and worthless arcs removed), the shared resources each arc draws on
+//! (supply per facility and pack day; vehicle capacity per depot and day, or the parcel cap per
+//! day), the site release limits and the forces. [`build_model`] writes the LP over a working
+//! set of sites; [`solve_relaxation`] grows that set by pricing the other sites with the duals
+//! until none has a positive reduced cost, which certifies the full-pool optimum.
+
+use std::collections::BTreeMap;
+
+use chrono::NaiveDate;
+
+use super::model::{LinearModel, ModelError, ModelSolution, Sense};
+use super::{AllocError, AllocOptions};
+use crate::arcs::{Arc, Arcs, Mode};
+use crate::scenario::{FacilityIdx, OverrideAction, Scenario, SiteIdx, SiteKind};
+
+/// A shared resource row.
+#[derive(Clone, Debug, PartialEq, Eq, PartialOrd, Ord)]
+pub(crate) enum Resource {
+    /// Vials packed at a facility on a day.
+    Supply(FacilityIdx, NaiveDate),
+    /// Vials the depot's vehicles carry on a dispatch day.
+    Capacity(FacilityIdx, NaiveDate),
+    /// Vials the parcel service takes on a dispatch day.
+    Parcel(NaiveDate),
+}
+
+/// What a force override asks of a site, in the LP's units.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) enum Force {
+    /// Σ vials ≥ this many vials.
+    Vials(f64),
+    /// Σ expected live wasps ≥ this many wasps (a block forced without a count: the minimum).
+    Wasps(f64),
+}
+
+/// One site's data for the model.
+#[derive(Clone, Debug)]
+pub(crate) struct SiteData {
+    pub site: SiteIdx,
+    pub kind: SiteKind,
+    pub priority: f64,
+    /// Usable arc indices (into `Instance::arcs`).
+    pub arcs: Vec<usize>,
+    pub force: Option<Force>,
+}
+
+/// Everything the LP and the rounding share.
+#[derive(Clone, Debug)]
+pub(crate) struct Instance<'a> {
+    pub scenario: &'a Scenario,
+    /// Usable arcs, in `Arcs` order.
+    pub arcs: Vec<&'a Arc>,
+    /// Travel cost per vial on each usable arc, objective units.
+    pub cost: Vec<f64>,
+    /// Resource indices each usable arc draws one vial from: supply, then capacity or parcel.
+    pub arc_res: Vec<[usize; 2]>,
+    pub resources: Vec<Resource>,
+    /// Vials available per resource.
+    pub res_rhs: Vec<f64>,
+    /// Sites with at least one usable arc (or a force), by ascending `SiteIdx`.
+    pub sites: Vec<SiteData>,
+    /// Position in `sites` of each usable arc's site.
+    pub arc_site: Vec<usize>,
+    /// Dooryard share floor when the row is kept.
+    pub share: Option<f64>,
+    /// Objective penalty per vial (per wasp for `Force::Wasps`, divided by the best wasps per
+    /// vial) of shortfall on a force row.
+    pub force_penalty_per_vial: f64,
+    pub best_alive_per_vial: f64,
+    pub target: f64,
+    pub max: f64,
+    pub min: f64,
+    pub weight2: f64,
+    pub per_request: u32,
+    pub notes: Vec<String>,
+}
+
+fn date(d: NaiveDate) -> String {
+    d.format("%Y-%m-%d").to_string()
+}
+
+impl<'a> Instance<'a> {
+    /// Checks inputs and gathers the instance. O(A log A) for A arcs.
+    pub fn new(
+        scenario: &'a Scenario,
+        priority: &[f64],
+        arcs: &'a Arcs,
+        opts: &AllocOptions,
+    ) -> Result<Self, AllocError> {
+        let n = scenario.sites.len();
+        if priority.len() != n {
+            return Err(AllocError::PriorityLength {
+                scenario: scenario.name.clone(),
+                got: priority.len(),
+                sites: n,
+            });
+        }
+        if let Some((i, p)) = priority
+            .iter()
+            .enumerate()
+            .find(|(_, p)| !p.is_finite() || **p < 0.0)
+        {
+            return Err(AllocError::BadPriority {
+                scenario: scenario.name.clone(),
+                site: scenario.sites[i].id.to_string(),
+                value: *p,
+            });
+        }
+        if arcs.no_arc_reason.len() != n {
+            return Err(AllocError::ArcsMismatch {
+                scenario: scenario.name.clone(),
+                message: format!(
+                    "no_arc_reason has {} entries for {n} sites",
+                    arcs.no_arc_reason.len()
+                ),
+            });
+        }
+        let mut notes = Vec::new();
+        let agent = &scenario.agent;
+        let policy = &scenario.policy;
+        let mut forbidden = vec![false; n];
+        let mut force: BTreeMap<SiteIdx, Force> = BTreeMap::new();
+        for o in &scenario.overrides {
+            if o.site >= n {
+                continue;
+            }
+            match o.action {
+                OverrideAction::Forbid => forbidden[o.site] = true,
+                OverrideAction::Force { vials } => {
+                    let f = match (scenario.sites[o.site].kind(), vials) {
+                        (SiteKind::Dooryard, _) => {
+                            Force::Vials(f64::from(policy.dooryard_vials_per_request))
+                        }
+                        (SiteKind::Block, Some(v)) => Force::Vials(f64::from(v)),
+                        (SiteKind::Block, None) => Force::Wasps(agent.min_release_wasps),
+                    };
+                    force.insert(o.site, f);
+                }
+            }
+        }
+        let mut supply: BTreeMap<(FacilityIdx, NaiveDate), f64> = BTreeMap::new();
+        for s in &scenario.supply {
+            *supply.entry((s.facility, s.date)).or_default() += f64::from(s.vials);
+        }
+        let mut capacity: BTreeMap<(FacilityIdx, NaiveDate), f64> = BTreeMap::new();
+        for v in &scenario.fleet {
+            for d in scenario.week_dates() {
+                if v.runs_on(d) {
+                    *capacity.entry((v.depot, d)).or_default() += f64::from(v.capacity_vials);
+                }
+            }
+        }
+        let mut res_index: BTreeMap<Resource, usize> = BTreeMap::new();
+        let mut resources = Vec::new();
+        let mut res_rhs = Vec::new();
+        let mut res_of = |r: Resource, rhs: f64| -> usize {
+            *res_index.entry(r.clone()).or_insert_with(|| {
+                resources.push(r);
+                res_rhs.push(rhs);
+                resources.len() - 1
+            })
+        };
+        let mut usable: Vec<&Arc> = Vec::new();
+        let mut arc_res = Vec::new();
+        let mut cost = Vec::new();
+        let (mut excluded, mut dead, mut no_resource) = (0usize, 0usize, 0usize);
+        for a in &arcs.arcs {
+            if a.site >= n || a.facility >= scenario.facilities.len() {
+                return Err(AllocError::ArcsMismatch {
+                    scenario: scenario.name.clone(),
+                    message: format!(
+                        "arc to site {} from facility {} is out of range",
+                        a.site, a.facility
+                    ),
+                });
+            }
+            if forbidden[a.site] {
+                continue;
+            }
+            if opts
+                .excluded
+                .contains(&(a.facility, a.dispatch_date, a.site, a.mode))
+            {
+                excluded += 1;
+                continue;
+            }
+            // An arc is worth nothing when its vials arrive dead or late, or when the site
+            // has no priority and no force.
+            if !(a.wasps_alive_per_vial > 0.0)
+                || a.eta > a.release_by
+                || a.dispatch_date < a.pack_date
+                || (priority[a.site] == 0.0 && !force.contains_key(&a.site))
+            {
+                dead += 1;
+                continue;
+            }
+            let sup = supply
+                .get(&(a.facility, a.pack_date))
+                .copied()
+                .unwrap_or(0.0);
+            let second = match a.mode {
+                Mode::Route => (
+                    Resource::Capacity(a.facility, a.dispatch_date),
+                    capacity
+                        .get(&(a.facility, a.dispatch_date))
+                        .copied()
+                        .unwrap_or(0.0),
+                ),
+                Mode::Parcel => (
+                    Resource::Parcel(a.dispatch_date),
+                    f64::from(scenario.parcel.max_vials_per_day),
+                ),
+            };
+            if sup <= 0.0 || second.1 <= 0.0 {
+                no_resource += 1;
+                continue;
+            }
+            let r0 = res_of(Resource::Supply(a.facility, a.pack_date), sup);
+            let r1 = res_of(second.0, second.1);
+            arc_res.push([r0, r1]);
+            cost.push(policy.travel_cost_per_hour * a.drive_minutes.max(0.0) / 60.0);
+            usable.push(a);
+        }
+        if excluded > 0 {
+            notes.push(format!(
+                "{excluded} arc(s) excluded by request (dispatch could not serve them)"
+            ));
+        }
+        if dead > 0 {
+            notes.push(format!(
+                "{dead} arc(s) left out: no live wasps on arrival, past release-by, or a site \
+                 with priority 0"
+            ));
+        }
+        if no_resource > 0 {
+            notes.push(format!(
+                "{no_resource} arc(s) left out: no vials packed that day, or no vehicle/parcel \
+                 capacity on the dispatch day"
+            ));
+        }
+        let mut by_site: BTreeMap<SiteIdx, Vec<usize>> = BTreeMap::new();
+        for (i, a) in usable.iter().enumerate() {
+            by_site.entry(a.site).or_default().push(i);
+        }
+        for (&s, f) in &force {
+            if forbidden[s] {
+                notes.push(format!(
+                    "site {} is both forced and forbidden: forbid wins",
+                    scenario.sites[s].id
+                ));
+            } else if !by_site.contains_key(&s) {
+                let why = arcs.no_arc_reason[s]
+                    .map(|r| r.code())
+                    .unwrap_or("every arc was excluded or carries no live wasps");
+                notes.push(format!(
+                    "force of site {} cannot be met: no usable arc ({why})",
+                    scenario.sites[s].id
+                ));
+            }
+            let _ = f;
+        }
+        let mut sites = Vec::new();
+        let mut arc_site = vec![0; usable.len()];
+        for (s, list) in by_site {
+            for &a in &list {
+                arc_site[a] = sites.len();
+            }
+            sites.push(SiteData {
+                site: s,
+                kind: scenario.sites[s].kind(),
+                priority: priority[s],
+                arcs: list,
+                force: force.get(&s).copied(),
+            });
+        }
+        let has_door = sites.iter().any(|s| s.kind == SiteKind::Dooryard);
+        let share = if policy.dooryard_share_min > 0.0 {
+            if has_door {
+                Some(policy.dooryard_share_min.min(1.0))
+            } else {
+                notes.push(format!(
+                    "dooryard share {:.2} dropped: no dooryard request can be reached this week, \
+                     so keeping it would forbid every block release",
+                    policy.dooryard_share_min
+                ));
+                None
+            }
+        } else {
+            None
+        };
+        let best_alive_per_vial = usable
+            .iter()
+            .map(|a| a.wasps_alive_per_vial)
+            .fold(0.0, f64::max);
+        let pmax = sites
+            .iter()
+            .map(|s| s.priority)
+            .fold(0.0, f64::max)
+            .max(1.0);
+        Ok(Instance {
+            scenario,
+            arcs: usable,
+            cost,
+            arc_res,
+            resources,
+            res_rhs,
+            sites,
+            arc_site,
+            share,
+            // Ten times what any vial can earn elsewhere: a force is met whenever it can be.
+            force_penalty_per_vial: 10.0 * pmax * best_alive_per_vial.max(1.0),
+            best_alive_per_vial,
+            target: agent.target_release_wasps,
+            max: agent.max_release_wasps,
+            min: agent.min_release_wasps,
+            weight2: agent.above_target_weight,
+            per_request: policy.dooryard_vials_per_request,
+            notes,
+        })
+    }
+
+    /// MPS-safe name of a resource row.
+    pub fn resource_name(&self, r: usize) -> String {
+        let f = |i: FacilityIdx| self.scenario.facilities[i].id.as_str().to_string();
+        match &self.resources[r] {
+            Resource::Supply(i, d) => format!("supply_{}_{}", f(*i), date(*d)),
+            Resource::Capacity(i, d) => format!("vehicles_{}_{}", f(*i), date(*d)),
+            Resource::Parcel(d) => format!("parcel_{}", date(*d)),
+        }
+    }
+
+    /// MPS-safe name of an arc column.
+    pub fn arc_name(&self, a: usize) -> String {
+        let arc = self.arcs[a];
+        format!(
+            "x_{}_{}_{}_{}_{}",
+            self.scenario.facilities[arc.facility].id,
+            date(arc.pack_date),
+            date(arc.dispatch_date),
+            self.scenario.sites[arc.site].id,
+            arc.mode.as_str()
+        )
+    }
+
+    /// Piecewise-linear benefit of `wasps` expected alive at site position `s`, objective
+    /// units (priority-weighted wasps).
+    pub fn benefit(&self, s: usize, wasps: f64) -> f64 {
+        let e = wasps.clamp(0.0, self.max);
+        let first = e.min(self.target);
+        let second = (e - self.target).max(0.0);
+        self.sites[s].priority * (first + self.weight2 * second)
+    }
+}
+
+/// The LP over a working set, with the map from domain objects to columns and rows.
+#[derive(Clone, Debug)]
+pub(crate) struct Built {
+    pub model: LinearModel,
+    /// Column of each usable arc (None outside the working set).
+    pub arc_col: Vec<Option<usize>>,
+    /// Row of each resource (None when no working-set arc draws on it).
+    pub res_row: Vec<Option<usize>>,
+    pub share_row: Option<usize>,
+    /// (site position, slack column, row) for each force in the working set.
+    pub force_rows: Vec<(usize, usize, usize)>,
+}
+
+/// Builds the LP over the sites with `in_set[s]` (positions in `inst.sites`).
+/// O(A + S) columns and rows.
+pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
+    let mut m = LinearModel::new(&format!("broodcast_{}", inst.scenario.name));
+    let mut arc_col = vec![None; inst.arcs.len()];
+    let mut res_terms: Vec<Vec<(usize, f64)>> = vec![Vec::new(); inst.resources.len()];
+    let mut share_terms = Vec::new();
+    let mut force_rows = Vec::new();
+    let span = (inst.max - inst.target).max(0.0);
+    let target = inst.target.min(inst.max).max(0.0);
+    for (sp, site) in inst.sites.iter().enumerate() {
+        if !in_set[sp] {
+            continue;
+        }
+        let id = inst.scenario.sites[site.site].id.as_str();
+        let mut alive_terms = Vec::with_capacity(site.arcs.len() + 2);
+        let mut vial_terms = Vec::with_capacity(site.arcs.len());
+        for &a in &site.arcs {
+            let c = m.add_column(&inst.arc_name(a), 0.0, f64::INFINITY, -inst.cost[a], false);
+            arc_col[a] = Some(c);
+            alive_terms.push((c, inst.arcs[a].wasps_alive_per_vial));
+            vial_terms.push((c, 1.0));
+            for &r in &inst.arc_res[a] {
+                res_terms[r].push((c, 1.0));
+            }
+            if inst.share.is_some() {
+                let s = inst.share.unwrap_or(0.0);
+                let coef = if site.kind == SiteKind::Dooryard {
+                    1.0 - s
+                } else {
+                    -s
+                };
+                share_terms.push((c, coef));
+            }
+        }
+        let u1 = m.add_column(&format!("u1_{id}"), 0.0, target, site.priority, false);
+        let u2 = m.add_column(
+            &format!("u2_{id}"),
+            0.0,
+            span,
+            site.priority * inst.weight2,
+            false,
+        );
+        // benefit_s: u1 + u2 ≤ E_s = Σ alive x.
+        let mut b: Vec<(usize, f64)> = alive_terms.iter().map(|&(c, v)| (c, -v)).collect();
+        b.push((u1, 1.0));
+        b.push((u2, 1.0));
+        m.add_row(&format!("benefit_{id}"), &b, Sense::Le, 0.0);
+        m.add_row(
+            &format!("maxrelease_{id}"),
+            &alive_terms,
+            Sense::Le,
+            inst.max,
+        );
+        if site.kind == SiteKind::Dooryard {
+            m.add_row(
+                &format!("request_{id}"),
+                &vial_terms,
+                Sense::Le,
+                f64::from(inst.per_request),
+            );
+        }
+        if let Some(f) = site.force {
+            let (terms, rhs, pen) = match f {
+                Force::Vials(v) => (vial_terms.clone(), v, inst.force_penalty_per_vial),
+                Force::Wasps(w) => (
+                    alive_terms.clone(),
+                    w,
+                    inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0),
+                ),
+            };
+            let slack = m.add_column(&format!("short_{id}"), 0.0, rhs, -pen, false);
+            let mut t = terms;
+            t.push((slack, 1.0));
+            let r = m.add_row(&format!("force_{id}"), &t, Sense::Ge, rhs);
+            force_rows.push((sp, slack, r));
+        }
+    }
+    let mut res_row = vec![None; inst.resources.len()];
+    for (r, terms) in res_terms.iter().enumerate() {
+        if !terms.is_empty() {
+            res_row[r] = Some(m.add_row(&inst.resource_name(r), terms, Sense::Le, inst.res_rhs[r]));
+        }
+    }
+    let share_row = match inst.share {
+        Some(_) if !share_terms.is_empty() => {
+            Some(m.add_row("dooryard_share", &share_terms, Sense::Ge, 0.0))
+        }
+        _ => None,
+    };
+    Built {
+        model: m,
+        arc_col,
+        res_row,
+        share_row,
+        force_rows,
+    }
+}
+
+/// The solved relaxation over the final working set.
+#[derive(Clone, Debug)]
+pub(crate) struct Relaxation {
+    pub built: Built,
+    pub solution: ModelSolution,
+    /// LP vials per usable arc (0 outside the working set).
+    pub x: Vec<f64>,
+    pub in_set: Vec<bool>,
+    /// Dual of each resource row (0 when absent).
+    pub res_dual: Vec<f64>,
+    pub share_dual: f64,
+    pub rounds: usize,
+}
+
+/// Reduced cost of arc `a` of a site outside the working set, per vial: the first wasps are
+/// worth `priority` each, so the site is worth adding iff some arc beats the duals of the
+/// shared rows it draws on.
+fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_dual: f64) -> f64 {
+    let site = &inst.sites[inst.arc_site[a]];
+    // The first (infinitesimal) vial earns the full weight: u1 has room whenever target > 0.
+    let slope = if inst.target > 0.0 { 1.0 } else { inst.weight2 };
+    let mut rc = site.priority * slope * inst.arcs[a].wasps_alive_per_vial - inst.cost[a];
+    for &r in &inst.arc_res[a] {
+        rc -= res_dual[r];
+    }
+    if let Some(s) = inst.share {
+        let coef = if site.kind == SiteKind::Dooryard {
+            1.0 - s
+        } else {
+            -s
+        };
+        rc -= share_dual * coef;
+    }
+    rc
+}
+
+/// Solves the LP, with working-set pricing when `opts.pricing` is set.
+///
+/// The first set holds every forced site, every dooryard and the best blocks by
+/// priority × best live wasps per vial until their target releases add up to three times the
+/// week's supply. Each round solves the set, prices every other site's arcs with the duals
+/// (O(A)) and adds the sites with a positive reduced cost; when none remains the working-set
+/// optimum is the full-pool optimum (LP duality: the set's duals are feasible for the full
+/// dual). After 12 rounds every site is added.
+pub(crate) fn solve_relaxation(
+    inst: &Instance,
+    opts: &AllocOptions,
+) -> Result<Relaxation, ModelError> {
+    let ns = inst.sites.len();
+    let mut in_set = vec![!opts.pricing; ns];
+    if opts.pricing {
+        let supply: f64 = inst.scenario.total_supply_vials() as f64;
+        let mut order: Vec<(f64, usize)> = Vec::new();
+        for (sp, s) in inst.sites.iter().enumerate() {
+            if s.force.is_some() || s.kind == SiteKind::Dooryard {
+                in_set[sp] = true;
+            } else {
+                let best = s
+                    .arcs
+                    .iter()
+                    .map(|&a| inst.arcs[a].wasps_alive_per_vial)
+                    .fold(0.0, f64::max);
+                order.push((s.priority * best, sp));
+            }
+        }
+        order.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+        let mut vials = 0.0;
+        for &(_, sp) in &order {
+            if vials > 3.0 * supply + 50.0 {
+                break;
+            }
+            in_set[sp] = true;
+            let best = inst.sites[sp]
+                .arcs
+                .iter()
+                .map(|&a| inst.arcs[a].wasps_alive_per_vial)
+                .fold(0.0, f64::max)
+                .max(1e-9);
+            vials += inst.target / best;
+        }
+    }
+    let scale = inst
+        .sites
+        .iter()
+        .map(|s| s.priority)
+        .fold(0.0, f64::max)
+        .max(1e-12)
+        * inst.best_alive_per_vial.max(1.0);
+    let mut rounds = 0;
+    loop {
+        rounds += 1;
+        let built = build_model(inst, &in_set);
+        let solution = built.model.solve_relaxation()?;
+        let mut res_dual = vec![0.0; inst.resources.len()];
+        for (r, row) in built.res_row.iter().enumerate() {
+            if let Some(row) = row {
+                res_dual[r] = solution.duals[*row];
+            }
+        }
+        let share_dual = built.share_row.map(|r| solution.duals[r]).unwrap_or(0.0);
+        let mut added = 0;
+        if opts.pricing && in_set.iter().any(|b| !b) {
+            let all = rounds >= 12;
+            let mut add = vec![false; ns];
+            for a in 0..inst.arcs.len() {
+                let sp = inst.arc_site[a];
+                if in_set[sp] || add[sp] {
+                    continue;
+                }
+                if all || reduced_cost(inst, a, &res_dual, share_dual) > 1e-7 * scale {
+                    add[sp] = true;
+                    added += 1;
+                }
+            }
+            for (sp, f) in add.iter().enumerate() {
+                if *f {
+                    in_set[sp] = true;
+                }
+            }
+        }
+        if added == 0 {
+            let x = built
+                .arc_col
+                .iter()
+                .map(|c| c.map(|c| solution.values[c].max(0.0)).unwrap_or(0.0))
+                .collect();
+            return Ok(Relaxation {
+                built,
+                solution,
+                x,
+                in_set,
+                res_dual,
+                share_dual,
+                rounds,
+            });
+        }
+    }
+}

@@ -1,0 +1,393 @@
+//! Our own linear-model representation: named columns and rows, always maximised.
+//!
+//! One [`LinearModel`] is what the allocation solves with clarabel (relaxation, with duals),
+//! what microlp solves when columns are integer (small reduced problems and tests), and what
+//! [`super::mps`] writes. Keeping one representation guarantees that the exported model is
+//! exactly the solved one.
+
+use std::collections::BTreeMap;
+
+use good_lp::solvers::clarabel::clarabel;
+use good_lp::solvers::microlp::microlp;
+use good_lp::{
+    DualValues, Expression, ProblemVariables, Solution, SolutionWithDual, SolverModel, Variable,
+    WithMipGap, WithTimeLimit, variable,
+};
+
+/// Errors from building or solving a [`LinearModel`].
+#[derive(Debug, thiserror::Error)]
+pub enum ModelError {
+    /// The solver proved the model infeasible.
+    #[error("model `{model}` is infeasible")]
+    Infeasible {
+        /// Model name.
+        model: String,
+    },
+    /// The solver proved the model unbounded.
+    #[error("model `{model}` is unbounded")]
+    Unbounded {
+        /// Model name.
+        model: String,
+    },
+    /// Any other solver failure (numerical trouble, iteration or time limit).
+    #[error("solver {solver} failed on model `{model}`: {message}")]
+    Solver {
+        /// Solver name.
+        solver: &'static str,
+        /// Model name.
+        model: String,
+        /// The solver's message.
+        message: String,
+    },
+}
+
+/// Row sense.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Sense {
+    /// Σ terms ≤ rhs.
+    Le,
+    /// Σ terms ≥ rhs.
+    Ge,
+    /// Σ terms = rhs.
+    Eq,
+}
+
+/// One column (variable).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Column {
+    /// Name, already sanitised for MPS (unique in the model).
+    pub name: String,
+    /// Lower bound (may be `-inf`).
+    pub lower: f64,
+    /// Upper bound (may be `inf`).
+    pub upper: f64,
+    /// Objective coefficient (the model is maximised).
+    pub objective: f64,
+    /// Whether the column must take an integer value (ignored by the relaxation).
+    pub integer: bool,
+}
+
+/// One row (constraint).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Row {
+    /// Name, already sanitised for MPS (unique in the model).
+    pub name: String,
+    /// (column index, coefficient), column indices ascending, no duplicates.
+    pub terms: Vec<(usize, f64)>,
+    /// Sense.
+    pub sense: Sense,
+    /// Right-hand side.
+    pub rhs: f64,
+}
+
+/// A solved model.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ModelSolution {
+    /// Column values, by column index.
+    pub values: Vec<f64>,
+    /// Row duals (objective gained per unit increase of the row's rhs; ≥ 0 for a binding ≤ row
+    /// of a maximisation), by row index. Empty when the solver gives none (microlp).
+    pub duals: Vec<f64>,
+    /// Objective value Σ objective × value.
+    pub objective: f64,
+}
+
+/// A maximisation model with named columns and rows (STYLE.md point 10: one builder struct
+/// holding the variables, the objective and the map from names to variables).
+#[derive(Clone, Debug, Default)]
+pub struct LinearModel {
+    /// Model name (the MPS `NAME`).
+    pub name: String,
+    /// Columns in creation order.
+    pub columns: Vec<Column>,
+    /// Rows in creation order.
+    pub rows: Vec<Row>,
+    names: BTreeMap<String, usize>,
+    row_names: BTreeMap<String, usize>,
+}
+
+/// Replaces every character MPS free format cannot carry in a name (space, tab, `$`, `*` and
+/// anything outside printable ASCII) by `_`.
+pub fn sanitize_name(raw: &str) -> String {
+    let s: String = raw
+        .chars()
+        .map(|c| {
+            if c.is_ascii_graphic() && c != '$' && c != '*' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    if s.is_empty() { "_".to_string() } else { s }
+}
+
+fn unique(map: &BTreeMap<String, usize>, base: String) -> String {
+    if !map.contains_key(&base) {
+        return base;
+    }
+    (2..)
+        .map(|k| format!("{base}~{k}"))
+        .find(|n| !map.contains_key(n))
+        .expect("an unused suffix always exists")
+}
+
+impl LinearModel {
+    /// An empty model.
+    pub fn new(name: &str) -> Self {
+        LinearModel {
+            name: sanitize_name(name),
+            ..Default::default()
+        }
+    }
+
+    /// Adds a column and returns its index. The name is sanitised and made unique (`~2`, …).
+    pub fn add_column(
+        &mut self,
+        name: &str,
+        lower: f64,
+        upper: f64,
+        objective: f64,
+        integer: bool,
+    ) -> usize {
+        let name = unique(&self.names, sanitize_name(name));
+        let idx = self.columns.len();
+        self.names.insert(name.clone(), idx);
+        self.columns.push(Column {
+            name,
+            lower,
+            upper,
+            objective,
+            integer,
+        });
+        idx
+    }
+
+    /// Adds a row and returns its index. Terms on the same column are summed; zero
+    /// coefficients are dropped. Complexity O(t log t) for t terms.
+    pub fn add_row(&mut self, name: &str, terms: &[(usize, f64)], sense: Sense, rhs: f64) -> usize {
+        let mut t: Vec<(usize, f64)> = terms.to_vec();
+        t.sort_by_key(|&(c, _)| c);
+        let mut merged: Vec<(usize, f64)> = Vec::with_capacity(t.len());
+        for (c, v) in t {
+            match merged.last_mut() {
+                Some(last) if last.0 == c => last.1 += v,
+                _ => merged.push((c, v)),
+            }
+        }
+        merged.retain(|&(_, v)| v != 0.0);
+        let name = unique(&self.row_names, sanitize_name(name));
+        let idx = self.rows.len();
+        self.row_names.insert(name.clone(), idx);
+        self.rows.push(Row {
+            name,
+            terms: merged,
+            sense,
+            rhs,
+        });
+        idx
+    }
+
+    /// Index of the column named `name` (sanitised name).
+    pub fn column(&self, name: &str) -> Option<usize> {
+        self.names.get(name).copied()
+    }
+
+    /// Index of the row named `name` (sanitised name).
+    pub fn row(&self, name: &str) -> Option<usize> {
+        self.row_names.get(name).copied()
+    }
+
+    /// Σ objective × value.
+    pub fn objective_of(&self, values: &[f64]) -> f64 {
+        self.columns
+            .iter()
+            .zip(values)
+            .map(|(c, v)| c.objective * v)
+            .sum()
+    }
+
+    /// Largest violation of any bound or row by `values` (0 when feasible).
+    pub fn max_violation(&self, values: &[f64]) -> f64 {
+        let mut worst: f64 = 0.0;
+        for (c, &v) in self.columns.iter().zip(values) {
+            worst = worst.max(c.lower - v).max(v - c.upper);
+        }
+        for r in &self.rows {
+            let lhs: f64 = r.terms.iter().map(|&(c, a)| a * values[c]).sum();
+            let viol = match r.sense {
+                Sense::Le => lhs - r.rhs,
+                Sense::Ge => r.rhs - lhs,
+                Sense::Eq => (lhs - r.rhs).abs(),
+            };
+            worst = worst.max(viol);
+        }
+        worst
+    }
+
+    fn to_good_lp(&self, integer: bool) -> (ProblemVariables, Vec<Variable>, Expression) {
+        let mut vars = ProblemVariables::new();
+        let cols: Vec<Variable> = self
+            .columns
+            .iter()
+            .map(|c| {
+                let mut d = variable().name(c.name.clone());
+                if c.lower.is_finite() {
+                    d = d.min(c.lower);
+                }
+                if c.upper.is_finite() {
+                    d = d.max(c.upper);
+                }
+                if integer && c.integer {
+                    d = d.integer();
+                }
+                vars.add(d)
+            })
+            .collect();
+        let mut objective = Expression::with_capacity(self.columns.len());
+        for (c, &v) in self.columns.iter().zip(&cols) {
+            if c.objective != 0.0 {
+                objective.add_mul(c.objective, v);
+            }
+        }
+        (vars, cols, objective)
+    }
+
+    fn constraint(&self, r: &Row, cols: &[Variable]) -> good_lp::Constraint {
+        let mut e = Expression::with_capacity(r.terms.len());
+        for &(c, a) in &r.terms {
+            e.add_mul(a, cols[c]);
+        }
+        match r.sense {
+            Sense::Le => e.leq(r.rhs),
+            Sense::Ge => e.geq(r.rhs),
+            Sense::Eq => e.eq(r.rhs),
+        }
+    }
+
+    /// Solves the continuous relaxation with clarabel (interior point) and returns primal
+    /// values and row duals. Integer flags are ignored. Clarabel turns each finite bound into a
+    /// row, so the cost grows with columns + rows; see `docs/performance-allocate.md`.
+    pub fn solve_relaxation(&self) -> Result<ModelSolution, ModelError> {
+        let (vars, cols, objective) = self.to_good_lp(false);
+        let mut problem = vars.maximise(objective).using(clarabel);
+        let refs: Vec<_> = self
+            .rows
+            .iter()
+            .map(|r| problem.add_constraint(self.constraint(r, &cols)))
+            .collect();
+        let mut sol = problem.solve().map_err(|e| self.map_err("clarabel", e))?;
+        let values: Vec<f64> = cols.iter().map(|&v| sol.value(v)).collect();
+        let dual = sol.compute_dual();
+        let duals: Vec<f64> = refs.iter().map(|r| dual.dual(r.clone())).collect();
+        let objective = self.objective_of(&values);
+        Ok(ModelSolution {
+            values,
+            duals,
+            objective,
+        })
+    }
+
+    /// Solves with microlp, honouring integer columns (branch and bound stops at relative
+    /// `mip_gap`, or at `time_limit_seconds` with the best plan found). No duals. Use only on
+    /// small models: microlp's simplex is dense-ish and slows past a few thousand columns.
+    pub fn solve_integer(
+        &self,
+        mip_gap: f32,
+        time_limit_seconds: f64,
+    ) -> Result<ModelSolution, ModelError> {
+        let (vars, cols, objective) = self.to_good_lp(true);
+        let mut problem = vars
+            .maximise(objective)
+            .using(microlp)
+            .with_time_limit(time_limit_seconds);
+        problem = problem
+            .with_mip_gap(mip_gap.max(0.0))
+            .map_err(|e| ModelError::Solver {
+                solver: "microlp",
+                model: self.name.clone(),
+                message: e.to_string(),
+            })?;
+        for r in &self.rows {
+            problem.add_constraint(self.constraint(r, &cols));
+        }
+        let sol = problem.solve().map_err(|e| self.map_err("microlp", e))?;
+        let values: Vec<f64> = cols.iter().map(|&v| sol.value(v)).collect();
+        let objective = self.objective_of(&values);
+        Ok(ModelSolution {
+            values,
+            duals: Vec::new(),
+            objective,
+        })
+    }
+
+    fn map_err(&self, solver: &'static str, e: good_lp::ResolutionError) -> ModelError {
+        match e {
+            good_lp::ResolutionError::Infeasible => ModelError::Infeasible {
+                model: self.name.clone(),
+            },
+            good_lp::ResolutionError::Unbounded => ModelError::Unbounded {
+                model: self.name.clone(),
+            },
+            other => ModelError::Solver {
+                solver,
+                model: self.name.clone(),
+                message: other.to_string(),
+            },
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// max 3x + 2y s.t. x + y ≤ 4, x + 3y ≤ 7, x ≤ 3: optimum x=3, y=1, value 11; the dual of
+    /// the first row is 2 (worked by hand: x ≤ 3 and row 1 bind, row 2 is slack, y prices row 1).
+    #[test]
+    fn relaxation_values_and_duals_match_hand_solution() {
+        let mut m = LinearModel::new("hand");
+        let x = m.add_column("x", 0.0, 3.0, 3.0, false);
+        let y = m.add_column("y", 0.0, f64::INFINITY, 2.0, false);
+        let r1 = m.add_row("r1", &[(x, 1.0), (y, 1.0)], Sense::Le, 4.0);
+        let r2 = m.add_row("r2", &[(x, 1.0), (y, 3.0)], Sense::Le, 7.0);
+        let s = m.solve_relaxation().expect("feasible");
+        assert!((s.objective - 11.0).abs() < 1e-6, "{}", s.objective);
+        assert!((s.values[x] - 3.0).abs() < 1e-6);
+        assert!((s.duals[r1] - 2.0).abs() < 1e-5, "{:?}", s.duals);
+        assert!(s.duals[r2].abs() < 1e-5);
+        let i = m.solve_integer(0.0, 10.0).expect("feasible");
+        assert!((i.objective - 11.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn ge_row_dual_is_non_positive_when_it_hurts() {
+        let mut m = LinearModel::new("ge");
+        let x = m.add_column("x", 0.0, 10.0, -1.0, false);
+        let r = m.add_row("floor", &[(x, 1.0)], Sense::Ge, 2.0);
+        let s = m.solve_relaxation().expect("feasible");
+        assert!((s.values[x] - 2.0).abs() < 1e-6);
+        assert!((s.duals[r] + 1.0).abs() < 1e-5, "{:?}", s.duals);
+    }
+
+    #[test]
+    fn names_are_sanitised_and_unique() {
+        let mut m = LinearModel::new("n");
+        let a = m.add_column("x a", 0.0, 1.0, 0.0, false);
+        let b = m.add_column("x_a", 0.0, 1.0, 0.0, false);
+        assert_eq!(m.columns[a].name, "x_a");
+        assert_eq!(m.columns[b].name, "x_a~2");
+        assert_eq!(m.column("x_a~2"), Some(b));
+    }
+
+    #[test]
+    fn infeasible_model_is_an_error_not_a_panic() {
+        let mut m = LinearModel::new("bad");
+        let x = m.add_column("x", 0.0, 1.0, 1.0, false);
+        m.add_row("r", &[(x, 1.0)], Sense::Ge, 5.0);
+        assert!(matches!(
+            m.solve_integer(0.0, 5.0),
+            Err(ModelError::Infeasible { .. })
+        ));
+    }
+}
