@@ -194,6 +194,14 @@ impl GenParams {
 ///
 /// `requests.csv` carries obviously fake `name`, `phone` (555-01xx) and `email`
 /// (`@example.invalid`) columns so that tests can check personal data never leaks.
+///
+/// ```
+/// use broodcast::generate::{GenParams, generate};
+///
+/// let files = generate(&GenParams::sized(1_000, 7));
+/// assert_eq!(files[0].0, "scenario.json");
+/// assert_eq!(files, generate(&GenParams::sized(1_000, 7)));
+/// ```
 pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
     let mut g = Gen {
         rng: ChaCha8Rng::seed_from_u64(p.seed),
