@@ -55,7 +55,7 @@ const TOWNS: &[&str] = &[
     "Yelverd",
 ];
 
-/// Invented facility names, one per town above.
+/// Kinds of facility; a facility's invented name is a town name and one of these.
 const FACILITY_KINDS: &[&str] = &["Rearing Station", "Insectary", "Field Depot"];
 
 /// Invented street names for dooryard addresses.
@@ -131,7 +131,8 @@ pub struct GenParams {
 impl GenParams {
     /// The demo week: Pellwether County (invented), week of Monday 2027-03-01, 300 blocks in
     /// 5 clusters, 200 requests in 4 towns, 500 scouting points around 3 hot spots, 3
-    /// facilities, 7 vehicles, supply about 640 vials for a demand clearly larger.
+    /// facilities, 7 vehicles; 614 vials packed (about 119,000 wasps) against an eligible-looking
+    /// demand of about 300,000 wasps at the target release size.
     pub fn demo() -> Self {
         GenParams {
             seed: 20_270_301,
@@ -194,6 +195,14 @@ impl GenParams {
 ///
 /// `requests.csv` carries obviously fake `name`, `phone` (555-01xx) and `email`
 /// (`@example.invalid`) columns so that tests can check personal data never leaks.
+///
+/// ```
+/// use broodcast::generate::{GenParams, generate};
+///
+/// let files = generate(&GenParams::sized(1_000, 7));
+/// assert_eq!(files[0].0, "scenario.json");
+/// assert_eq!(files, generate(&GenParams::sized(1_000, 7)));
+/// ```
 pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
     let mut g = Gen {
         rng: ChaCha8Rng::seed_from_u64(p.seed),

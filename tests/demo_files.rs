@@ -403,6 +403,18 @@ fn demo_keeps_the_rules_and_supply_is_scarce() {
         (t.supply_wasps as f64) > 0.2 * demand_wasps,
         "but not trivially little"
     );
+    // The README states these figures; keep it honest when the generator changes.
+    let readme = std::str::from_utf8(broodcast::demo::file("README.md").expect("README"))
+        .expect("utf-8")
+        .replace('\n', " ");
+    for figure in [
+        format!("{} vials", t.supply_vials),
+        format!("({} flushing", t.blocks_eligible_all_week),
+        format!("{} more clear later", t.blocks_eligible_later),
+        format!("({} with a host plant", t.requests_eligible),
+    ] {
+        assert!(readme.contains(&figure), "README lacks {figure:?}");
+    }
 }
 
 #[test]
