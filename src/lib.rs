@@ -10,12 +10,14 @@
 pub mod allocate;
 pub mod arcs;
 pub mod check;
+pub mod cli;
 pub mod demo;
 pub mod dispatch;
 pub mod eligibility;
 pub mod generate;
 pub mod geodesy;
-pub mod pressure;
 pub mod output;
+pub mod plan;
+pub mod pressure;
 pub mod scenario;
 pub mod travel;

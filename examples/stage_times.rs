@@ -1,0 +1,59 @@
+//! Times each stage of `plan` on a scenario folder (default: the built-in demo).
+//! `cargo run --release --example stage_times -- [DIR]`
+use std::time::Instant;
+
+use broodcast::allocate::{self, AllocOptions};
+use broodcast::travel::TravelModel;
+use broodcast::{arcs, dispatch, output, plan, scenario};
+
+fn main() {
+    let t = Instant::now();
+    let s = match std::env::args().nth(1) {
+        Some(d) => scenario::load_dir(std::path::Path::new(&d)),
+        None => scenario::load_embedded_demo(),
+    }
+    .expect("valid scenario");
+    let load = t.elapsed();
+    let t = Instant::now();
+    let travel = TravelModel::new(&s);
+    let pr = plan::priorities(&s, &Default::default());
+    let prio = t.elapsed();
+    let t = Instant::now();
+    let a = arcs::build_arcs(&s, &travel);
+    let arcs_t = t.elapsed();
+    let t = Instant::now();
+    let al = allocate::allocate(&s, &pr, &a, &AllocOptions::default()).expect("allocates");
+    let alloc_t = t.elapsed();
+    let t = Instant::now();
+    let d = dispatch::dispatch(&s, &al, &travel);
+    let disp_t = t.elapsed();
+    let t = Instant::now();
+    let view = output::PlanView {
+        scenario: &s,
+        priority: &pr,
+        allocation: &al,
+        dispatch: &d,
+        moved: &[],
+    };
+    let files = output::render_all(&view).expect("renders");
+    let out_t = t.elapsed();
+    println!(
+        "sites {} arcs {} shipments {} routes {} undeliverable {} files {}",
+        s.sites.len(),
+        a.arcs.len(),
+        al.shipments.len(),
+        d.routes.len(),
+        d.undeliverable.len(),
+        files.len()
+    );
+    for (name, d) in [
+        ("load", load),
+        ("priority", prio),
+        ("arcs", arcs_t),
+        ("allocate", alloc_t),
+        ("dispatch", disp_t),
+        ("outputs", out_t),
+    ] {
+        println!("{name:>10} {:>9.3} s", d.as_secs_f64());
+    }
+}

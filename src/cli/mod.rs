@@ -1,0 +1,113 @@
+//! The command-line layer: the only place that prints. One file per subcommand.
+
+mod check;
+mod demo;
+mod export_model;
+mod generate;
+mod plan;
+mod sequence;
+
+use std::io::{self, Write};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+use crate::scenario::{InputError, Source};
+
+/// Plans a week of parasitoid releases: allocation, routes, manifest, route sheets, report.
+#[derive(Debug, Parser)]
+#[command(name = "broodcast", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Plan the week: allocation, routes and every output (no DIR: the built-in demo).
+    Plan(plan::Args),
+    /// Validate a scenario folder and summarise it (no DIR: the built-in demo).
+    Check(check::Args),
+    /// Write the built-in demo scenario as files to start from.
+    Demo(demo::Args),
+    /// Best visiting order for one vehicle from a travel-time matrix (depot = first id).
+    Sequence(sequence::Args),
+    /// Write the allocation LP relaxation as free MPS, exactly as solved.
+    ExportModel(export_model::Args),
+    /// Write a seeded synthetic scenario of a given size (for benchmarks and tests).
+    Generate(generate::Args),
+}
+
+/// What went wrong, sorted by who must act.
+#[derive(Debug)]
+pub(crate) enum Failure {
+    /// The input is wrong: the user must fix it (exit 2).
+    Input(String),
+    /// broodcast failed (exit 1).
+    Internal(anyhow::Error),
+}
+
+impl From<InputError> for Failure {
+    fn from(e: InputError) -> Self {
+        Failure::Input(e.to_string())
+    }
+}
+
+impl From<anyhow::Error> for Failure {
+    fn from(e: anyhow::Error) -> Self {
+        Failure::Internal(e)
+    }
+}
+
+impl From<io::Error> for Failure {
+    fn from(e: io::Error) -> Self {
+        Failure::Internal(e.into())
+    }
+}
+
+pub(crate) type CliResult = Result<(), Failure>;
+
+/// Where a command reads its scenario: a folder, or the embedded demo when none is given.
+pub(crate) fn source_of(dir: &Option<PathBuf>) -> Source {
+    match dir {
+        Some(d) => Source::Dir(d.clone()),
+        None => Source::EmbeddedDemo,
+    }
+}
+
+/// Writes `text` to stdout; a closed pipe (e.g. `| head`) is not an error.
+pub(crate) fn print_out(text: &str) -> CliResult {
+    let mut out = io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
+        Err(e) if e.kind() != io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
+    }
+}
+
+/// Entry point of the binary.
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Plan(a) => plan::run(a),
+        Command::Check(a) => check::run(a),
+        Command::Demo(a) => demo::run(a),
+        Command::Sequence(a) => sequence::run(a),
+        Command::ExportModel(a) => export_model::run(a),
+        Command::Generate(a) => generate::run(a),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Input(msg)) => {
+            eprint!("error: {msg}");
+            if !msg.ends_with('\n') {
+                eprintln!();
+            }
+            ExitCode::from(2)
+        }
+        Err(Failure::Internal(e)) => {
+            eprintln!("internal error: {e:#}");
+            ExitCode::from(1)
+        }
+    }
+}

@@ -1,0 +1,60 @@
+//! `broodcast plan [DIR] [--out DIR]`: plan the week and write every output.
+
+use std::path::PathBuf;
+
+use super::{CliResult, Failure, print_out, source_of};
+use crate::output::{self, PlanView};
+use crate::plan::{self, PlanOptions};
+use crate::scenario;
+
+/// Arguments of `plan`.
+#[derive(Debug, clap::Args)]
+pub(crate) struct Args {
+    /// Scenario folder (default: the built-in demo).
+    dir: Option<PathBuf>,
+    /// Output folder, replaced as a whole only once every file is ready.
+    #[arg(long, default_value = "out")]
+    out: PathBuf,
+}
+
+pub(crate) fn run(args: Args) -> CliResult {
+    let scenario = scenario::load(&source_of(&args.dir))?;
+    let p =
+        plan::plan(scenario, &PlanOptions::default()).map_err(|e| Failure::Internal(e.into()))?;
+    let view = PlanView {
+        scenario: &p.scenario,
+        priority: &p.priority,
+        allocation: &p.allocation,
+        dispatch: &p.dispatch,
+        moved: &p.moved,
+    };
+    let files = output::render_all(&view).map_err(|e| Failure::Internal(e.into()))?;
+    output::write_dir_atomically(&args.out, &files)?;
+    let a = &p.allocation;
+    let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
+    let mut text = format!(
+        "planned '{}' (week of {}): {} of {} vials shipped, {} routes, {} parcels\n\
+         objective {:.1}, LP bound {:.1}, gap {:.2} %\n",
+        p.scenario.name,
+        p.scenario.week_start,
+        shipped,
+        p.scenario.total_supply_vials(),
+        p.dispatch.routes.len(),
+        p.dispatch.parcels.len(),
+        a.objective,
+        a.lp_bound,
+        a.gap * 100.0,
+    );
+    for w in &p.scenario.warnings {
+        text.push_str(&format!("warning: {w}\n"));
+    }
+    for n in &a.notes {
+        text.push_str(&format!("note: {n}\n"));
+    }
+    text.push_str(&format!(
+        "wrote {} files to {}\n",
+        files.len(),
+        args.out.display()
+    ));
+    print_out(&text)
+}

@@ -1,0 +1,152 @@
+//! The week's pipeline: scenario → priority → arcs → allocation → dispatch, with one round of
+//! route feedback. Takes typed values, returns typed values; reads and prints nothing.
+
+use std::collections::BTreeSet;
+
+use crate::allocate::{self, AllocError, AllocOptions, Allocation};
+use crate::arcs::{self, Arcs};
+use crate::dispatch::{self, Dispatch};
+use crate::eligibility::Reason;
+use crate::pressure::{self, PressureParams};
+use crate::scenario::Scenario;
+use crate::travel::TravelModel;
+
+/// Everything `plan` computed for the week.
+#[derive(Debug)]
+pub struct Plan {
+    /// The scenario planned.
+    pub scenario: Scenario,
+    /// Site priority used in the objective, indexed by `SiteIdx` (dimensionless, ≥ 0).
+    pub priority: Vec<f64>,
+    /// Candidate arcs (after feedback exclusions are applied by the allocation).
+    pub arcs: Arcs,
+    /// The final whole-vial allocation (only deliverable shipments).
+    pub allocation: Allocation,
+    /// Routes and parcels.
+    pub dispatch: Dispatch,
+    /// What the route feedback moved and why, one line each.
+    pub moved: Vec<String>,
+}
+
+/// Options of the pipeline.
+#[derive(Clone, Debug, Default)]
+pub struct PlanOptions {
+    /// Pest-pressure weights.
+    pub pressure: PressureParams,
+    /// Allocation options.
+    pub alloc: AllocOptions,
+}
+
+/// Site priority (dimensionless) for every site, in `SiteIdx` order.
+pub fn priorities(scenario: &Scenario, params: &PressureParams) -> Vec<f64> {
+    pressure::site_priority(scenario, params)
+        .into_iter()
+        .map(|p| p.priority)
+        .collect()
+}
+
+/// Plans the week.
+pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> {
+    let travel = TravelModel::new(&scenario);
+    let priority = priorities(&scenario, &opts.pressure);
+    let arcs = arcs::build_arcs(&scenario, &travel);
+    let mut alloc_opts = opts.alloc.clone();
+    let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
+    let first_dispatch = dispatch::dispatch(&scenario, &first, &travel);
+    let mut moved = Vec::new();
+    if first_dispatch.undeliverable.is_empty() {
+        return Ok(Plan {
+            scenario,
+            priority,
+            arcs,
+            allocation: first,
+            dispatch: first_dispatch,
+            moved,
+        });
+    }
+    // Stops no route can serve go back to the allocation once, with those arcs removed.
+    let mut removed = BTreeSet::new();
+    for u in &first_dispatch.undeliverable {
+        let s = &first.shipments[u.shipment];
+        let a = &s.arc;
+        removed.insert((a.facility, a.dispatch_date, a.site, a.mode));
+        moved.push(format!(
+            "{} {}: {} vials from {} on {} could not be delivered by {} ({}); re-planned without that option",
+            scenario.sites[a.site].kind().as_str(),
+            scenario.sites[a.site].id,
+            s.vials,
+            scenario.facilities[a.facility].id,
+            a.dispatch_date,
+            a.mode.as_str(),
+            u.reason
+        ));
+    }
+    alloc_opts.excluded.extend(removed);
+    let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
+    let second_dispatch = dispatch::dispatch(&scenario, &second, &travel);
+    let allocation = if second_dispatch.undeliverable.is_empty() {
+        second
+    } else {
+        for u in &second_dispatch.undeliverable {
+            let s = &second.shipments[u.shipment];
+            moved.push(format!(
+                "{} {}: {} vials dropped after re-planning ({}); they stay at {}",
+                scenario.sites[s.arc.site].kind().as_str(),
+                scenario.sites[s.arc.site].id,
+                s.vials,
+                u.reason,
+                scenario.facilities[s.arc.facility].id
+            ));
+        }
+        let dropped: Vec<usize> = second_dispatch
+            .undeliverable
+            .iter()
+            .map(|u| u.shipment)
+            .collect();
+        drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?
+    };
+    let dispatch = dispatch::dispatch(&scenario, &allocation, &travel);
+    debug_assert!(dispatch.undeliverable.is_empty());
+    Ok(Plan {
+        scenario,
+        priority,
+        arcs,
+        allocation,
+        dispatch,
+        moved,
+    })
+}
+
+/// Removes every shipment of each site that has an undeliverable one (a block must keep its
+/// minimum release or get nothing), marks those sites `undeliverable`, and recomputes the
+/// objective and gap of what is left.
+fn drop_undeliverable(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+    mut allocation: Allocation,
+    dropped: &[usize],
+) -> Result<Allocation, AllocError> {
+    let sites: BTreeSet<usize> = dropped
+        .iter()
+        .map(|&i| allocation.shipments[i].arc.site)
+        .collect();
+    allocation
+        .shipments
+        .retain(|s| !sites.contains(&s.arc.site));
+    for &s in &sites {
+        let outcome = &mut allocation.sites[s];
+        outcome.vials = 0;
+        outcome.wasps_expected_alive = 0.0;
+        outcome.reason = Some(Reason::Undeliverable);
+    }
+    allocation.objective =
+        allocate::plan_objective(scenario, priority, arcs, opts, &allocation.shipments)?;
+    allocation.gap = if allocation.lp_bound > 0.0 {
+        1.0 - allocation.objective / allocation.lp_bound
+    } else {
+        0.0
+    };
+    Ok(allocation)
+}

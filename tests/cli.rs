@@ -1,0 +1,189 @@
+//! The binary end to end: outputs present and deterministic, personal data kept where it
+//! belongs, `sequence` and `export-model` on real files.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn bin() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
+}
+
+fn run(args: &[&str]) -> Output {
+    Command::new(bin())
+        .args(args)
+        .output()
+        .expect("run broodcast")
+}
+
+fn run_ok(args: &[&str]) -> String {
+    let out = run(args);
+    assert!(
+        out.status.success(),
+        "broodcast {args:?} failed: {}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).expect("utf-8 stdout")
+}
+
+const OUTPUTS: [&str; 7] = [
+    "manifest.csv",
+    "manifest.json",
+    "allocation.csv",
+    "summary.json",
+    "route-sheets.html",
+    "plan.geojson",
+    "report.html",
+];
+
+fn plan_demo(out: &Path) {
+    run_ok(&["plan", "--out", out.to_str().unwrap()]);
+}
+
+#[test]
+fn plan_on_the_demo_writes_every_output_and_is_deterministic() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (a, b) = (tmp.path().join("a"), tmp.path().join("b"));
+    plan_demo(&a);
+    plan_demo(&b);
+    for f in OUTPUTS {
+        let x = std::fs::read(a.join(f)).unwrap_or_else(|e| panic!("{f}: {e}"));
+        let y = std::fs::read(b.join(f)).unwrap();
+        assert!(!x.is_empty(), "{f} is empty");
+        assert!(x == y, "{f} differs between two runs on the same input");
+    }
+    let summary: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(a.join("summary.json")).unwrap()).unwrap();
+    let gap = summary["gap"].as_f64().unwrap();
+    assert!(
+        (0.0..=0.01).contains(&gap),
+        "gap {gap} above the 1 % target"
+    );
+    assert!(summary["objective"].as_f64().unwrap() <= summary["lp_bound"].as_f64().unwrap() + 1e-6);
+}
+
+#[test]
+fn plan_replaces_an_old_output_folder_whole() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("out");
+    std::fs::create_dir(&out).unwrap();
+    std::fs::write(out.join("stale.txt"), "old").unwrap();
+    plan_demo(&out);
+    assert!(!out.join("stale.txt").exists());
+    assert!(out.join("manifest.csv").exists());
+    let leftovers: Vec<_> = std::fs::read_dir(tmp.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    assert_eq!(leftovers, vec![std::ffi::OsString::from("out")]);
+}
+
+/// Requests carry names, phones and e-mails in the demo (fake values): none may reach any
+/// output, and the street address may appear only on the route sheets.
+#[test]
+fn personal_data_stays_out_of_analyst_outputs() {
+    let tmp = tempfile::tempdir().unwrap();
+    let scen = tmp.path().join("scen");
+    let out = tmp.path().join("out");
+    run_ok(&["demo", "--out", scen.to_str().unwrap()]);
+    run_ok(&[
+        "plan",
+        scen.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let mut reader = csv::Reader::from_path(scen.join("requests.csv")).unwrap();
+    let headers = reader.headers().unwrap().clone();
+    let col = |name: &str| headers.iter().position(|h| h == name);
+    let mut personal = Vec::new();
+    let mut addresses = Vec::new();
+    for rec in reader.records() {
+        let rec = rec.unwrap();
+        for name in ["name", "phone", "email"] {
+            if let Some(i) = col(name) {
+                personal.push(rec[i].to_string());
+            }
+        }
+        addresses.push(rec[col("address").expect("address column")].to_string());
+    }
+    assert!(
+        !personal.is_empty(),
+        "the demo should carry fake personal fields to test"
+    );
+    for f in OUTPUTS {
+        let text = std::fs::read_to_string(out.join(f)).unwrap();
+        for p in personal.iter().filter(|p| !p.is_empty()) {
+            assert!(
+                !text.contains(p.as_str()),
+                "{f} contains personal data '{p}'"
+            );
+        }
+        if f != "route-sheets.html" {
+            for a in &addresses {
+                assert!(!text.contains(a.as_str()), "{f} contains the address '{a}'");
+            }
+        }
+    }
+}
+
+#[test]
+fn check_passes_on_the_demo_and_prints_json() {
+    let text = run_ok(&["check", "--json"]);
+    let v: serde_json::Value = serde_json::from_str(&text).expect("check --json is JSON");
+    assert!(v.is_object());
+    let plain = run_ok(&["check"]);
+    assert!(!plain.trim().is_empty());
+}
+
+#[test]
+fn demo_refuses_to_overwrite_a_folder() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = run(&["demo", "--out", tmp.path().to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
+fn sequence_orders_a_small_matrix() {
+    // Four points on a line (minutes = distance): the best tour visits them in order and back.
+    let tmp = tempfile::tempdir().unwrap();
+    let m = tmp.path().join("m.csv");
+    std::fs::write(
+        &m,
+        "id,D,A,B,C\nD,0,10,20,30\nA,10,0,10,20\nB,20,10,0,10\nC,30,20,10,0\n",
+    )
+    .unwrap();
+    let text = run_ok(&["sequence", "--matrix", m.to_str().unwrap(), "--json"]);
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    assert_eq!(v["total_minutes"].as_f64().unwrap(), 60.0);
+    let order: Vec<&str> = v["order"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_str().unwrap())
+        .collect();
+    assert!(
+        order == ["A", "B", "C"] || order == ["C", "B", "A"],
+        "{order:?}"
+    );
+}
+
+#[test]
+fn sequence_rejects_a_ragged_matrix_with_exit_2() {
+    let tmp = tempfile::tempdir().unwrap();
+    let m = tmp.path().join("m.csv");
+    std::fs::write(&m, "id,D,A\nD,0,10\nA,10\n").unwrap();
+    let out = run(&["sequence", "--matrix", m.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("m.csv"));
+}
+
+#[test]
+fn export_model_writes_free_mps() {
+    let tmp = tempfile::tempdir().unwrap();
+    let f = tmp.path().join("demo.mps");
+    run_ok(&["export-model", "--out", f.to_str().unwrap()]);
+    let text = std::fs::read_to_string(&f).unwrap();
+    for section in ["ROWS", "COLUMNS", "RHS", "ENDATA"] {
+        assert!(text.contains(section), "MPS lacks {section}");
+    }
+}
