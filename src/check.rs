@@ -64,6 +64,12 @@ pub struct CheckSummary {
     pub total_wasps: u64,
     /// Smallest box holding every site location and facility, degrees; `None` when empty.
     pub bounding_box: Option<BoundingBox>,
+    /// Blocks eligible on at least one day of the week (flush, insecticide window, overrides).
+    pub eligible_blocks: usize,
+    /// Requests eligible (host plant, insecticide free, overrides).
+    pub eligible_requests: usize,
+    /// Sites ineligible all week, by reason code (`no-flush`, `insecticide-window`, ...).
+    pub ineligible_by_reason: BTreeMap<String, usize>,
     /// Loader warnings, rendered as `file:line: message`.
     pub warnings: Vec<String>,
 }
@@ -182,6 +188,16 @@ pub fn summarize(scenario: &Scenario) -> CheckSummary {
         bump(&mut scouting_by_kind, scout_kind_name(s.kind));
     }
 
+    let (mut eligible_blocks, mut eligible_requests) = (0, 0);
+    let mut ineligible_by_reason = BTreeMap::new();
+    for (i, site) in scenario.sites.iter().enumerate() {
+        match crate::eligibility::week_reason(scenario, i) {
+            Some(r) => bump(&mut ineligible_by_reason, r.code()),
+            None if site.as_block().is_some() => eligible_blocks += 1,
+            None => eligible_requests += 1,
+        }
+    }
+
     let dates = scenario.week_dates();
     let supply: Vec<FacilitySupply> = scenario
         .facilities
@@ -278,6 +294,9 @@ pub fn summarize(scenario: &Scenario) -> CheckSummary {
         supply,
         supply_by_day,
         bounding_box,
+        eligible_blocks,
+        eligible_requests,
+        ineligible_by_reason,
         warnings: scenario.warnings.iter().map(ToString::to_string).collect(),
     }
 }
@@ -397,6 +416,19 @@ impl CheckSummary {
         }
         out.push('\n');
 
+        let _ = writeln!(
+            out,
+            "Eligible: {} of {} blocks, {} of {} requests (on at least one day of the week)",
+            self.eligible_blocks, self.blocks, self.eligible_requests, self.requests
+        );
+        if !self.ineligible_by_reason.is_empty() {
+            let _ = writeln!(
+                out,
+                "  ineligible all week: {}",
+                breakdown(&self.ineligible_by_reason)
+            );
+        }
+        out.push('\n');
         if self.warnings.is_empty() {
             let _ = writeln!(out, "Warnings: none");
         } else {
