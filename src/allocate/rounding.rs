@@ -162,6 +162,16 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
+    /// Returns to a saved plan (vials per arc). O(arcs).
+    fn restore(&mut self, saved: &[u32]) {
+        for (a, &v) in saved.iter().enumerate() {
+            let d = i64::from(v) - i64::from(self.x[a]);
+            if d != 0 {
+                self.apply(a, d);
+            }
+        }
+    }
+
     fn free(&self, a: usize) -> u32 {
         let inst = self.inst;
         inst.arc_res[a]
@@ -237,7 +247,15 @@ impl<'i, 'a> State<'i, 'a> {
 /// `cand[s]`. Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
 pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -> Vec<u32> {
     let mut st = State::new(inst);
-    let cand_list: Vec<usize> = (0..inst.sites.len()).filter(|&s| cand[s]).collect();
+    // The LP's support (sites it gives at least 0.02 vials) plus forced sites: interior-point
+    // dust below that carries no decision, and the rest of the pool priced out of the LP.
+    let cand_list: Vec<usize> = (0..inst.sites.len())
+        .filter(|&s| {
+            cand[s]
+                && (inst.sites[s].force.is_some()
+                    || inst.sites[s].arcs.iter().map(|&a| lp_x[a]).sum::<f64>() >= 0.02)
+        })
+        .collect();
     // 1. Seed from the LP, most valuable sites first; requests first so the share floor has
     // room for blocks.
     let mut order: Vec<(bool, f64, usize)> = cand_list
@@ -443,12 +461,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     st.greedy(&cand_list, budget);
                 }
                 if !(ok && st.objective() > before_obj + 1e-9 * before_obj.abs().max(1.0)) {
-                    for b in 0..inst.arcs.len() {
-                        let d = i64::from(saved[b]) - i64::from(st.x[b]);
-                        if d != 0 {
-                            st.commit(&[(b, d)]);
-                        }
-                    }
+                    st.restore(&saved);
                 } else {
                     improved = true;
                 }
@@ -483,12 +496,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 improved = true;
             } else {
                 // Undo: restore the saved plan.
-                for a in 0..inst.arcs.len() {
-                    let d = i64::from(saved[a]) - i64::from(st.x[a]);
-                    if d != 0 {
-                        st.commit(&[(a, d)]);
-                    }
-                }
+                st.restore(&saved);
             }
         }
     }
@@ -520,19 +528,22 @@ mod tests {
     }
 
     #[test]
-    fn empty_lp_still_fills_supply_greedily() {
+    fn greedy_fill_completes_a_thin_lp_solution() {
         let s = tiny();
         let arcs = Arcs {
             arcs: vec![arc(0, 0, 0, 90.0), arc(1, 0, 0, 95.0)],
             no_arc_reason: vec![None; s.sites.len()],
         };
         let priority = vec![1.0; s.sites.len()];
-        let mut opts = AllocOptions::default();
-        opts.pricing = false;
+        let opts = AllocOptions {
+            pricing: false,
+            ..AllocOptions::default()
+        };
         let mut s2 = s.clone();
         s2.policy.dooryard_share_min = 0.0;
         let inst = Instance::new(&s2, &priority, &arcs, &opts).expect("valid");
-        let x = round(&inst, &[0.0, 0.0], &[true, true], 1_000_000);
+        // The LP hint is far below a minimum release at both sites.
+        let x = round(&inst, &[0.5, 0.5], &[true, true], 1_000_000);
         // Six vials packed at F1 on day 0: both blocks at or above the 150-wasp minimum.
         assert_eq!(x.iter().sum::<u32>(), 6);
         for (a, &v) in x.iter().enumerate() {
