@@ -1,8 +1,9 @@
 //! Allocation benchmark on seeded synthetic scenarios (`broodcast::allocate::synthetic`):
 //! model build, LP solve (with and without working-set pricing), rounding, gap and peak memory.
 //!
-//! Run: `cargo run --release --example bench_allocate [sizes...]` (default 500 1000 5000 20000
-//! 35000). Prints a Markdown table (the one in `docs/performance-allocate.md`).
+//! Run: `cargo run --release --example bench_allocate [--no-pricing] [sizes...]` (default 500
+//! 1000 5000 20000 35000). Prints a Markdown table (the one in `docs/performance-allocate.md`).
+//! Each size runs in the same process, so peak memory is cumulative (the largest size's).
 
 use std::time::Instant;
 
@@ -23,6 +24,7 @@ fn peak_mb() -> f64 {
 }
 
 fn main() {
+    let pricing = !std::env::args().any(|a| a == "--no-pricing");
     let sizes: Vec<usize> = std::env::args()
         .skip(1)
         .filter_map(|a| a.parse().ok())
@@ -39,7 +41,10 @@ fn main() {
     for &n in &sizes {
         let supply = if n <= 1000 { 800 } else { 1000 };
         let (s, p, arcs) = synthetic::generate(42 + n as u64, n, supply);
-        let opts = AllocOptions::default();
+        let opts = AllocOptions {
+            pricing,
+            ..AllocOptions::default()
+        };
         let t = Instant::now();
         let mps = export_mps(&s, &p, &arcs, &opts).expect("synthetic inputs are valid");
         let build = t.elapsed().as_secs_f64();
@@ -48,7 +53,7 @@ fn main() {
         let t = Instant::now();
         let lp_only = AllocOptions {
             rounding_budget: 0,
-            ..AllocOptions::default()
+            ..opts.clone()
         };
         allocate(&s, &p, &arcs, &lp_only).expect("synthetic inputs are valid");
         let lp = t.elapsed().as_secs_f64();
@@ -63,7 +68,7 @@ fn main() {
                 let w: Vec<&str> = n.split_whitespace().collect();
                 format!("{} of {} sites, {} round(s)", w[3], w[5], w[9])
             })
-            .unwrap_or_default();
+            .unwrap_or_else(|| "off (one LP over all sites)".to_string());
         let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
         println!(
             "| {n} | {} | {supply} | {build:.2} | {lp:.2} | {solve:.2} | {:.2} | {rounds} | {:.3} % | {shipped} | {:.0} |",
