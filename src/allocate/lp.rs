@@ -246,7 +246,7 @@ impl<'a> Instance<'a> {
         for (i, a) in usable.iter().enumerate() {
             by_site.entry(a.site).or_default().push(i);
         }
-        for (&s, f) in &force {
+        for &s in force.keys() {
             if forbidden[s] {
                 notes.push(format!(
                     "site {} is both forced and forbidden: forbid wins",
@@ -261,7 +261,6 @@ impl<'a> Instance<'a> {
                     scenario.sites[s].id
                 ));
             }
-            let _ = f;
         }
         let mut sites = Vec::new();
         let mut arc_site = vec![0; usable.len()];
@@ -485,7 +484,7 @@ pub(crate) struct Relaxation {
 /// Reduced cost of arc `a` of a site outside the working set, per vial: the first wasps are
 /// worth `priority` each, so the site is worth adding iff some arc beats the duals of the
 /// shared rows it draws on.
-fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_dual: f64) -> f64 {
+pub(crate) fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_dual: f64) -> f64 {
     let site = &inst.sites[inst.arc_site[a]];
     // The first (infinitesimal) vial earns the full weight: u1 has room whenever target > 0.
     let slope = if inst.target > 0.0 { 1.0 } else { inst.weight2 };

@@ -316,7 +316,24 @@ pub fn allocate(
                 -relax.share_dual
             ));
         }
-        let x = rounding::round(&inst, &relax.x, &relax.in_set, opts.rounding_budget);
+        // Rounding candidates: the LP's support (≥ 0.02 vials), forced sites, and near misses
+        // (a first vial within 5 % of paying for the shared rows' duals): the alternates a
+        // whole-vial plan needs when rounding frees or lacks a vial.
+        let cand: Vec<bool> = inst
+            .sites
+            .iter()
+            .enumerate()
+            .map(|(sp, site)| {
+                relax.in_set[sp]
+                    && (site.force.is_some()
+                        || site.arcs.iter().map(|&a| relax.x[a]).sum::<f64>() >= 0.02
+                        || site.arcs.iter().any(|&a| {
+                            lp::reduced_cost(&inst, a, &relax.res_dual, relax.share_dual)
+                                >= -0.05 * site.priority * inst.arcs[a].wasps_alive_per_vial
+                        }))
+            })
+            .collect();
+        let x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
         (x, sol.objective, marginal, binding)
     };
     let mut shipments: Vec<Shipment> = x

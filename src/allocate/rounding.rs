@@ -247,18 +247,11 @@ impl<'i, 'a> State<'i, 'a> {
 }
 
 /// Rounds LP vials `lp_x` (per usable arc) to a whole-vial plan over the site positions with
-/// `cand[s]`. Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
+/// `cand[s]` (the caller passes the LP support and near misses: interior-point dust carries no
+/// decision, and scanning the whole pool would cost time for nothing). Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
 pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -> Vec<u32> {
     let mut st = State::new(inst);
-    // The LP's support (sites it gives at least 0.02 vials) plus forced sites: interior-point
-    // dust below that carries no decision, and the rest of the pool priced out of the LP.
-    let cand_list: Vec<usize> = (0..inst.sites.len())
-        .filter(|&s| {
-            cand[s]
-                && (inst.sites[s].force.is_some()
-                    || inst.sites[s].arcs.iter().map(|&a| lp_x[a]).sum::<f64>() >= 0.02)
-        })
-        .collect();
+    let cand_list: Vec<usize> = (0..inst.sites.len()).filter(|&s| cand[s]).collect();
     // 1. Seed from the LP, most valuable sites first; requests first so the share floor has
     // room for blocks.
     let mut order: Vec<(bool, f64, usize)> = cand_list
