@@ -1,8 +1,9 @@
 //! Allocation benchmark on seeded synthetic scenarios (`broodcast::allocate::synthetic`):
 //! model build, LP solve (with and without working-set pricing), rounding, gap and peak memory.
 //!
-//! Run: `cargo run --release --example bench_allocate [sizes...]` (default 500 1000 5000 20000
-//! 35000). Prints a Markdown table (the one in `docs/performance-allocate.md`).
+//! Run: `cargo run --release --example bench_allocate [--no-pricing] [sizes...]` (default 500
+//! 1000 5000 20000 35000). Prints a Markdown table (the one in `docs/performance-allocate.md`).
+//! Each size runs in the same process, so peak memory is cumulative (the largest size's).
 
 use std::time::Instant;
 
@@ -23,6 +24,7 @@ fn peak_mb() -> f64 {
 }
 
 fn main() {
+    let pricing = !std::env::args().any(|a| a == "--no-pricing");
     let sizes: Vec<usize> = std::env::args()
         .skip(1)
         .filter_map(|a| a.parse().ok())
@@ -33,17 +35,28 @@ fn main() {
         sizes
     };
     println!(
-        "| sites | arcs | supply vials | build MPS s | allocate s (pricing) | LP rounds | gap | shipped | peak MB |"
+        "| sites | arcs | supply vials | full model build + MPS s | LP + seed s | allocate total s | rounding s | pricing | gap | shipped vials | peak MB |"
     );
-    println!("|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
+    println!("|---:|---:|---:|---:|---:|---:|---:|---|---:|---:|---:|");
     for &n in &sizes {
         let supply = if n <= 1000 { 800 } else { 1000 };
         let (s, p, arcs) = synthetic::generate(42 + n as u64, n, supply);
-        let opts = AllocOptions::default();
+        let opts = AllocOptions {
+            pricing,
+            ..AllocOptions::default()
+        };
         let t = Instant::now();
         let mps = export_mps(&s, &p, &arcs, &opts).expect("synthetic inputs are valid");
         let build = t.elapsed().as_secs_f64();
         drop(mps);
+        // Rounding budget 0: the LP rounds plus the seed step only.
+        let t = Instant::now();
+        let lp_only = AllocOptions {
+            rounding_budget: 0,
+            ..opts.clone()
+        };
+        allocate(&s, &p, &arcs, &lp_only).expect("synthetic inputs are valid");
+        let lp = t.elapsed().as_secs_f64();
         let t = Instant::now();
         let a = allocate(&s, &p, &arcs, &opts).expect("synthetic inputs are valid");
         let solve = t.elapsed().as_secs_f64();
@@ -51,12 +64,16 @@ fn main() {
             .notes
             .iter()
             .find(|n| n.starts_with("LP solved"))
-            .cloned()
-            .unwrap_or_default();
+            .map(|n| {
+                let w: Vec<&str> = n.split_whitespace().collect();
+                format!("{} of {} sites, {} round(s)", w[3], w[5], w[9])
+            })
+            .unwrap_or_else(|| "off (one LP over all sites)".to_string());
         let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
         println!(
-            "| {n} | {} | {supply} | {build:.2} | {solve:.2} | {rounds} | {:.3} % | {shipped} | {:.0} |",
+            "| {n} | {} | {supply} | {build:.2} | {lp:.2} | {solve:.2} | {:.2} | {rounds} | {:.3} % | {shipped} | {:.0} |",
             arcs.arcs.len(),
+            (solve - lp).max(0.0),
             a.gap * 100.0,
             peak_mb()
         );

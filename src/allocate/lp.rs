@@ -189,7 +189,8 @@ impl<'a> Instance<'a> {
             }
             // An arc is worth nothing when its vials arrive dead or late, or when the site
             // has no priority and no force.
-            if !(a.wasps_alive_per_vial > 0.0)
+            if a.wasps_alive_per_vial.is_nan()
+                || a.wasps_alive_per_vial <= 0.0
                 || a.eta > a.release_by
                 || a.dispatch_date < a.pack_date
                 || (priority[a.site] == 0.0 && !force.contains_key(&a.site))
@@ -245,7 +246,7 @@ impl<'a> Instance<'a> {
         for (i, a) in usable.iter().enumerate() {
             by_site.entry(a.site).or_default().push(i);
         }
-        for (&s, f) in &force {
+        for &s in force.keys() {
             if forbidden[s] {
                 notes.push(format!(
                     "site {} is both forced and forbidden: forbid wins",
@@ -260,7 +261,6 @@ impl<'a> Instance<'a> {
                     scenario.sites[s].id
                 ));
             }
-            let _ = f;
         }
         let mut sites = Vec::new();
         let mut arc_site = vec![0; usable.len()];
@@ -484,7 +484,7 @@ pub(crate) struct Relaxation {
 /// Reduced cost of arc `a` of a site outside the working set, per vial: the first wasps are
 /// worth `priority` each, so the site is worth adding iff some arc beats the duals of the
 /// shared rows it draws on.
-fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_dual: f64) -> f64 {
+pub(crate) fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_dual: f64) -> f64 {
     let site = &inst.sites[inst.arc_site[a]];
     // The first (infinitesimal) vial earns the full weight: u1 has room whenever target > 0.
     let slope = if inst.target > 0.0 { 1.0 } else { inst.weight2 };
@@ -603,5 +603,80 @@ pub(crate) fn solve_relaxation(
                 rounds,
             });
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::arcs::Arc;
+    use crate::scenario::fixture::tiny;
+
+    fn arc(s: &Scenario, site: SiteIdx, facility: FacilityIdx, mode: Mode) -> Arc {
+        let d = s.week_start;
+        Arc {
+            facility,
+            pack_date: d,
+            dispatch_date: d,
+            site,
+            mode,
+            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
+            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
+            survival: 0.9,
+            wasps_alive_per_vial: 90.0,
+            drive_minutes: 30.0,
+        }
+    }
+
+    #[test]
+    fn model_rows_and_names_follow_domain_ids() {
+        let s = tiny();
+        // B1 (site 0) by route from F1; R2 (site 7) by parcel from F1.
+        let arcs = Arcs {
+            arcs: vec![arc(&s, 0, 0, Mode::Route), arc(&s, 7, 0, Mode::Parcel)],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let priority = vec![1.0; s.sites.len()];
+        let inst = Instance::new(&s, &priority, &arcs, &AllocOptions::default()).expect("valid");
+        let built = build_model(&inst, &vec![true; inst.sites.len()]);
+        let m = &built.model;
+        assert!(m.column("x_F1_2027-03-01_2027-03-01_B1_route").is_some());
+        assert!(m.column("x_F1_2027-03-01_2027-03-01_R2_parcel").is_some());
+        for row in [
+            "supply_F1_2027-03-01",
+            "vehicles_F1_2027-03-01",
+            "parcel_2027-03-01",
+            "benefit_B1",
+            "maxrelease_R2",
+            "request_R2",
+            "dooryard_share",
+        ] {
+            assert!(m.row(row).is_some(), "missing row {row}");
+        }
+        // Travel cost: 1 per hour × 0.5 h one way.
+        let c = m
+            .column("x_F1_2027-03-01_2027-03-01_B1_route")
+            .expect("present");
+        assert!((m.columns[c].objective + 0.5).abs() < 1e-12);
+    }
+
+    #[test]
+    fn reduced_cost_charges_the_shared_row_duals() {
+        let s = tiny();
+        let arcs = Arcs {
+            arcs: vec![arc(&s, 0, 0, Mode::Route)],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let mut priority = vec![0.0; s.sites.len()];
+        priority[0] = 2.0;
+        let mut s2 = s.clone();
+        s2.policy.dooryard_share_min = 0.0;
+        let inst = Instance::new(&s2, &priority, &arcs, &AllocOptions::default()).expect("valid");
+        let mut duals = vec![0.0; inst.resources.len()];
+        // 2 × 90 wasps − 0.5 travel = 179.5 per vial before duals.
+        assert!((reduced_cost(&inst, 0, &duals, 0.0) - 179.5).abs() < 1e-9);
+        duals[0] = 100.0;
+        duals[1] = 80.0;
+        assert!(reduced_cost(&inst, 0, &duals, 0.0) < 0.0);
     }
 }

@@ -14,6 +14,9 @@
 //!    site and refill greedily when that gains. Stops when a pass finds nothing or the work
 //!    budget is spent (a count of evaluated moves, so results do not depend on machine speed).
 //!
+//! 4. **Exact polish** on small candidate sets (≤ 60 arcs): the whole-vial MIP over the
+//!    candidate sites with microlp, kept only when it is better.
+//!
 //! Every step keeps every LP row satisfied (supply, vehicle and parcel capacity, dooryard
 //! share, release limits), so the plan's objective is a lower bound and the LP optimum an upper
 //! bound on the best whole-vial plan.
@@ -162,6 +165,16 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
+    /// Returns to a saved plan (vials per arc). O(arcs).
+    fn restore(&mut self, saved: &[u32]) {
+        for (a, &v) in saved.iter().enumerate() {
+            let d = i64::from(v) - i64::from(self.x[a]);
+            if d != 0 {
+                self.apply(a, d);
+            }
+        }
+    }
+
     fn free(&self, a: usize) -> u32 {
         let inst = self.inst;
         inst.arc_res[a]
@@ -234,7 +247,8 @@ impl<'i, 'a> State<'i, 'a> {
 }
 
 /// Rounds LP vials `lp_x` (per usable arc) to a whole-vial plan over the site positions with
-/// `cand[s]`. Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
+/// `cand[s]` (the caller passes the LP support and near misses: interior-point dust carries no
+/// decision, and scanning the whole pool would cost time for nothing). Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
 pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -> Vec<u32> {
     let mut st = State::new(inst);
     let cand_list: Vec<usize> = (0..inst.sites.len()).filter(|&s| cand[s]).collect();
@@ -443,12 +457,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     st.greedy(&cand_list, budget);
                 }
                 if !(ok && st.objective() > before_obj + 1e-9 * before_obj.abs().max(1.0)) {
-                    for b in 0..inst.arcs.len() {
-                        let d = i64::from(saved[b]) - i64::from(st.x[b]);
-                        if d != 0 {
-                            st.commit(&[(b, d)]);
-                        }
-                    }
+                    st.restore(&saved);
                 } else {
                     improved = true;
                 }
@@ -483,16 +492,128 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 improved = true;
             } else {
                 // Undo: restore the saved plan.
-                for a in 0..inst.arcs.len() {
-                    let d = i64::from(saved[a]) - i64::from(st.x[a]);
-                    if d != 0 {
-                        st.commit(&[(a, d)]);
-                    }
-                }
+                st.restore(&saved);
             }
         }
     }
+    // 4. Small candidate sets: the exact whole-vial MIP over them with microlp, kept only when
+    // it beats the local search (it cannot do worse than optimal over the candidates).
+    if cand_arcs.len() <= MIP_POLISH_MAX_ARCS
+        && !cand_arcs.is_empty()
+        && let Some(x) = mip_polish(inst, &cand_list, &cand_arcs)
+    {
+        let current = st.objective();
+        let saved = st.x.clone();
+        st.restore(&x);
+        let feasible = st.share_ok()
+            && cand_list.iter().all(|&sp| st.site_ok(sp))
+            && (0..inst.resources.len()).all(|r| st.used[r] <= inst.res_rhs[r] + 1e-7);
+        if !(feasible && st.objective() > current + 1e-9 * current.abs().max(1.0)) {
+            st.restore(&saved);
+        }
+    }
     st.x
+}
+
+/// Largest candidate arc count for the microlp polish (DESIGN.md: microlp's branch and bound
+/// is only reliable on small models).
+const MIP_POLISH_MAX_ARCS: usize = 60;
+
+/// The whole-vial problem over `cand` sites as a MIP (integer vials, a 0/1 serve flag per
+/// site), solved by microlp with a 1e-4 relative gap and a 5 s safety limit. Returns vials
+/// per usable arc, or None when microlp fails.
+fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Vec<u32>> {
+    use super::model::{LinearModel, Sense};
+    let mut m = LinearModel::new("whole_vials");
+    let mut col = vec![usize::MAX; inst.arcs.len()];
+    for &a in cand_arcs {
+        let ub = inst.arc_res[a]
+            .iter()
+            .map(|&r| inst.res_rhs[r].floor())
+            .fold(f64::INFINITY, f64::min);
+        col[a] = m.add_column(&format!("x{a}"), 0.0, ub, -inst.cost[a], true);
+    }
+    let span = (inst.max - inst.target).max(0.0);
+    for &sp in cand {
+        let site = &inst.sites[sp];
+        let y = m.add_column(&format!("y{sp}"), 0.0, 1.0, 0.0, true);
+        let u1 = m.add_column(
+            &format!("u1_{sp}"),
+            0.0,
+            inst.target.max(0.0),
+            site.priority,
+            false,
+        );
+        let u2 = m.add_column(
+            &format!("u2_{sp}"),
+            0.0,
+            span,
+            site.priority * inst.weight2,
+            false,
+        );
+        let alive: Vec<(usize, f64)> = site
+            .arcs
+            .iter()
+            .map(|&a| (col[a], inst.arcs[a].wasps_alive_per_vial))
+            .collect();
+        let vials: Vec<(usize, f64)> = site.arcs.iter().map(|&a| (col[a], 1.0)).collect();
+        let mut b: Vec<(usize, f64)> = alive.iter().map(|&(c, v)| (c, -v)).collect();
+        b.extend([(u1, 1.0), (u2, 1.0)]);
+        m.add_row(&format!("benefit{sp}"), &b, Sense::Le, 0.0);
+        let mut hi = alive.clone();
+        hi.push((y, -inst.max));
+        m.add_row(&format!("max{sp}"), &hi, Sense::Le, 0.0);
+        match site.kind {
+            SiteKind::Block => {
+                let mut lo = alive.clone();
+                lo.push((y, -inst.min));
+                m.add_row(&format!("min{sp}"), &lo, Sense::Ge, 0.0);
+            }
+            SiteKind::Dooryard => {
+                let mut eq = vials.clone();
+                eq.push((y, -f64::from(inst.per_request)));
+                m.add_row(&format!("req{sp}"), &eq, Sense::Eq, 0.0);
+            }
+        }
+        if let Some(f) = site.force {
+            let (mut t, rhs, pen) = match f {
+                Force::Vials(v) => (vials, v, inst.force_penalty_per_vial),
+                Force::Wasps(w) => (
+                    alive,
+                    w,
+                    inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0),
+                ),
+            };
+            let slack = m.add_column(&format!("short{sp}"), 0.0, rhs, -pen, false);
+            t.push((slack, 1.0));
+            m.add_row(&format!("force{sp}"), &t, Sense::Ge, rhs);
+        }
+    }
+    let mut res_terms: Vec<Vec<(usize, f64)>> = vec![Vec::new(); inst.resources.len()];
+    let mut share_terms = Vec::new();
+    for &a in cand_arcs {
+        for &r in &inst.arc_res[a] {
+            res_terms[r].push((col[a], 1.0));
+        }
+        if let Some(s) = inst.share {
+            let door = inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard;
+            share_terms.push((col[a], if door { 1.0 - s } else { -s }));
+        }
+    }
+    for (r, t) in res_terms.iter().enumerate() {
+        if !t.is_empty() {
+            m.add_row(&format!("res{r}"), t, Sense::Le, inst.res_rhs[r]);
+        }
+    }
+    if !share_terms.is_empty() {
+        m.add_row("share", &share_terms, Sense::Ge, 0.0);
+    }
+    let sol = m.solve_integer(1e-4, 5.0).ok()?;
+    let mut x = vec![0u32; inst.arcs.len()];
+    for &a in cand_arcs {
+        x[a] = sol.values[col[a]].round().max(0.0) as u32;
+    }
+    Some(x)
 }
 
 #[cfg(test)]
@@ -520,19 +641,22 @@ mod tests {
     }
 
     #[test]
-    fn empty_lp_still_fills_supply_greedily() {
+    fn greedy_fill_completes_a_thin_lp_solution() {
         let s = tiny();
         let arcs = Arcs {
             arcs: vec![arc(0, 0, 0, 90.0), arc(1, 0, 0, 95.0)],
             no_arc_reason: vec![None; s.sites.len()],
         };
         let priority = vec![1.0; s.sites.len()];
-        let mut opts = AllocOptions::default();
-        opts.pricing = false;
+        let opts = AllocOptions {
+            pricing: false,
+            ..AllocOptions::default()
+        };
         let mut s2 = s.clone();
         s2.policy.dooryard_share_min = 0.0;
         let inst = Instance::new(&s2, &priority, &arcs, &opts).expect("valid");
-        let x = round(&inst, &[0.0, 0.0], &[true, true], 1_000_000);
+        // The LP hint is far below a minimum release at both sites.
+        let x = round(&inst, &[0.5, 0.5], &[true, true], 1_000_000);
         // Six vials packed at F1 on day 0: both blocks at or above the 150-wasp minimum.
         assert_eq!(x.iter().sum::<u32>(), 6);
         for (a, &v) in x.iter().enumerate() {
