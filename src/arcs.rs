@@ -139,7 +139,7 @@ pub fn build_arcs_with(
     let secs = |t: NaiveTime| i64::from(t.num_seconds_from_midnight());
     let pack_s: [i64; 7] =
         std::array::from_fn(|i| i as i64 * DAY_S + secs(scenario.agent.pack_time));
-    let shelf_s = (scenario.agent.shelf_life_hours * 3600.0).round() as i64;
+    let shelf_s = hours_to_seconds(scenario.agent.shelf_life_hours);
 
     // supply[f][p] > 0: facility f packs on day p.
     let mut packs = vec![[false; 7]; nf];
@@ -165,7 +165,7 @@ pub fn build_arcs_with(
         for (d, &date) in dates.iter().enumerate() {
             if v.runs_on(date) {
                 let start = d as i64 * DAY_S + secs(v.shift_start);
-                let end = start + (v.shift_hours * 3600.0).round() as i64;
+                let end = start + hours_to_seconds(v.shift_hours);
                 depot[d].push((start, end));
             }
         }
@@ -173,8 +173,9 @@ pub fn build_arcs_with(
     let parcel_day: [bool; 7] = std::array::from_fn(|d| {
         scenario.parcel.max_vials_per_day > 0 && scenario.parcel.days.contains(&dates[d].weekday())
     });
-    let parcel_transit_s = (scenario.parcel.transit_hours * 3600.0).round() as i64;
-    let parcel_ok = parcel_transit_s >= 0 && scenario.parcel.transit_hours.is_finite();
+    let parcel_transit_s = hours_to_seconds(scenario.parcel.transit_hours);
+    let parcel_ok =
+        scenario.parcel.transit_hours.is_finite() && scenario.parcel.transit_hours >= 0.0;
     let ship_s = secs(scenario.parcel.ship_time);
 
     let mut forbidden = vec![false; scenario.sites.len()];
@@ -327,6 +328,18 @@ pub fn build_arcs_with(
         out.arcs.append(&mut site_arcs);
     }
     out
+}
+
+/// Hours to whole seconds, clamped to 0..=1 year so that clock sums can never overflow
+/// whatever the scenario holds (NaN gives 0).
+fn hours_to_seconds(hours: f64) -> i64 {
+    const YEAR_S: f64 = 365.0 * 86_400.0;
+    let s = (hours * 3600.0).round();
+    if s.is_nan() {
+        0
+    } else {
+        s.clamp(0.0, YEAR_S) as i64
+    }
 }
 
 /// Minutes to whole seconds, `None` when not a usable drive or service time.
@@ -504,6 +517,17 @@ mod tests {
         assert_eq!(reason("B5"), Some(Reason::InsecticideWindow));
         assert_eq!(reason("R4"), Some(Reason::NoHostPlant));
         assert_eq!(reason("B1"), None);
+        assert_eq!(arcs.arcs.len(), 4 * 17 + 17 + 23 + 6);
+        // Strict pruning: one arc per (facility, pack day, mode) that reaches the site.
+        let strict = build_arcs_with(
+            &s,
+            &TravelModel::new(&s),
+            &ArcOptions {
+                pruning: Pruning::FreshestPerPackDay,
+            },
+        );
+        check_invariants(&s, &strict);
+        assert_eq!(strict.arcs.len(), 4 * 9 + 9 + 15 + 6);
     }
 
     #[test]
@@ -771,6 +795,13 @@ mod tests {
             check_invariants(&s, &arcs);
             assert!(arcs.arcs.iter().all(|a| a.mode == Mode::Parcel));
         }
+        // Absurd durations clamp instead of overflowing the clock arithmetic.
+        let mut s = tiny();
+        s.agent.shelf_life_hours = 1e300;
+        s.parcel.transit_hours = 1e300;
+        let arcs = build_arcs(&s, &TravelModel::new(&s));
+        check_invariants(&s, &arcs);
+        assert!(arcs.arcs.iter().all(|a| a.mode == Mode::Route));
     }
 
     /// `n` sites cloned from the fixture's eligible ones, spread on a grid of about 0.6 km
@@ -826,6 +857,18 @@ mod tests {
     fn timing_35k() {
         let s = synthetic(35_000);
         let tm = TravelModel::new(&s);
+        let t = std::time::Instant::now();
+        let mut total = 0.0;
+        for site in 0..s.sites.len() {
+            for f in 0..s.facilities.len() {
+                total += tm.minutes(Place::Facility(f), Place::Site(site));
+                total += tm.minutes(Place::Site(site), Place::Facility(f));
+            }
+        }
+        eprintln!(
+            "travel look-ups alone (4 per site): {:.3} s (sum {total:.0} min)",
+            t.elapsed().as_secs_f64()
+        );
         for pruning in [
             Pruning::FreshestDispatchDays,
             Pruning::FreshestPerPackDay,
