@@ -107,6 +107,17 @@ pub struct ArcOptions {
 ///
 /// Complexity: O(S · F · (7 · 7 · V + a log a)) for S sites, F facilities, V vehicles per
 /// depot and a arcs per site, plus 2 travel look-ups per (facility, site) pair.
+///
+/// ```
+/// use broodcast::arcs::build_arcs;
+/// use broodcast::eligibility::Reason;
+/// use broodcast::travel::TravelModel;
+/// let scenario = broodcast::scenario::fixture::tiny();
+/// let arcs = build_arcs(&scenario, &TravelModel::new(&scenario));
+/// assert!(arcs.arcs.iter().all(|a| a.eta <= a.release_by));
+/// let b4 = scenario.site_idx("B4").unwrap(); // not flushing, flush required
+/// assert_eq!(arcs.no_arc_reason[b4], Some(Reason::NoFlush));
+/// ```
 pub fn build_arcs(scenario: &Scenario, travel: &impl TravelTimes) -> Arcs {
     build_arcs_with(scenario, travel, &ArcOptions::default())
 }
