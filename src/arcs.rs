@@ -815,6 +815,66 @@ mod tests {
         assert!(arcs.arcs.iter().all(|a| a.mode == Mode::Route));
     }
 
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+        /// Whatever the durations, every pruning yields valid arcs, the default is a subset of
+        /// the full set, the strict one of the default, and every pack day that reaches a
+        /// (site, facility, mode) at all keeps its freshest arc in both.
+        #[test]
+        fn pruned_sets_are_nested_and_keep_each_pack_days_freshest(
+            shelf in 1.0..100.0f64,
+            out in 0.0..400.0f64,
+            back in 0.0..400.0f64,
+            start_h in 4u32..11,
+            shift_h in 1.0..16.0f64,
+            open_h in 5u32..12,
+            len_h in 1u32..10,
+            transit in 0.0..60.0f64,
+            extra_day in 0usize..7,
+        ) {
+            let mut s = tiny();
+            s.agent.shelf_life_hours = shelf;
+            s.parcel.transit_hours = transit;
+            s.fleet[0].shift_start = NaiveTime::from_hms_opt(start_h, 0, 0).expect("time");
+            s.fleet[0].shift_hours = shift_h;
+            let extra = s.week_dates()[extra_day].weekday();
+            s.fleet[1].days.push(extra);
+            for site in &mut s.sites {
+                if let SiteDetail::Block(b) = &mut site.detail {
+                    b.access_start = NaiveTime::from_hms_opt(open_h, 0, 0).expect("time");
+                    b.access_end = NaiveTime::from_hms_opt(open_h + len_h, 0, 0).expect("time");
+                }
+            }
+            let tr = Const { out, back };
+            let with = |pruning| build_arcs_with(&s, &tr, &ArcOptions { pruning });
+            let (full, default, strict) =
+                (with(Pruning::None), with(Pruning::FreshestDispatchDays), with(Pruning::FreshestPerPackDay));
+            for a in [&full, &default, &strict] {
+                check_invariants(&s, a);
+            }
+            for a in &default.arcs {
+                proptest::prop_assert!(full.arcs.contains(a));
+            }
+            for a in &strict.arcs {
+                proptest::prop_assert!(default.arcs.contains(a));
+            }
+            let key = |a: &Arc| (a.site, a.facility, a.mode, a.pack_date);
+            for a in &full.arcs {
+                let best = full
+                    .arcs
+                    .iter()
+                    .filter(|b| key(b) == key(a))
+                    .min_by_key(|b| (b.eta, b.dispatch_date))
+                    .expect("a itself");
+                proptest::prop_assert!(strict.arcs.contains(best));
+                proptest::prop_assert!(default.arcs.contains(best));
+            }
+            proptest::prop_assert_eq!(&full.no_arc_reason, &default.no_arc_reason);
+            proptest::prop_assert_eq!(&full.no_arc_reason, &strict.no_arc_reason);
+        }
+    }
+
     /// `n` sites cloned from the fixture's eligible ones, spread on a grid of about 0.6 km
     /// around the two facilities; a third are requests. Invented positions.
     pub(crate) fn synthetic(n: usize) -> Scenario {
