@@ -107,6 +107,17 @@ pub struct ArcOptions {
 ///
 /// Complexity: O(S · F · (7 · 7 · V + a log a)) for S sites, F facilities, V vehicles per
 /// depot and a arcs per site, plus 2 travel look-ups per (facility, site) pair.
+///
+/// ```
+/// use broodcast::arcs::build_arcs;
+/// use broodcast::eligibility::Reason;
+/// use broodcast::travel::TravelModel;
+/// let scenario = broodcast::scenario::fixture::tiny();
+/// let arcs = build_arcs(&scenario, &TravelModel::new(&scenario));
+/// assert!(arcs.arcs.iter().all(|a| a.eta <= a.release_by));
+/// let b4 = scenario.site_idx("B4").unwrap(); // not flushing, flush required
+/// assert_eq!(arcs.no_arc_reason[b4], Some(Reason::NoFlush));
+/// ```
 pub fn build_arcs(scenario: &Scenario, travel: &impl TravelTimes) -> Arcs {
     build_arcs_with(scenario, travel, &ArcOptions::default())
 }
@@ -139,7 +150,7 @@ pub fn build_arcs_with(
     let secs = |t: NaiveTime| i64::from(t.num_seconds_from_midnight());
     let pack_s: [i64; 7] =
         std::array::from_fn(|i| i as i64 * DAY_S + secs(scenario.agent.pack_time));
-    let shelf_s = (scenario.agent.shelf_life_hours * 3600.0).round() as i64;
+    let shelf_s = hours_to_seconds(scenario.agent.shelf_life_hours);
 
     // supply[f][p] > 0: facility f packs on day p.
     let mut packs = vec![[false; 7]; nf];
@@ -165,7 +176,7 @@ pub fn build_arcs_with(
         for (d, &date) in dates.iter().enumerate() {
             if v.runs_on(date) {
                 let start = d as i64 * DAY_S + secs(v.shift_start);
-                let end = start + (v.shift_hours * 3600.0).round() as i64;
+                let end = start + hours_to_seconds(v.shift_hours);
                 depot[d].push((start, end));
             }
         }
@@ -173,8 +184,9 @@ pub fn build_arcs_with(
     let parcel_day: [bool; 7] = std::array::from_fn(|d| {
         scenario.parcel.max_vials_per_day > 0 && scenario.parcel.days.contains(&dates[d].weekday())
     });
-    let parcel_transit_s = (scenario.parcel.transit_hours * 3600.0).round() as i64;
-    let parcel_ok = parcel_transit_s >= 0 && scenario.parcel.transit_hours.is_finite();
+    let parcel_transit_s = hours_to_seconds(scenario.parcel.transit_hours);
+    let parcel_ok =
+        scenario.parcel.transit_hours.is_finite() && scenario.parcel.transit_hours >= 0.0;
     let ship_s = secs(scenario.parcel.ship_time);
 
     let mut forbidden = vec![false; scenario.sites.len()];
@@ -327,6 +339,18 @@ pub fn build_arcs_with(
         out.arcs.append(&mut site_arcs);
     }
     out
+}
+
+/// Hours to whole seconds, clamped to 0..=1 year so that clock sums can never overflow
+/// whatever the scenario holds (NaN gives 0).
+fn hours_to_seconds(hours: f64) -> i64 {
+    const YEAR_S: f64 = 365.0 * 86_400.0;
+    let s = (hours * 3600.0).round();
+    if s.is_nan() {
+        0
+    } else {
+        s.clamp(0.0, YEAR_S) as i64
+    }
 }
 
 /// Minutes to whole seconds, `None` when not a usable drive or service time.
@@ -504,6 +528,17 @@ mod tests {
         assert_eq!(reason("B5"), Some(Reason::InsecticideWindow));
         assert_eq!(reason("R4"), Some(Reason::NoHostPlant));
         assert_eq!(reason("B1"), None);
+        assert_eq!(arcs.arcs.len(), 4 * 17 + 17 + 23 + 6);
+        // Strict pruning: one arc per (facility, pack day, mode) that reaches the site.
+        let strict = build_arcs_with(
+            &s,
+            &TravelModel::new(&s),
+            &ArcOptions {
+                pruning: Pruning::FreshestPerPackDay,
+            },
+        );
+        check_invariants(&s, &strict);
+        assert_eq!(strict.arcs.len(), 4 * 9 + 9 + 15 + 6);
     }
 
     #[test]
@@ -771,6 +806,73 @@ mod tests {
             check_invariants(&s, &arcs);
             assert!(arcs.arcs.iter().all(|a| a.mode == Mode::Parcel));
         }
+        // Absurd durations clamp instead of overflowing the clock arithmetic.
+        let mut s = tiny();
+        s.agent.shelf_life_hours = 1e300;
+        s.parcel.transit_hours = 1e300;
+        let arcs = build_arcs(&s, &TravelModel::new(&s));
+        check_invariants(&s, &arcs);
+        assert!(arcs.arcs.iter().all(|a| a.mode == Mode::Route));
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+        /// Whatever the durations, every pruning yields valid arcs, the default is a subset of
+        /// the full set, the strict one of the default, and every pack day that reaches a
+        /// (site, facility, mode) at all keeps its freshest arc in both.
+        #[test]
+        fn pruned_sets_are_nested_and_keep_each_pack_days_freshest(
+            shelf in 1.0..100.0f64,
+            out in 0.0..400.0f64,
+            back in 0.0..400.0f64,
+            start_h in 4u32..11,
+            shift_h in 1.0..16.0f64,
+            open_h in 5u32..12,
+            len_h in 1u32..10,
+            transit in 0.0..60.0f64,
+            extra_day in 0usize..7,
+        ) {
+            let mut s = tiny();
+            s.agent.shelf_life_hours = shelf;
+            s.parcel.transit_hours = transit;
+            s.fleet[0].shift_start = NaiveTime::from_hms_opt(start_h, 0, 0).expect("time");
+            s.fleet[0].shift_hours = shift_h;
+            let extra = s.week_dates()[extra_day].weekday();
+            s.fleet[1].days.push(extra);
+            for site in &mut s.sites {
+                if let SiteDetail::Block(b) = &mut site.detail {
+                    b.access_start = NaiveTime::from_hms_opt(open_h, 0, 0).expect("time");
+                    b.access_end = NaiveTime::from_hms_opt(open_h + len_h, 0, 0).expect("time");
+                }
+            }
+            let tr = Const { out, back };
+            let with = |pruning| build_arcs_with(&s, &tr, &ArcOptions { pruning });
+            let (full, default, strict) =
+                (with(Pruning::None), with(Pruning::FreshestDispatchDays), with(Pruning::FreshestPerPackDay));
+            for a in [&full, &default, &strict] {
+                check_invariants(&s, a);
+            }
+            for a in &default.arcs {
+                proptest::prop_assert!(full.arcs.contains(a));
+            }
+            for a in &strict.arcs {
+                proptest::prop_assert!(default.arcs.contains(a));
+            }
+            let key = |a: &Arc| (a.site, a.facility, a.mode, a.pack_date);
+            for a in &full.arcs {
+                let best = full
+                    .arcs
+                    .iter()
+                    .filter(|b| key(b) == key(a))
+                    .min_by_key(|b| (b.eta, b.dispatch_date))
+                    .expect("a itself");
+                proptest::prop_assert!(strict.arcs.contains(best));
+                proptest::prop_assert!(default.arcs.contains(best));
+            }
+            proptest::prop_assert_eq!(&full.no_arc_reason, &default.no_arc_reason);
+            proptest::prop_assert_eq!(&full.no_arc_reason, &strict.no_arc_reason);
+        }
     }
 
     /// `n` sites cloned from the fixture's eligible ones, spread on a grid of about 0.6 km
@@ -826,6 +928,18 @@ mod tests {
     fn timing_35k() {
         let s = synthetic(35_000);
         let tm = TravelModel::new(&s);
+        let t = std::time::Instant::now();
+        let mut total = 0.0;
+        for site in 0..s.sites.len() {
+            for f in 0..s.facilities.len() {
+                total += tm.minutes(Place::Facility(f), Place::Site(site));
+                total += tm.minutes(Place::Site(site), Place::Facility(f));
+            }
+        }
+        eprintln!(
+            "travel look-ups alone (4 per site): {:.3} s (sum {total:.0} min)",
+            t.elapsed().as_secs_f64()
+        );
         for pruning in [
             Pruning::FreshestDispatchDays,
             Pruning::FreshestPerPackDay,

@@ -166,6 +166,16 @@ pub struct SitePriority {
 ///
 /// Complexity: O(P log P) to bulk-load the R*-tree over P scouting points, then
 /// O(S (log P + k)) for S sites with k candidate points each (k geodesic distances per site).
+///
+/// ```
+/// use broodcast::pressure::{PressureParams, site_priority};
+/// let scenario = broodcast::scenario::fixture::tiny();
+/// let pr = site_priority(&scenario, &PressureParams::default());
+/// assert_eq!(pr.len(), scenario.sites.len());
+/// // B1 has a tap sample of 2 adults on the spot, observed the day before the week.
+/// let b1 = scenario.site_idx("B1").unwrap();
+/// assert!(pr[b1].pressure > 1.9 && pr[b1].priority > 0.0);
+/// ```
 pub fn site_priority(scenario: &Scenario, params: &PressureParams) -> Vec<SitePriority> {
     let pressures = indexed_pressure(scenario, params);
     scenario

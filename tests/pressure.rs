@@ -177,3 +177,57 @@ fn across_the_antimeridian_and_near_the_pole() {
         assert_eq!(fast, slow);
     }
 }
+
+/// `cargo test --release --test pressure timing -- --ignored --nocapture`
+#[test]
+#[ignore = "timing report, run by hand in release"]
+fn timing_35k_sites() {
+    // Invented grid of 35,000 sites over about 110 × 110 km, scouting points on a coarser
+    // offset grid over the same square; fixed, so runs compare.
+    let mut s = tiny();
+    let template = s.sites[0].clone();
+    s.sites = (0..35_000u32)
+        .map(|i| {
+            let mut site = template.clone();
+            site.location = LonLat {
+                lon: -80.5 + 0.006 * f64::from(i % 187),
+                lat: 26.5 + 0.006 * f64::from(i / 187),
+            };
+            site
+        })
+        .collect();
+    let week_start = s.week_start;
+    for (n_points, side) in [(500u32, 23u32), (5_000, 71)] {
+        let step = 1.12 / f64::from(side);
+        s.scouting = (0..n_points)
+            .map(|i| ScoutPoint {
+                id: format!("P{i}"),
+                date: week_start - chrono::Days::new(u64::from(i % 30)),
+                location: LonLat {
+                    lon: -80.5 + step * f64::from(i % side),
+                    lat: 26.5 + step * f64::from(i / side),
+                },
+                kind: kind_of((i % 3) as u8),
+                value: f64::from(i % 7),
+            })
+            .collect();
+        let params = PressureParams::default();
+        let t = std::time::Instant::now();
+        let fast = site_priority(&s, &params);
+        let t_fast = t.elapsed().as_secs_f64();
+        let mut sub = s.clone();
+        sub.sites.truncate(1_000);
+        let t = std::time::Instant::now();
+        let slow = pressure_brute_force(&sub, &params);
+        let t_slow = t.elapsed().as_secs_f64() * 35.0;
+        for (f, b) in fast.iter().zip(&slow) {
+            assert!((f.pressure - b).abs() <= 1e-12 * b.abs().max(f64::MIN_POSITIVE));
+        }
+        let in_range = fast.iter().filter(|p| p.pressure > 0.0).count();
+        eprintln!(
+            "35000 sites, {n_points} points, radius {} km: indexed {t_fast:.3} s, brute force \
+             {t_slow:.1} s (extrapolated from 1000 sites); {in_range} sites with pressure",
+            s.policy.pressure_radius_km
+        );
+    }
+}
