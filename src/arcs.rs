@@ -8,7 +8,7 @@
 //!
 //! [`build_arcs`] enumerates every feasible (facility, pack day, dispatch day, site, mode) and
 //! keeps a subset chosen by [`Pruning`]; rules and the pruning argument are in
-//! `docs/model-priority.md`. All clock arithmetic is done in whole seconds from the week start,
+//! `docs/model.md`. All clock arithmetic is done in whole seconds from the week start,
 //! so an arc's stored `eta` and `release_by` compare exactly as the builder compared them.
 
 use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime, Timelike};
@@ -86,7 +86,7 @@ pub enum Pruning {
     /// vials when the freshest pack day runs short. Dropped: dispatch days that are nobody's
     /// freshest (typically a vehicle day with no packing, e.g. a Saturday run), which only
     /// carry held vials and matter only when capacity on the kept days binds. A heuristic,
-    /// not a lossless reduction: see `docs/model-priority.md`.
+    /// not a lossless reduction: see `docs/model.md`.
     #[default]
     FreshestDispatchDays,
     /// Only each pack day's freshest dispatch: about one arc per (facility, pack day, mode).
@@ -514,7 +514,7 @@ mod tests {
         let arcs = build_arcs(&s, &TravelModel::new(&s));
         check_invariants(&s, &arcs);
         let count = |id: &str| of(&arcs, idx(&s, id)).len();
-        // Hand count (see docs/model-priority.md): F1 runs Mon–Fri, reaches in minutes, so
+        // Hand count (see docs/model.md): F1 runs Mon–Fri, reaches in minutes, so
         // pack days d−2..d reach each dispatch day d: 1+2+3+3+3 = 12. F2 runs Tue/Thu:
         // Tue {Mon,Tue} + Thu {Tue,Wed,Thu} = 5.
         for id in ["B1", "B2", "B3", "B6", "R1"] {

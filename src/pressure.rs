@@ -4,7 +4,7 @@
 //! (geodesic, WGS 84), weighted by a Gaussian kernel of the distance, an exponential decay of
 //! its age and a weight for its kind. Priority scales pressure by what a release there is worth
 //! (management, flush) and, for dooryard requests, adds a small tie-breaker for waiting time.
-//! Formulas, units and defaults: `docs/model-priority.md`.
+//! Formulas, units and defaults: `docs/model.md`.
 //!
 //! ## Why the index works in Earth-centred coordinates
 //!
@@ -33,7 +33,7 @@ const WGS84_F: f64 = 1.0 / 298.257_223_563;
 const QUERY_PAD_M: f64 = 1.0;
 
 /// Weights and multipliers of the priority model. All dimensionless unless the name says
-/// otherwise. `Default` gives the documented values (`docs/model-priority.md`).
+/// otherwise. `Default` gives the documented values (`docs/model.md`).
 #[derive(Clone, Debug, PartialEq)]
 pub struct PressureParams {
     /// Weight of one adult psyllid per tap sample (`tap_adults`). Default 1.0: the unit of
