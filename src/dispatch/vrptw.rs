@@ -186,7 +186,7 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
     let data = Data::new(inst, opts.neighbours.max(1));
     let mut cur = State::empty(&data);
     cur.construct();
-    cur.local_search();
+    cur.local_search(None);
     let mut best = cur.clone();
     let mut rng = fastrand::Rng::with_seed(opts.seed);
     let served = data.n - 1;
@@ -198,8 +198,8 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
                 break;
             }
             let mut cand = cur.clone();
-            cand.ruin_and_recreate(&mut rng);
-            cand.local_search();
+            let dirty = cand.ruin_and_recreate(&mut rng);
+            cand.local_search(Some(dirty));
             let threshold = 0.01 * (1.0 - f64::from(it) / f64::from(opts.max_iterations));
             let (bu, bd, _) = best.key();
             let (cu, cd, _) = cand.key();
@@ -547,22 +547,34 @@ impl<'a> State<'a> {
     }
 
     /// One full local search to a local optimum.
-    fn local_search(&mut self) {
+    ///
+    /// Passes look only at customers on routes changed in the previous pass (all routes in the
+    /// first when `dirty` is `None`), a don't-look rule at route level: a move from a clean
+    /// route into a changed one is still found from the changed route's side when it is a
+    /// relocate/exchange/tail swap of that route's customers.
+    fn local_search(&mut self, dirty: Option<Vec<bool>>) {
         let d = self.data;
-        let mut improved = true;
+        let mut dirty = dirty.unwrap_or_else(|| vec![true; self.routes.len()]);
         let mut guard = 0usize;
-        while improved && guard < 10_000 {
-            improved = false;
+        while dirty.iter().any(|&x| x) && guard < 10_000 {
             guard += 1;
+            let mut next = vec![false; self.routes.len()];
             for u in 1..d.n {
-                if self.at[u].is_none() {
+                let Some((r, _)) = self.at[u] else { continue };
+                if !dirty[r] {
                     continue;
                 }
                 if let Some(m) = self.find_move(u) {
+                    next[m.a] = true;
+                    dirty[m.a] = true;
+                    if let Some((b, _)) = &m.b {
+                        next[*b] = true;
+                        dirty[*b] = true;
+                    }
                     self.apply(m);
-                    improved = true;
                 }
             }
+            dirty = next;
         }
     }
 
@@ -574,6 +586,16 @@ impl<'a> State<'a> {
         let va = a.vehicle;
         let la = a.nodes.len();
         let dist_a = self.route_dist(ru);
+        // Summaries of the 1–3 customers from u (both ways) and of route a without them.
+        let cut: [(Seg, Seg, Seg); 3] = std::array::from_fn(|k| {
+            let len = (k + 1).min(la - pu);
+            let seg = &a.nodes[pu..pu + len];
+            (
+                seg_of(d, seg.iter().copied()),
+                seg_of(d, seg.iter().rev().copied()),
+                d.cat(&a.pre[pu], &a.suf[pu + len]),
+            )
+        });
         for &v in &d.neigh[u] {
             let Some((rv, pv)) = self.at[v] else { continue };
             if rv == ru {
@@ -592,10 +614,8 @@ impl<'a> State<'a> {
                 if pu + len > la {
                     break;
                 }
-                let seg = a.nodes[pu..pu + len].to_vec();
-                let fwd = seg_of(d, seg.iter().copied());
-                let rev = seg_of(d, seg.iter().rev().copied());
-                let new_a = d.cat(&a.pre[pu], &a.suf[pu + len]);
+                let seg = &a.nodes[pu..pu + len];
+                let (fwd, rev, new_a) = cut[len - 1];
                 if !d.feasible(&new_a, va) {
                     continue;
                 }
@@ -611,7 +631,7 @@ impl<'a> State<'a> {
                             let mut an = a.nodes.clone();
                             an.drain(pu..pu + len);
                             let mut bn = b.nodes.clone();
-                            let mut ins = seg.clone();
+                            let mut ins = seg.to_vec();
                             if reversed {
                                 ins.reverse();
                             }
@@ -699,60 +719,62 @@ impl<'a> State<'a> {
         let veh = route.vehicle;
         let nodes = &route.nodes;
         let before = self.route_dist(r);
-        let check = |cand: Vec<usize>| -> Option<Move> {
-            let s = d.route_seg(veh, cand.iter().copied());
-            if d.feasible(&s, veh) && s.dist < before - EPS {
-                Some(Move {
-                    a: r,
-                    a_nodes: cand,
-                    b: None,
-                })
-            } else {
-                None
+        // Only the stretch that differs is re-summarised: prefix ⊕ changed ⊕ suffix.
+        let check = |cand: &[usize]| -> Option<Move> {
+            let lo = (0..nodes.len()).find(|&k| cand[k] != nodes[k])?;
+            let hi = (0..nodes.len()).rev().find(|&k| cand[k] != nodes[k])? + 1;
+            let mut s = route.pre[lo];
+            for &v in &cand[lo..hi] {
+                s = d.cat(&s, &d.node_seg(v));
             }
+            let s = d.cat(&s, &route.suf[hi]);
+            (d.feasible(&s, veh) && s.dist < before - EPS).then(|| Move {
+                a: r,
+                a_nodes: cand.to_vec(),
+                b: None,
+            })
         };
-        // Or-opt.
+        let mut cand: Vec<usize> = Vec::with_capacity(nodes.len());
+        // Or-opt: cut nodes[pu..pu+len] and put it before or after v, either way round.
         for len in 1..=3 {
             if pu + len > nodes.len() || (pv >= pu && pv < pu + len) {
                 break;
             }
-            let seg: Vec<usize> = nodes[pu..pu + len].to_vec();
-            let mut rest: Vec<usize> = nodes.clone();
-            rest.drain(pu..pu + len);
-            let Some(vpos) = rest.iter().position(|&x| x == nodes[pv]) else {
-                continue;
-            };
+            let seg = &nodes[pu..pu + len];
+            // Position of v once the segment is cut out.
+            let vpos = if pv < pu { pv } else { pv - len };
             for k in [vpos, vpos + 1] {
                 for reversed in [false, true] {
-                    let mut ins = seg.clone();
+                    cand.clear();
+                    let mut rest = nodes[..pu].iter().chain(&nodes[pu + len..]).copied();
+                    cand.extend(rest.by_ref().take(k));
                     if reversed {
-                        ins.reverse();
+                        cand.extend(seg.iter().rev());
+                    } else {
+                        cand.extend(seg.iter());
                     }
-                    let mut cand = rest.clone();
-                    cand.splice(k..k, ins);
-                    if cand != *nodes
-                        && let Some(m) = check(cand)
-                    {
+                    cand.extend(rest);
+                    if let Some(m) = check(&cand) {
                         return Some(m);
                     }
                 }
             }
         }
         // Exchange.
-        {
-            let mut cand = nodes.clone();
-            cand.swap(pu, pv);
-            if let Some(m) = check(cand) {
-                return Some(m);
-            }
+        cand.clear();
+        cand.extend_from_slice(nodes);
+        cand.swap(pu, pv);
+        if let Some(m) = check(&cand) {
+            return Some(m);
         }
         // 2-opt: make u and v adjacent by reversing the stretch between.
         let (i, j) = if pu < pv { (pu, pv) } else { (pv, pu) };
         for (p, q) in [(i + 1, j), (i, j.saturating_sub(1))] {
             if p < q {
-                let mut cand = nodes.clone();
+                cand.clear();
+                cand.extend_from_slice(nodes);
                 cand[p..=q].reverse();
-                if let Some(m) = check(cand) {
+                if let Some(m) = check(&cand) {
                     return Some(m);
                 }
             }
@@ -762,11 +784,13 @@ impl<'a> State<'a> {
 
     /// Removes a customer and some of its nearest served neighbours, then re-inserts them and
     /// any unserved customer at the cheapest feasible place (empty vehicles included).
-    fn ruin_and_recreate(&mut self, rng: &mut fastrand::Rng) {
+    /// Returns which routes changed.
+    fn ruin_and_recreate(&mut self, rng: &mut fastrand::Rng) -> Vec<bool> {
         let d = self.data;
+        let mut changed = vec![false; self.routes.len()];
         let served: Vec<usize> = (1..d.n).filter(|&u| self.at[u].is_some()).collect();
         if served.is_empty() {
-            return;
+            return changed;
         }
         let centre = served[rng.usize(..served.len())];
         let want = rng.usize(3..=15).min(served.len());
@@ -788,6 +812,7 @@ impl<'a> State<'a> {
         touched.sort_unstable();
         touched.dedup();
         for &r in &touched {
+            changed[r] = true;
             let keep: Vec<usize> = self.routes[r]
                 .nodes
                 .iter()
@@ -827,12 +852,16 @@ impl<'a> State<'a> {
                 }
             }
             match best {
-                Some((_, r, k)) => self.insert(r, k, u),
+                Some((_, r, k)) => {
+                    changed[r] = true;
+                    self.insert(r, k, u);
+                }
                 None => left.push(u),
             }
         }
         left.sort_unstable();
         self.unserved = left;
+        changed
     }
 
     /// Most telling reason `u` fits nowhere.
