@@ -320,7 +320,7 @@ fn solomon_routes_feasible_all_served_and_near_best_known() {
     let opts = SolveOptions {
         seed: 1,
         time_limit: None,
-        max_iterations: 300,
+        max_iterations: 1_000,
         neighbours: 12,
     };
     for r in rdr.records() {
