@@ -56,7 +56,7 @@ impl Default for TspOptions {
 pub struct Tour {
     /// Nodes in visiting order, excluding the depot 0; each of 1..n exactly once.
     pub order: Vec<usize>,
-    /// Depot → order[0] → … → order[last] → depot, minutes.
+    /// Depot → `order[0]` → … → `order[last]` → depot, minutes.
     pub total_minutes: f64,
 }
 
