@@ -149,7 +149,7 @@ fn tsplib_tours_within_two_percent_of_optimum() {
         seed: 1,
         time_limit: None,
         max_kicks: 3_000,
-        neighbours: 10,
+        neighbours: 12,
     };
     let mut gaps = Vec::new();
     for (name, opt) in tsplib_optima() {

@@ -39,14 +39,15 @@ pub struct TspOptions {
 }
 
 impl Default for TspOptions {
-    /// Seed 1, 1 s, 3,000 kicks, 10 neighbours: on TSPLIB up to 280 nodes the kick cap, not
-    /// the clock, ends the search (see `docs/performance-routing.md`).
+    /// Seed 1, 1 s, 3,000 kicks, 12 neighbours: on TSPLIB up to 280 nodes the kick cap, not
+    /// the clock, ends the search; 12 rather than 10 neighbours cut the mean gap over seeds
+    /// 1–5 from 0.17 % to 0.03 % (see `docs/performance-routing.md`).
     fn default() -> Self {
         TspOptions {
             seed: 1,
             time_limit: Some(Duration::from_secs(1)),
             max_kicks: 3_000,
-            neighbours: 10,
+            neighbours: 12,
         }
     }
 }
