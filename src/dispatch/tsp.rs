@@ -87,6 +87,19 @@ fn entry(minutes: &[Vec<f64>], i: usize, j: usize) -> f64 {
 /// read as n × n with n = `minutes.len()`; short rows or non-finite values count as unusable
 /// (1e9 minutes) rather than panicking. Complexity: O(n²) set-up, then O(n) per applied move
 /// and per kick (see the module doc).
+///
+/// ```
+/// use broodcast::dispatch::tsp::{TspOptions, best_order};
+/// // Depot 0 and stops 1–3 on a line, drive minutes = distance: out and back is 6 minutes.
+/// let m: Vec<Vec<f64>> = [0.0, 2.0, 1.0, 3.0]
+///     .iter()
+///     .map(|a: &f64| [0.0, 2.0, 1.0, 3.0].iter().map(|b: &f64| (a - b).abs()).collect())
+///     .collect();
+/// let opts = TspOptions { time_limit: None, ..TspOptions::default() };
+/// let tour = best_order(&m, &opts);
+/// assert_eq!(tour.total_minutes, 6.0);
+/// assert!(tour.order == vec![2, 1, 3] || tour.order == vec![3, 1, 2]);
+/// ```
 pub fn best_order(minutes: &[Vec<f64>], opts: &TspOptions) -> Tour {
     let n = minutes.len();
     if n <= 3 {

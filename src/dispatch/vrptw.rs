@@ -181,6 +181,33 @@ impl Solution {
 /// Solves `inst` (see the module doc for method and complexity). Deterministic for a given
 /// `opts.seed` unless `opts.time_limit` binds. Never panics on odd input: customers that no
 /// vehicle can serve alone are reported as unserved.
+///
+/// ```
+/// use broodcast::dispatch::vrptw::{Customer, Instance, SolveOptions, VehicleSpec, solve};
+/// let stop = |earliest: f64, latest: f64| Customer {
+///     demand_vials: 2,
+///     service_minutes: 5.0,
+///     earliest,
+///     latest,
+///     deadline: 600.0,
+/// };
+/// let inst = Instance {
+///     // Two stops 10 minutes from the depot and 10 apart; the second only opens at 100.
+///     customers: vec![stop(0.0, 600.0), stop(100.0, 200.0)],
+///     minutes: vec![
+///         vec![0.0, 10.0, 10.0],
+///         vec![10.0, 0.0, 10.0],
+///         vec![10.0, 10.0, 0.0],
+///     ],
+///     vehicles: vec![VehicleSpec { capacity_vials: 3, start: 0.0, latest_return: 480.0 }; 2],
+/// };
+/// let opts = SolveOptions { time_limit: None, ..SolveOptions::default() };
+/// let sol = solve(&inst, &opts);
+/// // 4 vials do not fit one 3-vial van: two routes, each out and back.
+/// assert_eq!(sol.vehicles_used(), 2);
+/// assert_eq!(sol.total_drive_minutes, 40.0);
+/// assert_eq!(sol.routes[1].service_start, vec![100.0]); // waited for the window
+/// ```
 pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
     let started = Instant::now();
     let data = Data::new(inst, opts.neighbours.max(1));
