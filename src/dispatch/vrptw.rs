@@ -181,12 +181,39 @@ impl Solution {
 /// Solves `inst` (see the module doc for method and complexity). Deterministic for a given
 /// `opts.seed` unless `opts.time_limit` binds. Never panics on odd input: customers that no
 /// vehicle can serve alone are reported as unserved.
+///
+/// ```
+/// use broodcast::dispatch::vrptw::{Customer, Instance, SolveOptions, VehicleSpec, solve};
+/// let stop = |earliest: f64, latest: f64| Customer {
+///     demand_vials: 2,
+///     service_minutes: 5.0,
+///     earliest,
+///     latest,
+///     deadline: 600.0,
+/// };
+/// let inst = Instance {
+///     // Two stops 10 minutes from the depot and 10 apart; the second only opens at 100.
+///     customers: vec![stop(0.0, 600.0), stop(100.0, 200.0)],
+///     minutes: vec![
+///         vec![0.0, 10.0, 10.0],
+///         vec![10.0, 0.0, 10.0],
+///         vec![10.0, 10.0, 0.0],
+///     ],
+///     vehicles: vec![VehicleSpec { capacity_vials: 3, start: 0.0, latest_return: 480.0 }; 2],
+/// };
+/// let opts = SolveOptions { time_limit: None, ..SolveOptions::default() };
+/// let sol = solve(&inst, &opts);
+/// // 4 vials do not fit one 3-vial van: two routes, each out and back.
+/// assert_eq!(sol.vehicles_used(), 2);
+/// assert_eq!(sol.total_drive_minutes, 40.0);
+/// assert_eq!(sol.routes[1].service_start, vec![100.0]); // waited for the window
+/// ```
 pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
     let started = Instant::now();
     let data = Data::new(inst, opts.neighbours.max(1));
     let mut cur = State::empty(&data);
     cur.construct();
-    cur.local_search();
+    cur.local_search(None);
     let mut best = cur.clone();
     let mut rng = fastrand::Rng::with_seed(opts.seed);
     let served = data.n - 1;
@@ -198,8 +225,8 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
                 break;
             }
             let mut cand = cur.clone();
-            cand.ruin_and_recreate(&mut rng);
-            cand.local_search();
+            let dirty = cand.ruin_and_recreate(&mut rng);
+            cand.local_search(Some(dirty));
             let threshold = 0.01 * (1.0 - f64::from(it) / f64::from(opts.max_iterations));
             let (bu, bd, _) = best.key();
             let (cu, cd, _) = cand.key();
@@ -547,22 +574,38 @@ impl<'a> State<'a> {
     }
 
     /// One full local search to a local optimum.
-    fn local_search(&mut self) {
+    ///
+    /// Passes look only at customers on routes changed in the previous pass (all routes in the
+    /// first when `dirty` is `None`), a don't-look rule at route level: a move from a clean
+    /// route into a changed one is still found from the changed route's side when it is a
+    /// relocate/exchange/tail swap of that route's customers.
+    fn local_search(&mut self, dirty: Option<Vec<bool>>) {
         let d = self.data;
-        let mut improved = true;
+        let mut dirty = dirty.unwrap_or_else(|| vec![true; self.routes.len()]);
         let mut guard = 0usize;
-        while improved && guard < 10_000 {
-            improved = false;
+        while dirty.iter().any(|&x| x) && guard < 10_000 {
             guard += 1;
+            let mut next = vec![false; self.routes.len()];
             for u in 1..d.n {
-                if self.at[u].is_none() {
+                let Some((r, _)) = self.at[u] else { continue };
+                if !dirty[r] {
                     continue;
                 }
                 if let Some(m) = self.find_move(u) {
+                    next[m.a] = true;
+                    dirty[m.a] = true;
+                    if let Some((b, _)) = &m.b {
+                        next[*b] = true;
+                        dirty[*b] = true;
+                    }
+                    #[cfg(debug_assertions)]
+                    let before = self.total_dist();
                     self.apply(m);
-                    improved = true;
+                    #[cfg(debug_assertions)]
+                    debug_assert!(self.total_dist() <= before + 1e-6, "move lengthened routes");
                 }
             }
+            dirty = next;
         }
     }
 
@@ -574,6 +617,16 @@ impl<'a> State<'a> {
         let va = a.vehicle;
         let la = a.nodes.len();
         let dist_a = self.route_dist(ru);
+        // Summaries of the 1–3 customers from u (both ways) and of route a without them.
+        let cut: [(Seg, Seg, Seg); 3] = std::array::from_fn(|k| {
+            let len = (k + 1).min(la - pu);
+            let seg = &a.nodes[pu..pu + len];
+            (
+                seg_of(d, seg.iter().copied()),
+                seg_of(d, seg.iter().rev().copied()),
+                d.cat(&a.pre[pu], &a.suf[pu + len]),
+            )
+        });
         for &v in &d.neigh[u] {
             let Some((rv, pv)) = self.at[v] else { continue };
             if rv == ru {
@@ -592,10 +645,8 @@ impl<'a> State<'a> {
                 if pu + len > la {
                     break;
                 }
-                let seg = a.nodes[pu..pu + len].to_vec();
-                let fwd = seg_of(d, seg.iter().copied());
-                let rev = seg_of(d, seg.iter().rev().copied());
-                let new_a = d.cat(&a.pre[pu], &a.suf[pu + len]);
+                let seg = &a.nodes[pu..pu + len];
+                let (fwd, rev, new_a) = cut[len - 1];
                 if !d.feasible(&new_a, va) {
                     continue;
                 }
@@ -611,7 +662,7 @@ impl<'a> State<'a> {
                             let mut an = a.nodes.clone();
                             an.drain(pu..pu + len);
                             let mut bn = b.nodes.clone();
-                            let mut ins = seg.clone();
+                            let mut ins = seg.to_vec();
                             if reversed {
                                 ins.reverse();
                             }
@@ -692,68 +743,140 @@ impl<'a> State<'a> {
     }
 
     /// Improving move inside route r between positions pu and pv: Or-opt of 1–3 from pu to
-    /// next to pv, exchange, 2-opt. O(len) per candidate.
+    /// next to pv, exchange, 2-opt. The drive change is priced first from the few edges that
+    /// change (O(1), O(stretch) for a reversal); only improving candidates get the O(stretch)
+    /// time-window check.
     fn intra(&self, r: usize, pu: usize, pv: usize) -> Option<Move> {
         let d = self.data;
         let route = &self.routes[r];
         let veh = route.vehicle;
         let nodes = &route.nodes;
-        let before = self.route_dist(r);
-        let check = |cand: Vec<usize>| -> Option<Move> {
-            let s = d.route_seg(veh, cand.iter().copied());
-            if d.feasible(&s, veh) && s.dist < before - EPS {
-                Some(Move {
-                    a: r,
-                    a_nodes: cand,
-                    b: None,
-                })
+        let len_r = nodes.len();
+        // Node at position k, the depot just outside either end.
+        let x = |k: isize| -> usize {
+            if k < 0 || k as usize >= len_r {
+                0
             } else {
-                None
+                nodes[k as usize]
             }
         };
-        // Or-opt.
-        for len in 1..=3 {
-            if pu + len > nodes.len() || (pv >= pu && pv < pu + len) {
+        let c = |i: usize, j: usize| d.c(i, j);
+        // Feasibility of a candidate that differs from `nodes` only inside lo..hi.
+        let check = |cand: &[usize], lo: usize, hi: usize| -> Option<Move> {
+            let mut s = route.pre[lo];
+            for &v in &cand[lo..hi] {
+                s = d.cat(&s, &d.node_seg(v));
+            }
+            let s = d.cat(&s, &route.suf[hi]);
+            d.feasible(&s, veh).then(|| Move {
+                a: r,
+                a_nodes: cand.to_vec(),
+                b: None,
+            })
+        };
+        let mut cand: Vec<usize> = Vec::with_capacity(len_r);
+        let (pu_i, pv_i) = (pu as isize, pv as isize);
+        // Or-opt: cut nodes[pu..pu+len] and put it before or after v, either way round.
+        for len in 1..=3usize {
+            if pu + len > len_r || (pv >= pu && pv < pu + len) {
                 break;
             }
-            let seg: Vec<usize> = nodes[pu..pu + len].to_vec();
-            let mut rest: Vec<usize> = nodes.clone();
-            rest.drain(pu..pu + len);
-            let Some(vpos) = rest.iter().position(|&x| x == nodes[pv]) else {
-                continue;
-            };
-            for k in [vpos, vpos + 1] {
-                for reversed in [false, true] {
-                    let mut ins = seg.clone();
-                    if reversed {
-                        ins.reverse();
+            let seg = &nodes[pu..pu + len];
+            let (s0, sl) = (seg[0], seg[len - 1]);
+            let (before, after) = (x(pu_i - 1), x(pu_i + len as isize));
+            let removed = c(before, s0) + c(sl, after) - c(before, after);
+            let inner_fwd: f64 = seg.windows(2).map(|w| c(w[0], w[1])).sum();
+            let inner_rev: f64 = seg.windows(2).map(|w| c(w[1], w[0])).sum();
+            // Insert between (a, b) = (pred v, v) or (v, succ v) in the route without the cut.
+            let skip = |k: isize| -> isize {
+                if k >= pu_i && k < pu_i + len as isize {
+                    if k < pv_i {
+                        pu_i - 1
+                    } else {
+                        pu_i + len as isize
                     }
-                    let mut cand = rest.clone();
-                    cand.splice(k..k, ins);
-                    if cand != *nodes
-                        && let Some(m) = check(cand)
-                    {
+                } else {
+                    k
+                }
+            };
+            for (ka, kb) in [(skip(pv_i - 1), pv_i), (pv_i, skip(pv_i + 1))] {
+                let (na, nb) = (x(ka), x(kb));
+                for reversed in [false, true] {
+                    let (f, l, inner) = if reversed {
+                        (sl, s0, inner_rev - inner_fwd)
+                    } else {
+                        (s0, sl, 0.0)
+                    };
+                    let delta = c(na, f) + c(l, nb) - c(na, nb) + inner - removed;
+                    if delta >= -EPS {
+                        continue;
+                    }
+                    // Insert index in the list without the cut: after position ka.
+                    let k = if ka < pu_i {
+                        ka + 1
+                    } else {
+                        ka + 1 - len as isize
+                    } as usize;
+                    cand.clear();
+                    let mut rest = nodes[..pu].iter().chain(&nodes[pu + len..]).copied();
+                    cand.extend(rest.by_ref().take(k));
+                    if reversed {
+                        cand.extend(seg.iter().rev());
+                    } else {
+                        cand.extend(seg.iter());
+                    }
+                    cand.extend(rest);
+                    let lo = pu.min(k);
+                    let hi = (pu + len).max(k + len);
+                    if let Some(m) = check(&cand, lo, hi.min(len_r)) {
                         return Some(m);
                     }
                 }
             }
         }
+        let (i, j) = if pu < pv { (pu, pv) } else { (pv, pu) };
+        let (ii, ji) = (i as isize, j as isize);
         // Exchange.
         {
-            let mut cand = nodes.clone();
-            cand.swap(pu, pv);
-            if let Some(m) = check(cand) {
-                return Some(m);
+            let (u, v) = (nodes[i], nodes[j]);
+            let delta = if j == i + 1 {
+                let (p, n) = (x(ii - 1), x(ji + 1));
+                c(p, v) + c(v, u) + c(u, n) - c(p, u) - c(u, v) - c(v, n)
+            } else {
+                let (pi, ni, pj, nj) = (x(ii - 1), x(ii + 1), x(ji - 1), x(ji + 1));
+                c(pi, v) + c(v, ni) + c(pj, u) + c(u, nj)
+                    - c(pi, u)
+                    - c(u, ni)
+                    - c(pj, v)
+                    - c(v, nj)
+            };
+            if delta < -EPS {
+                cand.clear();
+                cand.extend_from_slice(nodes);
+                cand.swap(i, j);
+                if let Some(m) = check(&cand, i, j + 1) {
+                    return Some(m);
+                }
             }
         }
         // 2-opt: make u and v adjacent by reversing the stretch between.
-        let (i, j) = if pu < pv { (pu, pv) } else { (pv, pu) };
         for (p, q) in [(i + 1, j), (i, j.saturating_sub(1))] {
             if p < q {
-                let mut cand = nodes.clone();
-                cand[p..=q].reverse();
-                if let Some(m) = check(cand) {
-                    return Some(m);
+                let stretch = &nodes[p..=q];
+                let inner: f64 = stretch
+                    .windows(2)
+                    .map(|w| c(w[1], w[0]) - c(w[0], w[1]))
+                    .sum();
+                let (a, b) = (x(p as isize - 1), x(q as isize + 1));
+                let delta =
+                    c(a, nodes[q]) + c(nodes[p], b) - c(a, nodes[p]) - c(nodes[q], b) + inner;
+                if delta < -EPS {
+                    cand.clear();
+                    cand.extend_from_slice(nodes);
+                    cand[p..=q].reverse();
+                    if let Some(m) = check(&cand, p, q + 1) {
+                        return Some(m);
+                    }
                 }
             }
         }
@@ -762,11 +885,13 @@ impl<'a> State<'a> {
 
     /// Removes a customer and some of its nearest served neighbours, then re-inserts them and
     /// any unserved customer at the cheapest feasible place (empty vehicles included).
-    fn ruin_and_recreate(&mut self, rng: &mut fastrand::Rng) {
+    /// Returns which routes changed.
+    fn ruin_and_recreate(&mut self, rng: &mut fastrand::Rng) -> Vec<bool> {
         let d = self.data;
+        let mut changed = vec![false; self.routes.len()];
         let served: Vec<usize> = (1..d.n).filter(|&u| self.at[u].is_some()).collect();
         if served.is_empty() {
-            return;
+            return changed;
         }
         let centre = served[rng.usize(..served.len())];
         let want = rng.usize(3..=15).min(served.len());
@@ -788,6 +913,7 @@ impl<'a> State<'a> {
         touched.sort_unstable();
         touched.dedup();
         for &r in &touched {
+            changed[r] = true;
             let keep: Vec<usize> = self.routes[r]
                 .nodes
                 .iter()
@@ -827,12 +953,16 @@ impl<'a> State<'a> {
                 }
             }
             match best {
-                Some((_, r, k)) => self.insert(r, k, u),
+                Some((_, r, k)) => {
+                    changed[r] = true;
+                    self.insert(r, k, u);
+                }
                 None => left.push(u),
             }
         }
         left.sort_unstable();
         self.unserved = left;
+        changed
     }
 
     /// Most telling reason `u` fits nowhere.
