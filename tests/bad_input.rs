@@ -21,11 +21,7 @@ fn the_minimal_scenario_plans() {
         .arg(&target)
         .output()
         .unwrap();
-    assert!(
-        o.status.success(),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(target.join("manifest.csv").exists());
 }
 
