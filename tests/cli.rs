@@ -242,7 +242,11 @@ fn lp_bound_matches_highs_on_the_exported_demo_and_generated_models() {
             continue;
         }
         let ours = summary["lp_bound"].as_f64().unwrap();
-        let o = Command::new("python3").arg(script).arg(&mps).output().unwrap();
+        let o = Command::new("python3")
+            .arg(script)
+            .arg(&mps)
+            .output()
+            .unwrap();
         let text = String::from_utf8_lossy(&o.stdout);
         let line = text
             .lines()

@@ -505,9 +505,10 @@ pub(crate) fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_du
 
 /// Solves the LP, with working-set pricing when `opts.pricing` is set.
 ///
-/// The first set holds every forced site, every dooryard and the best blocks by
-/// priority × best live wasps per vial until their target releases add up to three times the
-/// week's supply. Each round solves the set, prices every other site's arcs with the duals
+/// The first set holds every forced site, the best sites by priority × best live wasps per
+/// vial until their releases (target for blocks, the standard count for requests) add up to
+/// three times the week's supply, and the best dooryards until they could meet three times
+/// the share floor. Each round solves the set, prices every other site's arcs with the duals
 /// (O(A)) and adds the sites with a positive reduced cost; when none remains the working-set
 /// optimum is the full-pool optimum (LP duality: the set's duals are feasible for the full
 /// dual). After 12 rounds every site is added.
@@ -519,33 +520,42 @@ pub(crate) fn solve_relaxation(
     let mut in_set = vec![!opts.pricing; ns];
     if opts.pricing {
         let supply: f64 = inst.scenario.total_supply_vials() as f64;
-        let mut order: Vec<(f64, usize)> = Vec::new();
-        for (sp, s) in inst.sites.iter().enumerate() {
-            if s.force.is_some() || s.kind == SiteKind::Dooryard {
-                in_set[sp] = true;
-            } else {
-                let best = s
-                    .arcs
-                    .iter()
-                    .map(|&a| inst.arcs[a].wasps_alive_per_vial)
-                    .fold(0.0, f64::max);
-                order.push((s.priority * best, sp));
-            }
-        }
-        order.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
-        let mut vials = 0.0;
-        for &(_, sp) in &order {
-            if vials > 3.0 * supply + 50.0 {
-                break;
-            }
-            in_set[sp] = true;
-            let best = inst.sites[sp]
+        let per_request = f64::from(inst.scenario.policy.dooryard_vials_per_request);
+        let best_alive = |sp: usize| {
+            inst.sites[sp]
                 .arcs
                 .iter()
                 .map(|&a| inst.arcs[a].wasps_alive_per_vial)
                 .fold(0.0, f64::max)
-                .max(1e-9);
-            vials += inst.target / best;
+        };
+        let mut order: Vec<(f64, usize)> = Vec::new();
+        for (sp, s) in inst.sites.iter().enumerate() {
+            if s.force.is_some() {
+                in_set[sp] = true;
+            } else {
+                order.push((s.priority * best_alive(sp), sp));
+            }
+        }
+        order.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+        // Two quotas, each three times what the week can ship: the best sites of any kind
+        // for the supply, and the best dooryards for the share floor.
+        let share_vials = inst.scenario.policy.dooryard_share_min * supply;
+        let (mut vials, mut dooryard_vials) = (0.0, 0.0);
+        for &(_, sp) in &order {
+            let is_dooryard = inst.sites[sp].kind == SiteKind::Dooryard;
+            let wanted = vials <= 3.0 * supply + 50.0
+                || (is_dooryard && dooryard_vials <= 3.0 * share_vials + 10.0 * per_request);
+            if !wanted {
+                continue;
+            }
+            in_set[sp] = true;
+            let need = if is_dooryard {
+                dooryard_vials += per_request;
+                per_request
+            } else {
+                inst.target / best_alive(sp).max(1e-9)
+            };
+            vials += need;
         }
     }
     let scale = inst
