@@ -434,22 +434,7 @@ fn fixture_allocation(s: &Scenario) -> Allocation {
         .dispatch_date
         .and_hms_opt(9, 0, 0)
         .expect("time");
-    shipments.sort_by(|a, b| {
-        (
-            a.arc.facility,
-            a.arc.dispatch_date,
-            a.arc.site,
-            a.arc.pack_date,
-            a.arc.mode,
-        )
-            .cmp(&(
-                b.arc.facility,
-                b.arc.dispatch_date,
-                b.arc.site,
-                b.arc.pack_date,
-                b.arc.mode,
-            ))
-    });
+    shipments.sort_by_key(Shipment::order_key);
     Allocation {
         shipments,
         sites: Vec::new(),
@@ -685,22 +670,7 @@ fn random_allocations_on_the_fixture_dispatch_within_every_limit() {
             }
             shipments.push(sh);
         }
-        shipments.sort_by(|a, b| {
-            (
-                a.arc.facility,
-                a.arc.dispatch_date,
-                a.arc.site,
-                a.arc.pack_date,
-                a.arc.mode,
-            )
-                .cmp(&(
-                    b.arc.facility,
-                    b.arc.dispatch_date,
-                    b.arc.site,
-                    b.arc.pack_date,
-                    b.arc.mode,
-                ))
-        });
+        shipments.sort_by_key(Shipment::order_key);
         let mut alloc = fixture_allocation(&s);
         alloc.shipments = shipments;
         let opts = DispatchOptions {

@@ -21,6 +21,12 @@ impl Shipment {
     pub fn wasps_expected_alive(&self) -> f64 {
         self.arc.wasps_alive_per_vial * f64::from(self.vials)
     }
+
+    /// The order of `Allocation::shipments`: (facility, dispatch date, site, pack date, mode).
+    pub fn order_key(&self) -> (usize, chrono::NaiveDate, SiteIdx, chrono::NaiveDate, Mode) {
+        let a = &self.arc;
+        (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode)
+    }
 }
 
 /// What one site got, and why not when it got nothing.
@@ -345,22 +351,7 @@ pub fn allocate(
             vials: v,
         })
         .collect();
-    shipments.sort_by(|a, b| {
-        (
-            a.arc.facility,
-            a.arc.dispatch_date,
-            a.arc.site,
-            a.arc.pack_date,
-            a.arc.mode,
-        )
-            .cmp(&(
-                b.arc.facility,
-                b.arc.dispatch_date,
-                b.arc.site,
-                b.arc.pack_date,
-                b.arc.mode,
-            ))
-    });
+    shipments.sort_by_key(Shipment::order_key);
     let objective = objective_of(&inst, scenario, &shipments);
     let mut vials = vec![0u32; n];
     let mut alive = vec![0.0; n];
