@@ -111,6 +111,12 @@ pub fn cases() -> Vec<Case> {
             "empty"
         ),
         case!(
+            "no facilities",
+            "facilities.csv",
+            |d| write(d, "facilities.csv", b"id,name,lat,lon,wasps_per_vial\n"),
+            "no facilities"
+        ),
+        case!(
             "binary garbage",
             "requests.csv",
             |d| write(d, "requests.csv", &[0xff, 0xfe, 0x00, 0x81, 0x0a, 0xc3]),
