@@ -45,11 +45,18 @@ pub fn priorities(scenario: &Scenario, params: &PressureParams) -> Vec<f64> {
         .collect()
 }
 
+/// The inputs of the allocation: the travel model, site priority and candidate arcs. Shared
+/// by [`plan`] and the model export, so both solve the same LP.
+pub fn prepare(scenario: &Scenario, opts: &PlanOptions) -> (TravelModel, Vec<f64>, Arcs) {
+    let travel = TravelModel::new(scenario);
+    let priority = priorities(scenario, &opts.pressure);
+    let arcs = arcs::build_arcs(scenario, &travel);
+    (travel, priority, arcs)
+}
+
 /// Plans the week.
 pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> {
-    let travel = TravelModel::new(&scenario);
-    let priority = priorities(&scenario, &opts.pressure);
-    let arcs = arcs::build_arcs(&scenario, &travel);
+    let (travel, priority, arcs) = prepare(&scenario, opts);
     let mut alloc_opts = opts.alloc.clone();
     let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     let first_dispatch = dispatch::dispatch(&scenario, &first, &travel);
@@ -84,8 +91,8 @@ pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> 
     alloc_opts.excluded.extend(removed);
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     let second_dispatch = dispatch::dispatch(&scenario, &second, &travel);
-    let allocation = if second_dispatch.undeliverable.is_empty() {
-        second
+    let (allocation, dispatch) = if second_dispatch.undeliverable.is_empty() {
+        (second, second_dispatch)
     } else {
         for u in &second_dispatch.undeliverable {
             let s = &second.shipments[u.shipment];
@@ -103,10 +110,12 @@ pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> 
             .iter()
             .map(|u| u.shipment)
             .collect();
-        drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?
+        let allocation =
+            drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?;
+        let dispatch = dispatch::dispatch(&scenario, &allocation, &travel);
+        debug_assert!(dispatch.undeliverable.is_empty());
+        (allocation, dispatch)
     };
-    let dispatch = dispatch::dispatch(&scenario, &allocation, &travel);
-    debug_assert!(dispatch.undeliverable.is_empty());
     Ok(Plan {
         scenario,
         priority,

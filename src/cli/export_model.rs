@@ -4,11 +4,9 @@ use std::path::PathBuf;
 
 use super::{CliResult, Failure, print_out, source_of};
 use crate::allocate;
-use crate::arcs;
 use crate::output;
 use crate::plan::{self, PlanOptions};
 use crate::scenario;
-use crate::travel::TravelModel;
 
 /// Arguments of `export-model`.
 #[derive(Debug, clap::Args)]
@@ -23,9 +21,7 @@ pub(crate) struct Args {
 pub(crate) fn run(args: Args) -> CliResult {
     let scenario = scenario::load(&source_of(&args.dir))?;
     let opts = PlanOptions::default();
-    let travel = TravelModel::new(&scenario);
-    let priority = plan::priorities(&scenario, &opts.pressure);
-    let arcs = arcs::build_arcs(&scenario, &travel);
+    let (_, priority, arcs) = plan::prepare(&scenario, &opts);
     let mps = allocate::export_mps(&scenario, &priority, &arcs, &opts.alloc)
         .map_err(|e| Failure::Internal(e.into()))?;
     output::write_file_atomically(&args.out, mps.as_bytes())?;
