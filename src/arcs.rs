@@ -270,6 +270,21 @@ pub fn build_arcs_with(
         serving.sort_unstable();
         for f in serving {
             let q = f64::from(scenario.facilities[f].wasps_per_vial);
+            let to_arc = |mode, drive_minutes, c: &Candidate| {
+                make_arc(
+                    scenario,
+                    f,
+                    s,
+                    mode,
+                    c,
+                    &dates,
+                    &pack_s,
+                    shelf_s,
+                    q,
+                    drive_minutes,
+                    &at,
+                )
+            };
             if route_allowed && shifts[f].iter().any(|v| !v.is_empty()) {
                 let drive_out = travel.minutes(Place::Facility(f), Place::Site(s));
                 if let (Some(out_s), Some(back_s)) = (
@@ -303,21 +318,7 @@ pub fn build_arcs_with(
                         }
                     }
                     prune(&mut cands, options.pruning);
-                    for c in &cands {
-                        site_arcs.push(make_arc(
-                            scenario,
-                            f,
-                            s,
-                            Mode::Route,
-                            c,
-                            &dates,
-                            &pack_s,
-                            shelf_s,
-                            q,
-                            drive_out,
-                            &at,
-                        ));
-                    }
+                    site_arcs.extend(cands.iter().map(|c| to_arc(Mode::Route, drive_out, c)));
                 }
             }
             if parcel_allowed && parcel_ok {
@@ -338,21 +339,7 @@ pub fn build_arcs_with(
                     }
                 }
                 prune(&mut cands, options.pruning);
-                for c in &cands {
-                    site_arcs.push(make_arc(
-                        scenario,
-                        f,
-                        s,
-                        Mode::Parcel,
-                        c,
-                        &dates,
-                        &pack_s,
-                        shelf_s,
-                        q,
-                        0.0,
-                        &at,
-                    ));
-                }
+                site_arcs.extend(cands.iter().map(|c| to_arc(Mode::Parcel, 0.0, c)));
             }
         }
         site_arcs.sort_by(|a, b| {
