@@ -355,12 +355,27 @@ impl<'a> Instance<'a> {
     }
 }
 
+/// Rows of one working-set site.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct SiteRows {
+    /// `benefit_s`: u1 + u2 − Σ alive x ≤ 0.
+    pub benefit: usize,
+    /// `maxrelease_s`: Σ alive x ≤ max.
+    pub max_release: usize,
+    /// `request_s` (dooryards): Σ x ≤ standard vials.
+    pub request: Option<usize>,
+    /// `force_s`: Σ x (or Σ alive x) + short ≥ rhs.
+    pub force: Option<usize>,
+}
+
 /// The LP over a working set, with the map from domain objects to columns and rows.
 #[derive(Clone, Debug)]
 pub(crate) struct Built {
     pub model: LinearModel,
     /// Column of each usable arc (None outside the working set).
     pub arc_col: Vec<Option<usize>>,
+    /// Rows of each site position (None outside the working set).
+    pub site_rows: Vec<Option<SiteRows>>,
     /// Row of each resource (None when no working-set arc draws on it).
     pub res_row: Vec<Option<usize>>,
     pub share_row: Option<usize>,
@@ -368,24 +383,35 @@ pub(crate) struct Built {
     pub force_rows: Vec<(usize, usize, usize)>,
 }
 
-/// Builds the LP over the sites with `in_set[s]` (positions in `inst.sites`).
-/// O(A + S) columns and rows.
-pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
+/// Coefficient of arc `a` (one vial) in the dooryard share row Σ (door − share·all) ≥ 0.
+fn share_coef(inst: &Instance, a: usize) -> f64 {
+    let s = inst.share.unwrap_or(0.0);
+    if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
+        1.0 - s
+    } else {
+        -s
+    }
+}
+
+/// Builds the LP over the arcs with `arc_in[a]`; a site is in the model when one of its arcs
+/// is. O(A + S) columns and rows.
+pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
     let mut m = LinearModel::new(&format!("broodcast_{}", inst.scenario.name));
     let mut arc_col = vec![None; inst.arcs.len()];
+    let mut site_rows = vec![None; inst.sites.len()];
     let mut res_terms: Vec<Vec<(usize, f64)>> = vec![Vec::new(); inst.resources.len()];
     let mut share_terms = Vec::new();
     let mut force_rows = Vec::new();
     let span = (inst.max - inst.target).max(0.0);
     let target = inst.target.min(inst.max).max(0.0);
     for (sp, site) in inst.sites.iter().enumerate() {
-        if !in_set[sp] {
+        if !site.arcs.iter().any(|&a| arc_in[a]) {
             continue;
         }
         let id = inst.scenario.sites[site.site].id.as_str();
         let mut alive_terms = Vec::with_capacity(site.arcs.len() + 2);
         let mut vial_terms = Vec::with_capacity(site.arcs.len());
-        for &a in &site.arcs {
+        for &a in site.arcs.iter().filter(|&&a| arc_in[a]) {
             let c = m.add_column(&inst.arc_name(a), 0.0, f64::INFINITY, -inst.cost[a], false);
             arc_col[a] = Some(c);
             alive_terms.push((c, inst.arcs[a].wasps_alive_per_vial));
@@ -394,13 +420,7 @@ pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
                 res_terms[r].push((c, 1.0));
             }
             if inst.share.is_some() {
-                let s = inst.share.unwrap_or(0.0);
-                let coef = if site.kind == SiteKind::Dooryard {
-                    1.0 - s
-                } else {
-                    -s
-                };
-                share_terms.push((c, coef));
+                share_terms.push((c, share_coef(inst, a)));
             }
         }
         let u1 = m.add_column(&format!("u1_{id}"), 0.0, target, site.priority, false);
@@ -415,22 +435,22 @@ pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
         let mut b: Vec<(usize, f64)> = alive_terms.iter().map(|&(c, v)| (c, -v)).collect();
         b.push((u1, 1.0));
         b.push((u2, 1.0));
-        m.add_row(&format!("benefit_{id}"), &b, Sense::Le, 0.0);
-        m.add_row(
+        let benefit = m.add_row(&format!("benefit_{id}"), &b, Sense::Le, 0.0);
+        let max_release = m.add_row(
             &format!("maxrelease_{id}"),
             &alive_terms,
             Sense::Le,
             inst.max,
         );
-        if site.kind == SiteKind::Dooryard {
+        let request = (site.kind == SiteKind::Dooryard).then(|| {
             m.add_row(
                 &format!("request_{id}"),
                 &vial_terms,
                 Sense::Le,
                 f64::from(inst.per_request),
-            );
-        }
-        if let Some(f) = site.force {
+            )
+        });
+        let force = site.force.map(|f| {
             let (terms, rhs, pen) = match f {
                 Force::Vials(v) => (vial_terms.clone(), v, inst.force_penalty_per_vial),
                 Force::Wasps(w) => (
@@ -444,7 +464,14 @@ pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
             t.push((slack, 1.0));
             let r = m.add_row(&format!("force_{id}"), &t, Sense::Ge, rhs);
             force_rows.push((sp, slack, r));
-        }
+            r
+        });
+        site_rows[sp] = Some(SiteRows {
+            benefit,
+            max_release,
+            request,
+            force,
+        });
     }
     let mut res_row = vec![None; inst.resources.len()];
     for (r, terms) in res_terms.iter().enumerate() {
@@ -461,6 +488,7 @@ pub(crate) fn build_model(inst: &Instance, in_set: &[bool]) -> Built {
     Built {
         model: m,
         arc_col,
+        site_rows,
         res_row,
         share_row,
         force_rows,
@@ -474,11 +502,14 @@ pub(crate) struct Relaxation {
     pub solution: ModelSolution,
     /// LP vials per usable arc (0 outside the working set).
     pub x: Vec<f64>,
+    /// Site positions with at least one arc in the final working set.
     pub in_set: Vec<bool>,
     /// Dual of each resource row (0 when absent).
     pub res_dual: Vec<f64>,
     pub share_dual: f64,
     pub rounds: usize,
+    /// Arc columns in the final working set.
+    pub columns: usize,
 }
 
 /// Reduced cost of arc `a` of a site outside the working set, per vial: the first wasps are
@@ -492,72 +523,200 @@ pub(crate) fn reduced_cost(inst: &Instance, a: usize, res_dual: &[f64], share_du
     for &r in &inst.arc_res[a] {
         rc -= res_dual[r];
     }
-    if let Some(s) = inst.share {
-        let coef = if site.kind == SiteKind::Dooryard {
-            1.0 - s
-        } else {
-            -s
-        };
-        rc -= share_dual * coef;
+    if inst.share.is_some() {
+        rc -= share_dual * share_coef(inst, a);
     }
     rc
 }
 
+/// Exact reduced cost (objective per vial) of arc column `a` against the duals `y` of the
+/// model `built`: c_a − Σ_rows coefficient × dual, with the rows the column would enter. A
+/// site outside the model prices its benefit row at the first segment's weight (its u1 sits
+/// at 0 with room: dual feasibility of u1 and u2 needs exactly that), and its other rows at 0
+/// (they are slack at x = 0).
+pub(crate) fn arc_reduced_cost(inst: &Instance, built: &Built, y: &[f64], a: usize) -> f64 {
+    let sp = inst.arc_site[a];
+    let site = &inst.sites[sp];
+    let w = inst.arcs[a].wasps_alive_per_vial;
+    let mut rc = -inst.cost[a];
+    match built.site_rows[sp] {
+        Some(rows) => {
+            rc += w * y[rows.benefit] - w * y[rows.max_release];
+            if let Some(r) = rows.request {
+                rc -= y[r];
+            }
+            if let (Some(r), Some(f)) = (rows.force, site.force) {
+                rc -= y[r]
+                    * match f {
+                        Force::Vials(_) => 1.0,
+                        Force::Wasps(_) => w,
+                    };
+            }
+        }
+        None => {
+            let slope = if inst.target > 0.0 { 1.0 } else { inst.weight2 };
+            rc += site.priority * slope * w;
+        }
+    }
+    for &r in &inst.arc_res[a] {
+        if let Some(row) = built.res_row[r] {
+            rc -= y[row];
+        }
+    }
+    if let Some(row) = built.share_row {
+        rc -= y[row] * share_coef(inst, a);
+    }
+    rc
+}
+
+/// The first working set (arc columns), each choice O(A log A):
+///
+/// - every arc of a forced site;
+/// - per supply and parcel row, the arcs with the best value per vial (priority × live wasps
+///   per vial − travel cost), one per site, until their sites' releases (target for blocks,
+///   the standard count for requests) add up to twice the row's vials: every shared row then
+///   has competition and a real dual in the first round;
+/// - the best sites by value until their releases add up to twice the week's supply, and the
+///   best dooryards until they could meet twice the share floor, each with its best arc.
+fn initial_arcs(inst: &Instance) -> Vec<bool> {
+    let na = inst.arcs.len();
+    let mut arc_in = vec![false; na];
+    let per_request = f64::from(inst.per_request);
+    let value = |a: usize| {
+        inst.sites[inst.arc_site[a]].priority * inst.arcs[a].wasps_alive_per_vial - inst.cost[a]
+    };
+    let need = |a: usize| {
+        if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
+            per_request
+        } else {
+            inst.target / inst.arcs[a].wasps_alive_per_vial.max(1e-9)
+        }
+    };
+    for site in &inst.sites {
+        if site.force.is_some() {
+            for &a in &site.arcs {
+                arc_in[a] = true;
+            }
+        }
+    }
+    let mut order: Vec<(f64, usize)> = (0..na).map(|a| (value(a), a)).collect();
+    order.sort_by(|x, y| y.0.total_cmp(&x.0).then(x.1.cmp(&y.1)));
+    // Per shared row (supply and parcel; vehicle rows are drawn on by the same arcs).
+    let mut filled = vec![0.0; inst.resources.len()];
+    let mut seen: Vec<Vec<bool>> = Vec::new();
+    let mut seen_of = vec![usize::MAX; inst.resources.len()];
+    for (r, res) in inst.resources.iter().enumerate() {
+        if !matches!(res, Resource::Capacity(..)) {
+            seen_of[r] = seen.len();
+            seen.push(vec![false; inst.sites.len()]);
+        }
+    }
+    for &(v, a) in &order {
+        if v <= 0.0 {
+            break;
+        }
+        let sp = inst.arc_site[a];
+        for &r in &inst.arc_res[a] {
+            let k = seen_of[r];
+            if k == usize::MAX || seen[k][sp] || filled[r] > 2.0 * inst.res_rhs[r] {
+                continue;
+            }
+            seen[k][sp] = true;
+            filled[r] += need(a);
+            arc_in[a] = true;
+        }
+    }
+    // Globally best sites, and dooryards for the share floor, each with its best arc.
+    let supply: f64 = inst.scenario.total_supply_vials() as f64;
+    let share_vials = inst.share.unwrap_or(0.0) * supply;
+    let (mut vials, mut door) = (0.0, 0.0);
+    let mut site_taken = vec![false; inst.sites.len()];
+    for &(v, a) in &order {
+        if v <= 0.0 {
+            break;
+        }
+        let sp = inst.arc_site[a];
+        if site_taken[sp] {
+            continue;
+        }
+        let is_door = inst.sites[sp].kind == SiteKind::Dooryard;
+        let wanted = vials <= 2.0 * supply + 50.0
+            || (is_door && door <= 2.0 * share_vials + 10.0 * per_request);
+        if !wanted {
+            continue;
+        }
+        site_taken[sp] = true;
+        arc_in[a] = true;
+        vials += need(a);
+        if is_door {
+            door += per_request;
+        }
+    }
+    arc_in
+}
+
+/// Rounds of partial pricing before every remaining arc is added (a safeguard: the runs
+/// measured in `docs/performance-allocate.md` need far fewer).
+const MAX_PRICING_ROUNDS: usize = 30;
+
+/// Arcs one pricing round adds at most, and per site: partial pricing keeps each round's LP
+/// small, since an interior-point solve costs far more than another round of pricing.
+const PRICED_ARCS_PER_ROUND: usize = 4_000;
+const PRICED_ARCS_PER_SITE: usize = 2;
+
+/// Adds to `arc_in` the arcs with a reduced cost above `tol` against the duals `y` of
+/// `built`: at most [`PRICED_ARCS_PER_SITE`] per site and [`PRICED_ARCS_PER_ROUND`] in all,
+/// best first. Returns how many were added; 0 certifies the working-set optimum for the full
+/// pool. O(A log A).
+fn add_priced_arcs(
+    inst: &Instance,
+    built: &Built,
+    y: &[f64],
+    tol: f64,
+    arc_in: &mut [bool],
+) -> usize {
+    let mut priced: Vec<(f64, usize)> = (0..inst.arcs.len())
+        .filter(|&a| !arc_in[a])
+        .filter_map(|a| {
+            let rc = arc_reduced_cost(inst, built, y, a);
+            (rc > tol).then_some((rc, a))
+        })
+        .collect();
+    priced.sort_by(|p, q| q.0.total_cmp(&p.0).then(p.1.cmp(&q.1)));
+    let mut per_site = vec![0usize; inst.sites.len()];
+    let mut added = 0;
+    for &(_, a) in &priced {
+        let sp = inst.arc_site[a];
+        if per_site[sp] >= PRICED_ARCS_PER_SITE {
+            continue;
+        }
+        per_site[sp] += 1;
+        arc_in[a] = true;
+        added += 1;
+        if added >= PRICED_ARCS_PER_ROUND {
+            break;
+        }
+    }
+    added
+}
+
 /// Solves the LP, with working-set pricing when `opts.pricing` is set.
 ///
-/// The first set holds every forced site, the best sites by priority × best live wasps per
-/// vial until their releases (target for blocks, the standard count for requests) add up to
-/// three times the week's supply, and the best dooryards until they could meet three times
-/// the share floor. Each round solves the set, prices every other site's arcs with the duals
-/// (O(A)) and adds the sites with a positive reduced cost; when none remains the working-set
-/// optimum is the full-pool optimum (LP duality: the set's duals are feasible for the full
-/// dual). After 12 rounds every site is added.
+/// The working set is a set of arc columns ([`initial_arcs`]). Each round solves it, prices
+/// every other arc with the exact reduced cost against the round's duals (O(A)) and adds the
+/// arcs with a positive one; when none remains the working-set optimum is the full-pool
+/// optimum (LP duality: the set's duals, extended to the missing rows as in
+/// [`arc_reduced_cost`], are feasible for the full dual). After 30 rounds every arc is added.
 pub(crate) fn solve_relaxation(
     inst: &Instance,
     opts: &AllocOptions,
 ) -> Result<Relaxation, ModelError> {
-    let ns = inst.sites.len();
-    let mut in_set = vec![!opts.pricing; ns];
-    if opts.pricing {
-        let supply: f64 = inst.scenario.total_supply_vials() as f64;
-        let per_request = f64::from(inst.scenario.policy.dooryard_vials_per_request);
-        let best_alive = |sp: usize| {
-            inst.sites[sp]
-                .arcs
-                .iter()
-                .map(|&a| inst.arcs[a].wasps_alive_per_vial)
-                .fold(0.0, f64::max)
-        };
-        let mut order: Vec<(f64, usize)> = Vec::new();
-        for (sp, s) in inst.sites.iter().enumerate() {
-            if s.force.is_some() {
-                in_set[sp] = true;
-            } else {
-                order.push((s.priority * best_alive(sp), sp));
-            }
-        }
-        order.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
-        // Two quotas, each three times what the week can ship: the best sites of any kind
-        // for the supply, and the best dooryards for the share floor.
-        let share_vials = inst.scenario.policy.dooryard_share_min * supply;
-        let (mut vials, mut dooryard_vials) = (0.0, 0.0);
-        for &(_, sp) in &order {
-            let is_dooryard = inst.sites[sp].kind == SiteKind::Dooryard;
-            let wanted = vials <= 3.0 * supply + 50.0
-                || (is_dooryard && dooryard_vials <= 3.0 * share_vials + 10.0 * per_request);
-            if !wanted {
-                continue;
-            }
-            in_set[sp] = true;
-            let need = if is_dooryard {
-                dooryard_vials += per_request;
-                per_request
-            } else {
-                inst.target / best_alive(sp).max(1e-9)
-            };
-            vials += need;
-        }
-    }
+    let na = inst.arcs.len();
+    let mut arc_in = if opts.pricing {
+        initial_arcs(inst)
+    } else {
+        vec![true; na]
+    };
     let scale = inst
         .sites
         .iter()
@@ -568,41 +727,35 @@ pub(crate) fn solve_relaxation(
     let mut rounds = 0;
     loop {
         rounds += 1;
-        let built = build_model(inst, &in_set);
+        let built = build_model(inst, &arc_in);
         let solution = built.model.solve_relaxation()?;
-        let mut res_dual = vec![0.0; inst.resources.len()];
-        for (r, row) in built.res_row.iter().enumerate() {
-            if let Some(row) = row {
-                res_dual[r] = solution.duals[*row];
-            }
-        }
-        let share_dual = built.share_row.map(|r| solution.duals[r]).unwrap_or(0.0);
+        let y = &solution.duals;
         let mut added = 0;
-        if opts.pricing && in_set.iter().any(|b| !b) {
-            let all = rounds >= 12;
-            let mut add = vec![false; ns];
-            for a in 0..inst.arcs.len() {
-                let sp = inst.arc_site[a];
-                if in_set[sp] || add[sp] {
-                    continue;
-                }
-                if all || reduced_cost(inst, a, &res_dual, share_dual) > 1e-7 * scale {
-                    add[sp] = true;
+        if opts.pricing {
+            if rounds >= MAX_PRICING_ROUNDS {
+                for inn in arc_in.iter_mut().filter(|b| !**b) {
+                    *inn = true;
                     added += 1;
                 }
-            }
-            for (sp, f) in add.iter().enumerate() {
-                if *f {
-                    in_set[sp] = true;
-                }
+            } else {
+                added = add_priced_arcs(inst, &built, y, 1e-7 * scale, &mut arc_in);
             }
         }
         if added == 0 {
+            let mut res_dual = vec![0.0; inst.resources.len()];
+            for (r, row) in built.res_row.iter().enumerate() {
+                if let Some(row) = row {
+                    res_dual[r] = y[*row];
+                }
+            }
+            let share_dual = built.share_row.map(|r| y[r]).unwrap_or(0.0);
             let x = built
                 .arc_col
                 .iter()
                 .map(|c| c.map(|c| solution.values[c].max(0.0)).unwrap_or(0.0))
                 .collect();
+            let in_set = built.site_rows.iter().map(Option::is_some).collect();
+            let columns = arc_in.iter().filter(|b| **b).count();
             return Ok(Relaxation {
                 built,
                 solution,
@@ -611,6 +764,7 @@ pub(crate) fn solve_relaxation(
                 res_dual,
                 share_dual,
                 rounds,
+                columns,
             });
         }
     }
@@ -648,7 +802,7 @@ mod tests {
         };
         let priority = vec![1.0; s.sites.len()];
         let inst = Instance::new(&s, &priority, &arcs, &AllocOptions::default()).expect("valid");
-        let built = build_model(&inst, &vec![true; inst.sites.len()]);
+        let built = build_model(&inst, &vec![true; inst.arcs.len()]);
         let m = &built.model;
         assert!(m.column("x_F1_2027-03-01_2027-03-01_B1_route").is_some());
         assert!(m.column("x_F1_2027-03-01_2027-03-01_R2_parcel").is_some());

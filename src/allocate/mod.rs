@@ -217,7 +217,7 @@ pub fn export_mps(
     opts: &AllocOptions,
 ) -> Result<String, AllocError> {
     let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
-    let built = lp::build_model(&inst, &vec![true; inst.sites.len()]);
+    let built = lp::build_model(&inst, &vec![true; inst.arcs.len()]);
     Ok(mps::write_mps(&built.model))
 }
 
@@ -256,8 +256,10 @@ pub fn allocate(
         if opts.pricing {
             let priced = relax.in_set.iter().filter(|b| **b).count();
             notes.push(format!(
-                "LP solved on {priced} of {} reachable sites in {} round(s); no other site has \
-                 a positive reduced cost, so the bound holds for the whole pool",
+                "LP solved on {} of {} arcs ({priced} of {} reachable sites) in {} round(s); no \
+                 other arc has a positive reduced cost, so the bound holds for the whole pool",
+                relax.columns,
+                inst.arcs.len(),
                 inst.sites.len(),
                 relax.rounds
             ));

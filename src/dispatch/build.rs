@@ -6,6 +6,7 @@ use std::collections::BTreeMap;
 use std::time::Duration;
 
 use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime};
+use rayon::prelude::*;
 
 use super::vrptw::{self, Customer, Instance, SolveOptions, VehicleSpec};
 use super::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
@@ -44,7 +45,7 @@ impl DispatchOptions {
 pub fn dispatch(
     scenario: &Scenario,
     allocation: &Allocation,
-    travel: &impl TravelTimes,
+    travel: &(impl TravelTimes + Sync),
 ) -> Dispatch {
     dispatch_with(
         scenario,
@@ -71,7 +72,7 @@ pub fn dispatch(
 pub fn dispatch_with(
     scenario: &Scenario,
     allocation: &Allocation,
-    travel: &impl TravelTimes,
+    travel: &(impl TravelTimes + Sync),
     opts: &DispatchOptions,
 ) -> Dispatch {
     let mut out = Dispatch::default();
@@ -89,10 +90,22 @@ pub fn dispatch_with(
             Mode::Parcel => parcels.push(i),
         }
     }
-    for ((facility, date), visits) in &groups {
-        route_depot_day(
-            scenario, allocation, travel, opts, *facility, *date, visits, &mut out,
-        );
+    // Depot-days are independent VRPTWs with their own seeds: solved in parallel, merged in
+    // key order, so the result does not depend on the number of threads.
+    let groups: Vec<_> = groups.into_iter().collect();
+    let parts: Vec<Dispatch> = groups
+        .par_iter()
+        .map(|((facility, date), visits)| {
+            let mut part = Dispatch::default();
+            route_depot_day(
+                scenario, allocation, travel, opts, *facility, *date, visits, &mut part,
+            );
+            part
+        })
+        .collect();
+    for part in parts {
+        out.routes.extend(part.routes);
+        out.undeliverable.extend(part.undeliverable);
     }
     dispatch_parcels(scenario, allocation, &parcels, &mut out);
     out.routes.sort_by(|a, b| {
@@ -132,7 +145,7 @@ fn hours_between(from: NaiveDateTime, to: NaiveDateTime) -> f64 {
 fn route_depot_day(
     scenario: &Scenario,
     allocation: &Allocation,
-    travel: &impl TravelTimes,
+    travel: &(impl TravelTimes + Sync),
     opts: &DispatchOptions,
     facility: FacilityIdx,
     date: NaiveDate,
