@@ -108,7 +108,7 @@ pub(crate) fn render(c: &LineChart) -> String {
         y_max = y_max.max(finite(*y));
     }
     let (x_step, x_end) = nice_axis(x_max, 8.0);
-    let (y_step, y_end) = nice_axis(y_max * 1.04, 5.0);
+    let (y_step, y_end) = nice_axis(y_max * 1.04, 8.0);
     let (pw, ph) = (W - LEFT - RIGHT, H - TOP - BOTTOM);
     let px = |x: f64| LEFT + finite(x) / x_end * pw;
     let py = |y: f64| TOP + ph - finite(y).max(0.0) / y_end * ph;
@@ -169,9 +169,10 @@ pub(crate) fn render(c: &LineChart) -> String {
     if let Some((y, label)) = &c.hline {
         let _ = write!(
             s,
-            r##"<path d="M{x0} {y}H{x1}" stroke="#7f7f7f" stroke-dasharray="2 3"/><text x="{x1}" y="{ty}" font-size="11" text-anchor="end" fill="#555">{l}</text>"##,
+            r##"<path d="M{x0} {y}H{x1}" stroke="#7f7f7f" stroke-dasharray="2 3"/><text x="{tx}" y="{ty}" font-size="11" fill="#555">{l}</text>"##,
             x0 = f1(LEFT),
             x1 = f1(LEFT + pw),
+            tx = f1(LEFT + 6.0),
             y = f1(py(*y)),
             ty = f1(py(*y) - 4.0),
             l = esc(label),

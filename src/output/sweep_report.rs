@@ -155,16 +155,16 @@ pub fn saturation_text(sweep: &Sweep) -> String {
     let s = &sweep.saturation;
     let pct = fixed(s.fraction * 100.0, 0);
     let Some(reference) = sweep.reference() else {
-        return "no 1× variant: the saturation point is not defined".to_string();
+        return "No 1× variant: the saturation point is not defined".to_string();
     };
     match s.at.and_then(|i| sweep.variants.get(i)) {
         Some(v) if s.reference <= 0.0 => format!(
-            "saturated at 1×: one more vial already adds nothing (marginal value 0), so supply is \
+            "Saturated at 1×: one more vial already adds nothing (marginal value 0), so supply is \
              not what limits this week; what binds at 1×: {}",
             binding_text(v)
         ),
         Some(v) => format!(
-            "saturation at {}× supply ({} vials): the marginal value falls to {} per vial, below \
+            "Saturation at {}× supply ({} vials): the marginal value falls to {} per vial, below \
              {pct} % of its 1× value {} (threshold {}); what binds there: {}",
             v.multiplier,
             v.supply_vials,
@@ -176,7 +176,7 @@ pub fn saturation_text(sweep: &Sweep) -> String {
         None => {
             let last = sweep.variants.last().unwrap_or(reference);
             format!(
-                "no saturation within the sweep: at {}× the marginal value is still {} per vial, \
+                "No saturation within the sweep: at {}× the marginal value is still {} per vial, \
                  {} % of its 1× value {} (threshold {pct} %); sweep larger multipliers to find it",
                 last.multiplier,
                 fixed(last.marginal_value_per_vial, 1),
@@ -301,7 +301,7 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     );
     let _ = write!(
         h,
-        "<h1>Supply sweep</h1><p class=\"meta\">{} · week of {} · {} variant(s)</p>\n",
+        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>\n",
         esc(&sweep.scenario),
         sweep.week_start,
         sweep.variants.len()
@@ -472,7 +472,7 @@ mod tests {
             }
         );
         let t = saturation_text(&s);
-        assert!(t.starts_with("saturation at 2× supply"), "{t}");
+        assert!(t.starts_with("Saturation at 2× supply"), "{t}");
         assert!(
             t.contains("vehicles_F1_2027-03-02 (dual 40.0); site rows: maxrelease 2"),
             "{t}"
@@ -500,6 +500,6 @@ mod tests {
         let html = String::from_utf8(files[1].1.clone()).unwrap();
         assert!(html.contains("Demo &lt;week&gt;") && !html.contains("Demo <week>"));
         assert_eq!(html.matches("<svg").count(), 3);
-        assert!(html.contains("saturation at 2×"));
+        assert!(html.contains("Saturation at 2×"));
     }
 }
