@@ -294,14 +294,14 @@ footer{margin-top:2rem;font-size:.8rem;color:#444}\
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let mut h = String::new();
     let title = format!("Supply sweep — {}", sweep.scenario);
-    let _ = write!(
+    let _ = writeln!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body>",
         esc(&title)
     );
-    let _ = write!(
+    let _ = writeln!(
         h,
-        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>\n",
+        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>",
         esc(&sweep.scenario),
         sweep.week_start,
         sweep.variants.len()
@@ -316,17 +316,17 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
                 .join(", ")
         }
     };
-    let _ = write!(
+    let _ = writeln!(
         h,
         "<p>Every variant is a full plan (allocation, whole vials, routes) with each facility's \
          daily vials × the multiplier, rounded half to even. Facilities removed from every \
-         variant: {}. scenario.json overrides applied to every variant: {}.</p>\n",
+         variant: {}. scenario.json overrides applied to every variant: {}.</p>",
         list(&sweep.without),
         list(&sweep.settings)
     );
-    let _ = write!(
+    let _ = writeln!(
         h,
-        "<h2>Saturation</h2><p class=\"finding\">{}</p>\n",
+        "<h2>Saturation</h2><p class=\"finding\">{}</p>",
         esc(&saturation_text(sweep))
     );
     let captions = [
@@ -339,9 +339,9 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     ];
     h.push_str("<h2>Charts</h2>\n");
     for ((_, svg), cap) in charts.iter().zip(captions) {
-        let _ = write!(
+        let _ = writeln!(
             h,
-            "<figure>{}<figcaption>{}</figcaption></figure>\n",
+            "<figure>{}<figcaption>{}</figcaption></figure>",
             svg.trim_end(),
             esc(cap)
         );
@@ -352,10 +352,10 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
          <th>live wasps</th><th>marginal / vial</th></tr></thead><tbody>\n",
     );
     for v in &sweep.variants {
-        let _ = write!(
+        let _ = writeln!(
             h,
             "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>\
-             <td>{}</td><td>{}</td><td>{}</td></tr>\n",
+             <td>{}</td><td>{}</td><td>{}</td></tr>",
             esc(&v.name),
             v.supply_vials,
             fixed(v.lp_bound, 1),
@@ -371,9 +371,9 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     h.push_str("</tbody></table>\n");
     h.push_str("<h2>What binds</h2><table><thead><tr><th>variant</th><th style=\"text-align:left\">binding constraints (largest duals first)</th></tr></thead><tbody>\n");
     for v in &sweep.variants {
-        let _ = write!(
+        let _ = writeln!(
             h,
-            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>\n",
+            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>",
             esc(&v.name),
             esc(&binding_text(v))
         );
