@@ -502,3 +502,141 @@ fn compare_sees_no_change_twice_and_the_lost_sites_of_half_supply() {
         "{err}"
     );
 }
+
+fn have(cmd: &str) -> bool {
+    Command::new("sh")
+        .arg("-c")
+        .arg(format!("command -v {cmd}"))
+        .output()
+        .map(|o| o.status.success())
+        .unwrap_or(false)
+}
+
+fn chromium(args: &[String]) {
+    let profile = tempfile::tempdir().unwrap();
+    let out = Command::new("timeout")
+        .arg("120")
+        .arg("chromium")
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+        ])
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .args(args)
+        .output()
+        .expect("chromium runs");
+    assert!(
+        out.status.success(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+/// Share of non-white pixels of a binary PPM (P6) image.
+fn ink_share(ppm: &[u8]) -> f64 {
+    let mut fields = Vec::new();
+    let mut i = 0;
+    while fields.len() < 4 {
+        while ppm[i].is_ascii_whitespace() {
+            i += 1;
+        }
+        let start = i;
+        while !ppm[i].is_ascii_whitespace() {
+            i += 1;
+        }
+        fields.push(String::from_utf8_lossy(&ppm[start..i]).to_string());
+    }
+    assert_eq!(fields[0], "P6");
+    let pixels = &ppm[i + 1..];
+    let inked = pixels
+        .chunks(3)
+        .filter(|p| p.iter().any(|&c| c < 200))
+        .count();
+    inked as f64 / (pixels.len() / 3).max(1) as f64
+}
+
+/// The report prints with Chromium: the charts' labels come out as text (vector, with units)
+/// and the first page carries ink, i.e. the SVG rendered.
+#[test]
+fn sweep_report_prints_with_its_charts_in_chromium() {
+    if !have("chromium") || !have("pdftotext") || !have("pdftoppm") {
+        eprintln!(
+            "skipped: chromium, pdftotext or pdftoppm not on PATH (apt-get install chromium \
+             poppler-utils)"
+        );
+        return;
+    }
+    let sc = generated(120, 5);
+    let s = run_sweep(&sc, "0.5,2", &[]);
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    broodcast::output::write_dir_atomically(
+        &out,
+        &broodcast::output::sweep_report::render(&s).unwrap(),
+    )
+    .unwrap();
+    let pdf = dir.path().join("sweep.pdf");
+    chromium(&[
+        format!("--print-to-pdf={}", pdf.display()),
+        "--no-pdf-header-footer".into(),
+        format!("file://{}", out.join("sweep.html").display()),
+    ]);
+    let text = Command::new("pdftotext")
+        .arg(&pdf)
+        .arg("-")
+        .output()
+        .expect("pdftotext runs");
+    let text = String::from_utf8_lossy(&text.stdout);
+    for label in [
+        "Value vs supply",
+        "supply multiplier",
+        "priority-weighted live wasps",
+        "weighted live wasps per vial",
+        "sites served (count)",
+        "Saturation",
+    ] {
+        assert!(
+            text.contains(label),
+            "'{label}' missing from the printed report"
+        );
+    }
+    // A standalone chart renders on its own: its labels print as text and its lines and
+    // points put ink on the page (a blank or unparsable SVG prints neither).
+    let chart_pdf = dir.path().join("chart.pdf");
+    chromium(&[
+        format!("--print-to-pdf={}", chart_pdf.display()),
+        "--no-pdf-header-footer".into(),
+        format!("file://{}", out.join("sweep-marginal.svg").display()),
+    ]);
+    let text = Command::new("pdftotext")
+        .arg(&chart_pdf)
+        .arg("-")
+        .output()
+        .expect("pdftotext runs");
+    let text = String::from_utf8_lossy(&text.stdout);
+    assert!(
+        text.contains("Marginal value of one more vial vs supply")
+            && text.contains("supply multiplier"),
+        "{text}"
+    );
+    let img = dir.path().join("chart");
+    let st = Command::new("pdftoppm")
+        .args(["-r", "40", "-f", "1", "-l", "1"])
+        .arg(&chart_pdf)
+        .arg(&img)
+        .status()
+        .expect("pdftoppm runs");
+    assert!(st.success());
+    let ppm = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .find(|p| p.extension().is_some_and(|e| e == "ppm"))
+        .expect("a page image");
+    let ink = ink_share(&std::fs::read(ppm).unwrap());
+    assert!(ink > 0.005, "the chart page is blank: {ink}");
+}
