@@ -77,7 +77,8 @@ fn scenario_files(source: &Source, settings: &[Setting]) -> Vec<(String, Vec<u8>
         .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
         .and_then(|v| v["travel"]["matrix"].as_str().map(str::to_string));
     if let Some(m) = matrix {
-        names.push(m.trim_start_matches("./").to_string());
+        // As the loader names it: trimmed, without a leading "./".
+        names.push(m.trim().trim_start_matches("./").to_string());
     }
     names
         .into_iter()
