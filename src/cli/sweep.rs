@@ -1,5 +1,5 @@
 //! `broodcast sweep [DIR] --supply 0.25,0.5,1,2,4 [--without ID ...] [--set KEY=VALUE ...]
-//! [--saturation 0.25] --out DIR`: one full plan per supply multiplier, with the same outages
+//! [--saturation 0.25] [--out DIR]`: one full plan per supply multiplier, with the same outages
 //! and overrides in every variant; writes sweep.csv, sweep.html, the charts and each variant's
 //! summary.json (docs/sweep.md).
 
@@ -33,7 +33,7 @@ pub(crate) struct Args {
     #[arg(long, default_value_t = 0.25)]
     saturation: f64,
     /// Output folder, replaced as a whole only once every file is ready.
-    #[arg(long)]
+    #[arg(long, default_value = "sweep-out")]
     out: PathBuf,
 }
 
