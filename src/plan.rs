@@ -56,10 +56,28 @@ pub fn prepare(scenario: &Scenario, opts: &PlanOptions) -> (TravelModel, Vec<f64
 
 /// Plans the week.
 pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> {
-    let (travel, priority, arcs) = prepare(&scenario, opts);
+    let travel = TravelModel::new(&scenario);
+    let priority = priorities(&scenario, &opts.pressure);
+    plan_with(scenario, &travel, priority, opts)
+}
+
+/// Plans the week from a travel model and site priority computed beforehand (by
+/// [`TravelModel::new`] and [`priorities`] on a scenario with the same facilities and sites),
+/// so that several variants of one scenario (e.g. scaled supply in a sweep) share them. The
+/// arcs are built here because they depend on which days each facility packs.
+/// `opts.pressure` is not used: `priority` already holds its effect.
+///
+/// Cost: as [`plan`] less the travel model and priority.
+pub fn plan_with(
+    scenario: Scenario,
+    travel: &TravelModel,
+    priority: Vec<f64>,
+    opts: &PlanOptions,
+) -> Result<Plan, AllocError> {
+    let arcs = arcs::build_arcs(&scenario, travel);
     let mut alloc_opts = opts.alloc.clone();
     let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
-    let first_dispatch = dispatch::dispatch(&scenario, &first, &travel);
+    let first_dispatch = dispatch::dispatch(&scenario, &first, travel);
     let mut moved = Vec::new();
     if first_dispatch.undeliverable.is_empty() {
         return Ok(Plan {
@@ -90,7 +108,7 @@ pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> 
     }
     alloc_opts.excluded.extend(removed);
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
-    let second_dispatch = dispatch::dispatch(&scenario, &second, &travel);
+    let second_dispatch = dispatch::dispatch(&scenario, &second, travel);
     let (allocation, dispatch) = if second_dispatch.undeliverable.is_empty() {
         (second, second_dispatch)
     } else {
@@ -112,7 +130,7 @@ pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> 
             .collect();
         let allocation =
             drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?;
-        let dispatch = dispatch::dispatch(&scenario, &allocation, &travel);
+        let dispatch = dispatch::dispatch(&scenario, &allocation, travel);
         debug_assert!(dispatch.undeliverable.is_empty());
         (allocation, dispatch)
     };

@@ -1,11 +1,13 @@
 //! The command-line layer: the only place that prints. One file per subcommand.
 
 mod check;
+mod compare;
 mod demo;
 mod export_model;
 mod generate;
 mod plan;
 mod sequence;
+mod sweep;
 
 use std::io::{self, Write};
 use std::path::PathBuf;
@@ -37,6 +39,11 @@ enum Command {
     ExportModel(export_model::Args),
     /// Write a seeded synthetic scenario of a given size (for benchmarks and tests).
     Generate(generate::Args),
+    /// Plan every supply multiplier (with facilities removed or scenario keys set) and chart
+    /// value, marginal value and sites served against supply.
+    Sweep(sweep::Args),
+    /// Compare two plan output folders: sites gained and lost, vials by facility and day.
+    Compare(compare::Args),
 }
 
 /// What went wrong, sorted by who must act.
@@ -95,6 +102,8 @@ pub fn main() -> ExitCode {
         Command::Sequence(a) => sequence::run(a),
         Command::ExportModel(a) => export_model::run(a),
         Command::Generate(a) => generate::run(a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Compare(a) => compare::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -20,6 +20,8 @@ mod report;
 mod route_sheets;
 mod summary;
 mod svg;
+mod sweep_chart;
+pub mod sweep_report;
 
 use std::collections::BTreeMap;
 

@@ -1,0 +1,505 @@
+//! Outputs of `sweep`: `sweep.csv` (one row per variant), `sweep.html` (printable report with
+//! SVG charts), the same charts as `sweep-value.svg`, `sweep-marginal.svg` and
+//! `sweep-served.svg`, and each variant's `variants/<name>/summary.json` exactly as `plan`
+//! writes it.
+//!
+//! No personal data: ids, counts and model figures only (a summary's notes name site and
+//! facility ids, never an address). Every number is written with fixed decimals, so the bytes
+//! depend only on the sweep. Cost: O(variants · binding rows).
+
+use std::collections::BTreeMap;
+use std::fmt::Write;
+
+use super::sweep_chart::{self, LineChart, Series};
+use super::{Delivered, OutputError, PlanView, esc, fixed};
+use crate::scenario::SiteKind;
+use crate::sweep::{Sweep, VariantResult, constraint_kind, is_shared_kind};
+
+/// The `sweep.csv` header, in column order.
+pub const SWEEP_COLUMNS: [&str; 12] = [
+    "variant",
+    "supply_multiplier",
+    "lp_bound",
+    "objective",
+    "gap",
+    "shipped_vials",
+    "supply_vials",
+    "sites_served",
+    "requests_served",
+    "wasps_expected_alive",
+    "marginal_value_per_vial",
+    "blocks_served",
+];
+
+/// Delivered totals of one plan, as `summary.json` counts them.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DeliveredTotals {
+    /// Vials on a route stop or parcel.
+    pub shipped_vials: u64,
+    /// Sites receiving vials.
+    pub sites_served: usize,
+    /// Blocks receiving vials.
+    pub blocks_served: usize,
+    /// Requests receiving vials.
+    pub requests_served: usize,
+    /// Expected live wasps delivered, wasps.
+    pub wasps_expected_alive: f64,
+}
+
+/// A plan's `summary.json` bytes (identical to [`super::render_all`]'s) and its delivered
+/// totals, without rendering the other files. O(S + shipments).
+///
+/// # Errors
+/// As [`super::render_all`].
+pub fn summary_and_totals(view: &PlanView) -> Result<(Vec<u8>, DeliveredTotals), OutputError> {
+    let plan = Delivered::build(view)?;
+    let bytes = super::summary::render(view, &plan)?;
+    let served = |kind: SiteKind| {
+        view.scenario
+            .sites
+            .iter()
+            .enumerate()
+            .filter(|(i, s)| s.kind() == kind && plan.served(*i))
+            .count()
+    };
+    let (blocks, requests) = (served(SiteKind::Block), served(SiteKind::Dooryard));
+    Ok((
+        bytes,
+        DeliveredTotals {
+            shipped_vials: plan.shipped_vials(),
+            sites_served: blocks + requests,
+            blocks_served: blocks,
+            requests_served: requests,
+            wasps_expected_alive: plan.wasps_expected_alive(),
+        },
+    ))
+}
+
+/// Renders every sweep output as (relative file name, bytes), in a fixed order.
+///
+/// # Errors
+/// CSV errors (not expected for an in-memory writer).
+pub fn render(sweep: &Sweep) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
+    let charts = charts(sweep);
+    let mut files = vec![
+        ("sweep.csv".to_string(), csv(sweep)?),
+        ("sweep.html".to_string(), html(sweep, &charts).into_bytes()),
+    ];
+    for (name, svg) in charts {
+        files.push((format!("{name}.svg"), svg.into_bytes()));
+    }
+    for v in &sweep.variants {
+        files.push((
+            format!("variants/{}/summary.json", v.name),
+            v.summary_json.clone(),
+        ));
+    }
+    Ok(files)
+}
+
+fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(SWEEP_COLUMNS)?;
+    for v in &sweep.variants {
+        w.write_record([
+            v.name.as_str(),
+            v.multiplier.as_str(),
+            &fixed(v.lp_bound, 3),
+            &fixed(v.objective, 3),
+            &fixed(v.gap, 6),
+            &v.shipped_vials.to_string(),
+            &v.supply_vials.to_string(),
+            &v.sites_served.to_string(),
+            &v.requests_served.to_string(),
+            &fixed(v.wasps_expected_alive, 1),
+            &fixed(v.marginal_value_per_vial, 6),
+            &v.blocks_served.to_string(),
+        ])?;
+    }
+    w.into_inner()
+        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+}
+
+/// What binds in a variant's LP, in words: the shared rows (supply, vehicles, parcel, dooryard
+/// share) with the largest duals, then how many of each site's own rows bind.
+pub fn binding_text(v: &VariantResult) -> String {
+    let shared: Vec<String> = v
+        .binding
+        .iter()
+        .filter(|b| is_shared_kind(constraint_kind(&b.name)))
+        .take(3)
+        .map(|b| format!("{} (dual {})", b.name, fixed(b.dual, 1)))
+        .collect();
+    let mut site_rows: BTreeMap<&str, usize> = BTreeMap::new();
+    for b in &v.binding {
+        let k = constraint_kind(&b.name);
+        if !is_shared_kind(k) {
+            *site_rows.entry(k).or_insert(0) += 1;
+        }
+    }
+    let site_text = site_rows
+        .iter()
+        .map(|(k, n)| format!("{k} {n}"))
+        .collect::<Vec<_>>()
+        .join(", ");
+    match (shared.is_empty(), site_rows.is_empty()) {
+        (true, true) => "no constraint binds".to_string(),
+        (true, false) => format!("no shared row binds; site rows: {site_text}"),
+        (false, true) => shared.join(", "),
+        (false, false) => format!("{}; site rows: {site_text}", shared.join(", ")),
+    }
+}
+
+/// The saturation finding in one sentence (printed by the CLI and shown in the report).
+pub fn saturation_text(sweep: &Sweep) -> String {
+    let s = &sweep.saturation;
+    let pct = fixed(s.fraction * 100.0, 0);
+    let Some(reference) = sweep.reference() else {
+        return "No 1× variant: the saturation point is not defined".to_string();
+    };
+    match s.at.and_then(|i| sweep.variants.get(i)) {
+        Some(v) if s.reference <= 0.0 => format!(
+            "Saturated at 1×: one more vial already adds nothing (marginal value 0), so supply is \
+             not what limits this week; what binds at 1×: {}",
+            binding_text(v)
+        ),
+        Some(v) => format!(
+            "Saturation at {}× supply ({} vials): the marginal value falls to {} per vial, below \
+             {pct} % of its 1× value {} (threshold {}); what binds there: {}",
+            v.multiplier,
+            v.supply_vials,
+            fixed(v.marginal_value_per_vial, 1),
+            fixed(s.reference, 1),
+            fixed(s.threshold, 1),
+            binding_text(v)
+        ),
+        None => {
+            let last = sweep.variants.last().unwrap_or(reference);
+            format!(
+                "No saturation within the sweep: at {}× the marginal value is still {} per vial, \
+                 {} % of its 1× value {} (threshold {pct} %); sweep larger multipliers to find it",
+                last.multiplier,
+                fixed(last.marginal_value_per_vial, 1),
+                fixed(
+                    if s.reference > 0.0 {
+                        100.0 * last.marginal_value_per_vial / s.reference
+                    } else {
+                        0.0
+                    },
+                    0
+                ),
+                fixed(s.reference, 1),
+            )
+        }
+    }
+}
+
+const BLUE: &str = "#1f4e79";
+const ORANGE: &str = "#c55a11";
+const GREEN: &str = "#38761d";
+
+/// (file stem, standalone SVG) for the three charts.
+fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
+    let vs = &sweep.variants;
+    let pts = |f: &dyn Fn(&VariantResult) -> f64| -> Vec<(f64, f64)> {
+        vs.iter().map(|v| (v.multiplier.value(), f(v))).collect()
+    };
+    let base = sweep.reference().map_or(0, |v| v.supply_vials).to_string();
+    let x_label = format!("supply multiplier (× the week's vials; 1× = {base} vials)");
+    let value = LineChart {
+        title: "Value vs supply",
+        x_label: &x_label,
+        y_label: "value (priority-weighted live wasps)",
+        series: vec![
+            Series {
+                label: "LP bound",
+                points: pts(&|v| v.lp_bound),
+                colour: BLUE,
+                dashed: false,
+            },
+            Series {
+                label: "whole-vial plan",
+                points: pts(&|v| v.objective),
+                colour: ORANGE,
+                dashed: true,
+            },
+        ],
+        hline: None,
+        mark: None,
+    };
+    let sat = &sweep.saturation;
+    let mark = sat.at.and_then(|i| vs.get(i)).map(|v| {
+        (
+            v.multiplier.value(),
+            v.marginal_value_per_vial,
+            format!("saturation at {}×", v.multiplier),
+        )
+    });
+    let marginal = LineChart {
+        title: "Marginal value of one more vial vs supply",
+        x_label: &x_label,
+        y_label: "marginal value (weighted live wasps per vial)",
+        series: vec![Series {
+            label: "supply-weighted mean of facility duals",
+            points: pts(&|v| v.marginal_value_per_vial),
+            colour: BLUE,
+            dashed: false,
+        }],
+        hline: (sat.reference > 0.0).then(|| {
+            (
+                sat.threshold,
+                format!("{} % of the 1× value", fixed(sat.fraction * 100.0, 0)),
+            )
+        }),
+        mark,
+    };
+    let served = LineChart {
+        title: "Sites and requests served vs supply",
+        x_label: &x_label,
+        y_label: "sites served (count)",
+        series: vec![
+            Series {
+                label: "sites (blocks + requests)",
+                points: pts(&|v| v.sites_served as f64),
+                colour: BLUE,
+                dashed: false,
+            },
+            Series {
+                label: "dooryard requests",
+                points: pts(&|v| v.requests_served as f64),
+                colour: GREEN,
+                dashed: true,
+            },
+        ],
+        hline: None,
+        mark: None,
+    };
+    vec![
+        ("sweep-value", sweep_chart::render(&value)),
+        ("sweep-marginal", sweep_chart::render(&marginal)),
+        ("sweep-served", sweep_chart::render(&served)),
+    ]
+}
+
+const STYLE: &str = "body{font-family:sans-serif;max-width:46rem;margin:1.5rem auto;padding:0 1rem;color:#111}\
+h1{font-size:1.5rem;margin-bottom:.2rem}h2{font-size:1.15rem;margin-top:1.6rem}\
+.meta{color:#444;margin-top:0}figure{margin:1rem 0;break-inside:avoid;page-break-inside:avoid}\
+figure svg{width:100%;height:auto;border:1px solid #ccc}figcaption{font-size:.85rem;color:#333}\
+table{border-collapse:collapse;font-size:.8rem;width:100%}th,td{border:1px solid #bbb;padding:.2rem .35rem;text-align:right}\
+th:first-child,td:first-child{text-align:left}thead{display:table-header-group}tr{break-inside:avoid}\
+.finding{border-left:4px solid #c00000;padding:.3rem .7rem;background:#fbf3f3}\
+footer{margin-top:2rem;font-size:.8rem;color:#444}\
+@page{size:A4;margin:14mm}@media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
+
+fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
+    let mut h = String::new();
+    let title = format!("Supply sweep — {}", sweep.scenario);
+    let _ = writeln!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body>",
+        esc(&title)
+    );
+    let _ = writeln!(
+        h,
+        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>",
+        esc(&sweep.scenario),
+        sweep.week_start,
+        sweep.variants.len()
+    );
+    let list = |v: &[String]| {
+        if v.is_empty() {
+            "none".to_string()
+        } else {
+            v.iter()
+                .map(|s| format!("<code>{}</code>", esc(s)))
+                .collect::<Vec<_>>()
+                .join(", ")
+        }
+    };
+    let _ = writeln!(
+        h,
+        "<p>Every variant is a full plan (allocation, whole vials, routes) with each facility's \
+         daily vials × the multiplier, rounded half to even. Facilities removed from every \
+         variant: {}. scenario.json overrides applied to every variant: {}.</p>",
+        list(&sweep.without),
+        list(&sweep.settings)
+    );
+    let _ = writeln!(
+        h,
+        "<h2>Saturation</h2><p class=\"finding\">{}</p>",
+        esc(&saturation_text(sweep))
+    );
+    let captions = [
+        "LP bound (upper bound on any plan) and the whole-vial plan's objective. The LP value \
+         is concave and non-decreasing in supply.",
+        "Objective gained per extra vial: each facility's best supply-row dual of the week, \
+         averaged with the facility's vials as weights. The dotted line is the saturation \
+         threshold; the ring marks the saturation point.",
+        "Sites and dooryard requests that receive vials (delivered, as in summary.json).",
+    ];
+    h.push_str("<h2>Charts</h2>\n");
+    for ((_, svg), cap) in charts.iter().zip(captions) {
+        let _ = writeln!(
+            h,
+            "<figure>{}<figcaption>{}</figcaption></figure>",
+            svg.trim_end(),
+            esc(cap)
+        );
+    }
+    h.push_str(
+        "<h2>Variants</h2><table><thead><tr><th>variant</th><th>supply (vials)</th><th>LP bound</th>\
+         <th>objective</th><th>gap %</th><th>shipped (vials)</th><th>sites</th><th>requests</th>\
+         <th>live wasps</th><th>marginal / vial</th></tr></thead><tbody>\n",
+    );
+    for v in &sweep.variants {
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>\
+             <td>{}</td><td>{}</td><td>{}</td></tr>",
+            esc(&v.name),
+            v.supply_vials,
+            fixed(v.lp_bound, 1),
+            fixed(v.objective, 1),
+            fixed(v.gap * 100.0, 2),
+            v.shipped_vials,
+            v.sites_served,
+            v.requests_served,
+            fixed(v.wasps_expected_alive, 0),
+            fixed(v.marginal_value_per_vial, 1),
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    h.push_str("<h2>What binds</h2><table><thead><tr><th>variant</th><th style=\"text-align:left\">binding constraints (largest duals first)</th></tr></thead><tbody>\n");
+    for v in &sweep.variants {
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>",
+            esc(&v.name),
+            esc(&binding_text(v))
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    h.push_str(
+        "<footer><p>Values are in the model's objective units: live wasps expected at release, \
+         weighted by site priority. The plan is decision support: local extension and licensed \
+         pest-control practice decide.</p></footer>\n</body></html>\n",
+    );
+    h
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::allocate::Binding;
+    use crate::sweep::{Multiplier, Saturation};
+
+    fn variant(m: &str, lp: f64, mv: f64, binding: Vec<Binding>) -> VariantResult {
+        VariantResult {
+            name: format!("x{m}"),
+            multiplier: Multiplier::parse(m).unwrap(),
+            lp_bound: lp,
+            objective: lp * 0.99,
+            gap: 0.01,
+            supply_vials: 100,
+            shipped_vials: 90,
+            sites_served: 10,
+            blocks_served: 4,
+            requests_served: 6,
+            wasps_expected_alive: 1234.56,
+            marginal_value_per_vial: mv,
+            marginal_by_facility: Vec::new(),
+            binding,
+            summary_json: b"{}\n".to_vec(),
+        }
+    }
+
+    fn b(name: &str, dual: f64) -> Binding {
+        Binding {
+            name: name.into(),
+            dual,
+        }
+    }
+
+    fn sample() -> Sweep {
+        let variants = vec![
+            variant("0.5", 50.0, 120.0, vec![b("supply_F1_2027-03-01", 120.0)]),
+            variant("1", 90.0, 100.0, vec![b("request_R1", 300.0)]),
+            variant(
+                "2",
+                120.0,
+                10.0,
+                vec![
+                    b("maxrelease_B1", 50.0),
+                    b("vehicles_F1_2027-03-02", 40.0),
+                    b("maxrelease_B2", 30.0),
+                ],
+            ),
+        ];
+        let saturation = crate::sweep::saturation(&variants, 0.25);
+        Sweep {
+            scenario: "Demo <week>".into(),
+            week_start: chrono::NaiveDate::from_ymd_opt(2027, 3, 1).unwrap(),
+            without: vec!["F2".into()],
+            settings: vec!["policy.dooryard_share_min=0.3".into()],
+            variants,
+            saturation,
+        }
+    }
+
+    #[test]
+    fn csv_has_one_row_per_variant_in_order() {
+        let s = sample();
+        let bytes = csv(&s).unwrap();
+        let mut r = csv::Reader::from_reader(bytes.as_slice());
+        assert_eq!(r.headers().unwrap(), SWEEP_COLUMNS.as_slice());
+        let rows: Vec<csv::StringRecord> = r.records().map(|x| x.unwrap()).collect();
+        let names: Vec<&str> = rows.iter().map(|r| &r[0]).collect();
+        assert_eq!(names, ["x0.5", "x1", "x2"]);
+        assert_eq!(&rows[2][10], "10.000000");
+        assert_eq!(&rows[0][9], "1234.6");
+    }
+
+    #[test]
+    fn saturation_names_the_point_and_what_binds() {
+        let s = sample();
+        assert_eq!(
+            s.saturation,
+            Saturation {
+                fraction: 0.25,
+                reference: 100.0,
+                threshold: 25.0,
+                at: Some(2)
+            }
+        );
+        let t = saturation_text(&s);
+        assert!(t.starts_with("Saturation at 2× supply"), "{t}");
+        assert!(
+            t.contains("vehicles_F1_2027-03-02 (dual 40.0); site rows: maxrelease 2"),
+            "{t}"
+        );
+    }
+
+    #[test]
+    fn report_escapes_text_and_lists_every_file() {
+        let s = sample();
+        let files = render(&s).unwrap();
+        let names: Vec<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "sweep.csv",
+                "sweep.html",
+                "sweep-value.svg",
+                "sweep-marginal.svg",
+                "sweep-served.svg",
+                "variants/x0.5/summary.json",
+                "variants/x1/summary.json",
+                "variants/x2/summary.json"
+            ]
+        );
+        let html = String::from_utf8(files[1].1.clone()).unwrap();
+        assert!(html.contains("Demo &lt;week&gt;") && !html.contains("Demo <week>"));
+        assert_eq!(html.matches("<svg").count(), 3);
+        assert!(html.contains("Saturation at 2×"));
+    }
+}
