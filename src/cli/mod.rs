@@ -3,7 +3,9 @@
 mod check;
 mod demo;
 mod export_model;
+mod forecast;
 mod generate;
+mod ledger;
 mod plan;
 mod sequence;
 
@@ -37,6 +39,10 @@ enum Command {
     ExportModel(export_model::Args),
     /// Write a seeded synthetic scenario of a given size (for benchmarks and tests).
     Generate(generate::Args),
+    /// The season ledger: init, commit a plan, confirm outcomes, report the season.
+    Ledger(ledger::Args),
+    /// Forecast vials packed per facility and day from the cage log and temperatures.
+    Forecast(forecast::Args),
 }
 
 /// What went wrong, sorted by who must act.
@@ -95,6 +101,8 @@ pub fn main() -> ExitCode {
         Command::Sequence(a) => sequence::run(a),
         Command::ExportModel(a) => export_model::run(a),
         Command::Generate(a) => generate::run(a),
+        Command::Ledger(a) => ledger::run(a),
+        Command::Forecast(a) => forecast::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
