@@ -177,6 +177,7 @@ fn two_consecutive_weeks_serve_no_request_twice_and_respect_the_interval() {
     let m2 = read_csv(&out2.join("manifest.csv"));
     assert!(!m2.is_empty(), "week 2 ships something");
     let interval = 10;
+    let mut rereleased = 0;
     for r in &m2 {
         let site = &r["site_id"];
         let day = date(&r["dispatch_date"]);
@@ -191,11 +192,13 @@ fn two_consecutive_weeks_serve_no_request_twice_and_respect_the_interval() {
                 (day - *prev).num_days() >= interval,
                 "block {site} released {prev} and again {day}, inside {interval} days"
             );
+            rereleased += 1;
         }
     }
     // The reasons say why, and only for sites the ledger names.
     let a2 = read_csv(&out2.join("allocation.csv"));
     let mut already = 0;
+    let mut recent = 0;
     for r in &a2 {
         match r["reason"].as_str() {
             "already-served" => {
@@ -208,6 +211,7 @@ fn two_consecutive_weeks_serve_no_request_twice_and_respect_the_interval() {
                 assert_eq!(r["eligible"], "false");
             }
             "released-recently" => {
+                recent += 1;
                 assert!(release_of.contains_key(&r["site_id"]), "{}", r["site_id"]);
             }
             _ => {}
@@ -218,6 +222,12 @@ fn two_consecutive_weeks_serve_no_request_twice_and_respect_the_interval() {
         .filter(|s| s.starts_with('R'))
         .count();
     assert_eq!(already, dooryards_week1, "every served request is marked");
+    eprintln!(
+        "week 1: {} shipments; week 2: {} shipments, {already} already-served, {recent} \
+         released-recently, {rereleased} week-1 blocks served again after {interval} days",
+        m1.len(),
+        m2.len()
+    );
     let back = a2
         .iter()
         .find(|r| r["site_id"] == returned)
@@ -239,6 +249,39 @@ fn two_consecutive_weeks_serve_no_request_twice_and_respect_the_interval() {
         "--out",
         s(&rep),
     ]);
+    let rep2 = t.join("report2");
+    run_ok(&[
+        "ledger",
+        "report",
+        s(&db),
+        "--season",
+        "2027",
+        "--out",
+        s(&rep2),
+    ]);
+    for f in [
+        "weeks.csv",
+        "blocks.csv",
+        "requests_waiting.csv",
+        "report.html",
+    ] {
+        assert_eq!(
+            std::fs::read(rep.join(f)).expect("read"),
+            std::fs::read(rep2.join(f)).expect("read"),
+            "{f} is deterministic"
+        );
+    }
+    let other = t.join("report-2026");
+    run_ok(&[
+        "ledger",
+        "report",
+        s(&db),
+        "--season",
+        "2026",
+        "--out",
+        s(&other),
+    ]);
+    assert_eq!(read_csv(&other.join("weeks.csv")).len(), 0, "no 2026 weeks");
     let weeks = read_csv(&rep.join("weeks.csv"));
     assert_eq!(weeks.len(), 2);
     let vials1: u64 = m1

@@ -148,12 +148,24 @@ impl LedgerMarks {
     }
 
     /// Leaves out every arc to an excluded site on an excluded date, for each facility and
-    /// mode. O(E · F · 2) keys for E excluded site-days and F facilities.
+    /// each mode the site can be served by (blocks: route; requests: as `delivery` allows).
+    /// O(E · F · m) keys for E excluded site-days, F facilities and m ≤ 2 modes.
     pub fn exclude_arcs(&self, scenario: &Scenario, opts: &mut AllocOptions) {
         for (&site, (_, days)) in &self.excluded {
+            let modes: Vec<Mode> = match scenario.sites.get(site).map(|s| &s.detail) {
+                Some(SiteDetail::Block(_)) => vec![Mode::Route],
+                Some(SiteDetail::Dooryard(r)) => [
+                    (r.delivery.allows_route(), Mode::Route),
+                    (r.delivery.allows_parcel(), Mode::Parcel),
+                ]
+                .into_iter()
+                .filter_map(|(ok, m)| ok.then_some(m))
+                .collect(),
+                None => Vec::new(),
+            };
             for f in 0..scenario.facilities.len() {
                 for &d in days {
-                    for mode in [Mode::Route, Mode::Parcel] {
+                    for &mode in &modes {
                         opts.excluded.insert((f, d, site, mode));
                     }
                 }
