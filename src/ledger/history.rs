@@ -222,6 +222,51 @@ mod tests {
     }
 
     #[test]
+    fn history_skips_the_planned_week_and_shipments_that_did_not_release() {
+        use super::super::commit::tests::{folder, row};
+        use super::super::{Confirmation, read_plan_folder};
+        let dir = tempfile::tempdir().expect("temp dir");
+        let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
+        let w1 = [
+            row("S-1", "2027-03-01", "B1", "block", 3),
+            row("S-2", "2027-03-02", "B2", "block", 3),
+            row("S-3", "2027-03-02", "R1", "dooryard", 2),
+            row("S-4", "2027-03-03", "R2", "dooryard", 2),
+        ];
+        let lines: Vec<&str> = w1.iter().map(String::as_str).collect();
+        let p = read_plan_folder(folder("2027-03-01", &lines).path()).expect("read");
+        l.commit(&p, false).expect("commit week 1");
+        let w2 = [row("S-5", "2027-03-08", "R3", "dooryard", 2)];
+        let p = read_plan_folder(folder("2027-03-08", &[w2[0].as_str()]).path()).expect("read");
+        l.commit(&p, false).expect("commit week 2");
+        let conf = |line, id: &str, status, at: Option<&str>| Confirmation {
+            line,
+            shipment_id: id.into(),
+            status,
+            released_at: at.map(str::to_string),
+            note: String::new(),
+        };
+        l.confirm(
+            "c.csv",
+            &[
+                conf(2, "S-1", Status::Released, Some("2027-03-02T10:00")),
+                conf(3, "S-2", Status::DeadOnArrival, None),
+                conf(4, "S-4", Status::NotReleased, None),
+            ],
+        )
+        .expect("confirm");
+        // Planning week 2 again: week 2's own shipment does not count.
+        let h = l.history(d("2027-03-08")).expect("history");
+        assert_eq!(h.served_requests, BTreeSet::from(["R1".to_string()]));
+        assert_eq!(
+            h.block_releases,
+            BTreeMap::from([("B1".to_string(), vec![d("2027-03-02")])])
+        );
+        let h3 = l.history(d("2027-03-15")).expect("history");
+        assert!(h3.served_requests.contains("R3"));
+    }
+
+    #[test]
     fn zero_interval_excludes_no_block() {
         let mut s = tiny();
         s.policy.rerelease_interval_days = 0;
