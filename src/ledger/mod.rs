@@ -67,6 +67,14 @@ pub enum LedgerError {
         /// Latest version this build knows.
         supported: i64,
     },
+    /// The file exists but is not an SQLite database.
+    #[error(
+        "{path} is not a season ledger (not an SQLite file); create one with `broodcast ledger init`"
+    )]
+    NotALedger {
+        /// The file.
+        path: String,
+    },
     /// An input file (manifest, summary, allocation, confirmations) is wrong.
     #[error("{}", Problems(.problems, *.omitted))]
     Input {
@@ -203,13 +211,17 @@ impl Ledger {
 
     fn setup(mut conn: Connection, path: &Path) -> Result<(Ledger, InitOutcome), LedgerError> {
         let p = path.display().to_string();
+        let not_a_db = |e: rusqlite::Error| match e.sqlite_error_code() {
+            Some(rusqlite::ErrorCode::NotADatabase) => LedgerError::NotALedger { path: p.clone() },
+            _ => sql(path)(e),
+        };
         // WAL: readers never block the writer and a killed writer leaves the main file intact;
         // FULL: a committed transaction survives power loss, not only a process crash.
         conn.pragma_update(None, "journal_mode", "WAL")
             .and_then(|_| conn.pragma_update(None, "synchronous", "FULL"))
             .and_then(|_| conn.pragma_update(None, "foreign_keys", "ON"))
             .and_then(|_| conn.busy_timeout(std::time::Duration::from_secs(10)))
-            .map_err(sql(path))?;
+            .map_err(not_a_db)?;
         let (from_version, to_version) = schema::migrate(&mut conn, &p)?;
         Ok((
             Ledger { conn, path: p },
@@ -281,6 +293,20 @@ mod tests {
         let e = Ledger::open(&dir.path().join("nope.db")).expect_err("missing");
         assert!(e.is_input());
         assert!(e.to_string().contains("ledger init"), "{e}");
+    }
+
+    #[test]
+    fn a_file_that_is_not_sqlite_is_an_input_error() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let db = dir.path().join("notes.txt");
+        std::fs::write(
+            &db,
+            "this is not a database, just some text long enough to have a header page".repeat(20),
+        )
+        .expect("w");
+        let e = Ledger::open(&db).expect_err("not sqlite");
+        assert!(matches!(e, LedgerError::NotALedger { .. }), "{e}");
+        assert!(e.is_input());
     }
 
     #[test]
