@@ -176,6 +176,16 @@ impl LedgerMarks {
     /// Gives every site excluded all week its ledger reason in the allocation's outcomes (the
     /// allocation saw those sites only as having no usable arc). O(E log S).
     pub fn mark(&self, allocation: &mut Allocation) {
+        // The ledger's exclusions travel in the same option as dispatch feedback, so the
+        // allocation's count of excluded arcs would otherwise credit them all to dispatch.
+        if !self.excluded.is_empty() {
+            for n in &mut allocation.notes {
+                *n = n.replace(
+                    "(dispatch could not serve them)",
+                    "(sites the season ledger excludes, and any stops dispatch could not serve)",
+                );
+            }
+        }
         for &site in self.excluded.keys() {
             if let (Some(reason), Some(o)) =
                 (self.week_reason(site), allocation.sites.get_mut(site))
@@ -321,5 +331,14 @@ mod tests {
             assert_eq!(o.reason, Some(want));
             assert!(!o.eligible);
         }
+        assert!(
+            second
+                .allocation
+                .notes
+                .iter()
+                .any(|n| n.contains("arc(s) excluded by request (sites the season ledger")),
+            "{:?}",
+            second.allocation.notes
+        );
     }
 }
