@@ -174,7 +174,10 @@ impl LedgerMarks {
     }
 
     /// Gives every site excluded all week its ledger reason in the allocation's outcomes (the
-    /// allocation saw those sites only as having no usable arc). O(E log S).
+    /// allocation saw those sites only as having no usable arc), and a site excluded on some
+    /// days whose remaining arcs could not be used either (the allocation says
+    /// `undeliverable`) the ledger reason too: only the ledger's days could have reached it.
+    /// Such a site stays `eligible`, since it has arcs on other days. O(E log S).
     pub fn mark(&self, allocation: &mut Allocation) {
         // The ledger's exclusions travel in the same option as dispatch feedback, so the
         // allocation's count of excluded arcs would otherwise credit them all to dispatch.
@@ -186,13 +189,18 @@ impl LedgerMarks {
                 );
             }
         }
-        for &site in self.excluded.keys() {
-            if let (Some(reason), Some(o)) =
-                (self.week_reason(site), allocation.sites.get_mut(site))
-                && o.vials == 0
-            {
-                o.reason = Some(reason);
+        for (&site, (reason, _)) in &self.excluded {
+            let Some(o) = allocation.sites.get_mut(site) else {
+                continue;
+            };
+            if o.vials > 0 {
+                continue;
+            }
+            if self.week_reason(site).is_some() {
+                o.reason = Some(*reason);
                 o.eligible = false;
+            } else if o.reason == Some(Reason::Undeliverable) {
+                o.reason = Some(*reason);
             }
         }
     }
@@ -274,6 +282,36 @@ mod tests {
         );
         let h3 = l.history(d("2027-03-15")).expect("history");
         assert!(h3.served_requests.contains("R3"));
+    }
+
+    #[test]
+    fn partly_excluded_site_left_without_usable_arcs_gets_the_ledger_reason() {
+        let s = tiny();
+        let mut p = plan::plan(s.clone(), &PlanOptions::default()).expect("plan");
+        let b1 = s.site_idx("B1").expect("B1");
+        let b2 = s.site_idx("B2").expect("B2");
+        let mut h = LedgerHistory::default();
+        // Released on the Sunday before the week, 3-day interval: Mon and Tue excluded.
+        let mut s3 = s.clone();
+        s3.policy.rerelease_interval_days = 3;
+        for id in ["B1", "B2"] {
+            h.block_releases
+                .insert(id.into(), vec![s.week_start - chrono::Days::new(1)]);
+        }
+        let marks = LedgerMarks::new(&s3, &h);
+        assert_eq!(marks.week_reason(b1), None);
+        for (site, why) in [(b1, Reason::Undeliverable), (b2, Reason::BelowCutoff)] {
+            let o = &mut p.allocation.sites[site];
+            o.vials = 0;
+            o.reason = Some(why);
+        }
+        marks.mark(&mut p.allocation);
+        assert_eq!(
+            p.allocation.sites[b1].reason,
+            Some(Reason::ReleasedRecently)
+        );
+        assert!(p.allocation.sites[b1].eligible);
+        assert_eq!(p.allocation.sites[b2].reason, Some(Reason::BelowCutoff));
     }
 
     #[test]
