@@ -41,6 +41,12 @@ pub enum Reason {
     BelowCutoff,
     /// Allocated, but no route could deliver it and no other arc took its place.
     Undeliverable,
+    /// Dooryard request already served or scheduled in another week of the season ledger
+    /// (`plan --ledger`).
+    AlreadyServed,
+    /// Block released (or scheduled) within `policy.rerelease_interval_days` of every
+    /// dispatch date of the week, per the season ledger (`plan --ledger`).
+    ReleasedRecently,
 }
 
 impl Reason {
@@ -56,6 +62,8 @@ impl Reason {
             Reason::LowPriority => "low-priority",
             Reason::BelowCutoff => "below-cutoff",
             Reason::Undeliverable => "undeliverable",
+            Reason::AlreadyServed => "already-served",
+            Reason::ReleasedRecently => "released-recently",
         }
     }
 
@@ -68,6 +76,8 @@ impl Reason {
                 | Reason::NoHostPlant
                 | Reason::UsesInsecticide
                 | Reason::Forbidden
+                | Reason::AlreadyServed
+                | Reason::ReleasedRecently
         )
     }
 }

@@ -4,7 +4,9 @@ mod check;
 mod compare;
 mod demo;
 mod export_model;
+mod forecast;
 mod generate;
+mod ledger;
 mod plan;
 mod sequence;
 mod sweep;
@@ -44,6 +46,10 @@ enum Command {
     Sweep(sweep::Args),
     /// Compare two plan output folders: sites gained and lost, vials by facility and day.
     Compare(compare::Args),
+    /// The season ledger: init, commit a plan, confirm outcomes, report the season.
+    Ledger(ledger::Args),
+    /// Forecast vials packed per facility and day from the cage log and temperatures.
+    Forecast(forecast::Args),
 }
 
 /// What went wrong, sorted by who must act.
@@ -104,6 +110,8 @@ pub fn main() -> ExitCode {
         Command::Generate(a) => generate::run(a),
         Command::Sweep(a) => sweep::run(a),
         Command::Compare(a) => compare::run(a),
+        Command::Ledger(a) => ledger::run(a),
+        Command::Forecast(a) => forecast::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use super::{CliResult, Failure, print_out, source_of};
+use crate::ledger::LedgerMarks;
 use crate::output::{self, PlanView};
 use crate::plan::{self, PlanOptions};
 use crate::scenario;
@@ -15,12 +16,29 @@ pub(crate) struct Args {
     /// Output folder, replaced as a whole only once every file is ready.
     #[arg(long, default_value = "out")]
     out: PathBuf,
+    /// Season ledger to read first: requests already served and blocks released within
+    /// `policy.rerelease_interval_days` are not candidates.
+    #[arg(long)]
+    ledger: Option<PathBuf>,
 }
 
 pub(crate) fn run(args: Args) -> CliResult {
     let scenario = scenario::load(&source_of(&args.dir))?;
-    let p =
-        plan::plan(scenario, &PlanOptions::default()).map_err(|e| Failure::Internal(e.into()))?;
+    let mut opts = PlanOptions::default();
+    // The ledger is read here, once; planning gets typed marks, never the file.
+    let marks = match &args.ledger {
+        Some(db) => {
+            let history = super::ledger::open(db)?.history(scenario.week_start)?;
+            let marks = LedgerMarks::new(&scenario, &history);
+            marks.exclude_arcs(&scenario, &mut opts.alloc);
+            Some(marks)
+        }
+        None => None,
+    };
+    let mut p = plan::plan(scenario, &opts).map_err(|e| Failure::Internal(e.into()))?;
+    if let Some(m) = &marks {
+        m.mark(&mut p.allocation);
+    }
     let view = PlanView {
         scenario: &p.scenario,
         priority: &p.priority,
@@ -45,6 +63,12 @@ pub(crate) fn run(args: Args) -> CliResult {
         a.lp_bound,
         a.gap * 100.0,
     );
+    if let Some(m) = &marks {
+        let (served, recent) = m.counts();
+        text.push_str(&format!(
+            "ledger: {served} requests already served, {recent} blocks released recently\n"
+        ));
+    }
     for w in &p.scenario.warnings {
         text.push_str(&format!("warning: {w}\n"));
     }

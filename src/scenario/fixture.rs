@@ -236,6 +236,7 @@ pub fn tiny() -> Scenario {
             pressure_radius_km: 5.0,
             pressure_bandwidth_km: 2.0,
             travel_cost_per_hour: 1.0,
+            rerelease_interval_days: 28,
         },
         travel: Travel {
             circuity: 1.3,

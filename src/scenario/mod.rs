@@ -230,6 +230,11 @@ pub struct Policy {
     /// Objective cost of one hour of driving, in priority-weighted wasps (≥ 0). Optional key
     /// `policy.travel_cost_per_hour`, default 1.0: small next to the value of a release.
     pub travel_cost_per_hour: f64,
+    /// Days after a release at a block before the block may get another one, when planning
+    /// with a season ledger (`policy.rerelease_interval_days`, default 28; common practice: a
+    /// block is revisited about once a month, roughly one flush cycle and more than one wasp
+    /// generation; no published value). 0: no interval.
+    pub rerelease_interval_days: u32,
 }
 
 /// Travel settings (`scenario.json` `travel`).

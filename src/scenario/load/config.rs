@@ -328,6 +328,8 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         pressure_radius_km: p.number(sink, "pressure_radius_km", None, positive),
         pressure_bandwidth_km: p.number(sink, "pressure_bandwidth_km", None, positive),
         travel_cost_per_hour: p.number(sink, "travel_cost_per_hour", Some(1.0), non_negative),
+        rerelease_interval_days: p.integer(sink, "rerelease_interval_days", Some(28), 0, 3660)
+            as u32,
     };
 
     let tr = top.object(sink, "travel", true);

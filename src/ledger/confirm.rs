@@ -1,0 +1,386 @@
+//! `ledger confirm`: what happened to each shipment (`confirmations.csv`).
+//!
+//! Columns `shipment_id,status,released_at,note`; `status` is `released`, `not_released` or
+//! `dead_on_arrival`; `released_at` is an ISO date or local date-time, optional, and must be
+//! empty for `not_released`; `note` is free text kept in the ledger and never shown in the
+//! report (it may hold anything a coordinator types). The last import of a shipment wins;
+//! importing the same file again changes nothing.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use rusqlite::{OptionalExtension, TransactionBehavior, params};
+
+use super::commit::{columns, parse_datetime};
+use super::{Ledger, LedgerError, line_problem, parse_date};
+
+/// A shipment's outcome.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Status {
+    /// Committed, no outcome yet.
+    Scheduled,
+    /// The vials were released at the site.
+    Released,
+    /// Not released (no access, homeowner away, vehicle failed…): a dooryard request goes back
+    /// to the queue; a block does not count as released.
+    NotReleased,
+    /// The wasps arrived dead: no release happened, so (like `not_released`) the request goes
+    /// back to the queue and the block does not count as released.
+    DeadOnArrival,
+}
+
+impl Status {
+    /// The code stored in the ledger and written in files.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Status::Scheduled => "scheduled",
+            Status::Released => "released",
+            Status::NotReleased => "not_released",
+            Status::DeadOnArrival => "dead_on_arrival",
+        }
+    }
+
+    /// Parses a stored or written code.
+    pub fn parse(s: &str) -> Option<Status> {
+        Some(match s {
+            "scheduled" => Status::Scheduled,
+            "released" => Status::Released,
+            "not_released" => Status::NotReleased,
+            "dead_on_arrival" => Status::DeadOnArrival,
+            _ => return None,
+        })
+    }
+
+    /// Whether the shipment counts as a release (done or still planned): it serves a request
+    /// and starts a block's re-release interval.
+    pub fn counts_as_release(self) -> bool {
+        matches!(self, Status::Scheduled | Status::Released)
+    }
+}
+
+/// One line of `confirmations.csv`.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Confirmation {
+    /// 1-based line in the file (header = 1).
+    pub line: u64,
+    /// `shipment_id`.
+    pub shipment_id: String,
+    /// `status` (never `Scheduled`).
+    pub status: Status,
+    /// `released_at`, normalised to `YYYY-MM-DD` or `YYYY-MM-DDTHH:MM`.
+    pub released_at: Option<String>,
+    /// `note`, trimmed.
+    pub note: String,
+}
+
+/// What [`Ledger::confirm`] did.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ConfirmOutcome {
+    /// Lines read.
+    pub lines: usize,
+    /// Shipments whose stored outcome changed.
+    pub changed: usize,
+    /// Dooryard requests whose shipment is now `not_released` or `dead_on_arrival` (they are
+    /// candidates again), sorted.
+    pub requests_back_in_queue: Vec<String>,
+}
+
+/// Reads a confirmations file; every problem is reported with file, line and field. O(n log n).
+pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError> {
+    let file = path.file_name().map_or_else(
+        || path.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    );
+    let text = std::fs::read_to_string(path).map_err(|source| LedgerError::Io {
+        path: path.display().to_string(),
+        source,
+    })?;
+    let mut problems = Vec::new();
+    let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
+    let headers = match rdr.headers() {
+        Ok(h) => h.clone(),
+        Err(e) => {
+            return Err(LedgerError::input(vec![line_problem(
+                &file,
+                1,
+                None,
+                None,
+                e.to_string(),
+            )]));
+        }
+    };
+    let Some(col) = columns(
+        &file,
+        &headers,
+        ["shipment_id", "status", "released_at", "note"],
+        &mut problems,
+    ) else {
+        return Err(LedgerError::input(problems));
+    };
+    let mut out = Vec::new();
+    let mut seen: BTreeMap<String, u64> = BTreeMap::new();
+    for rec in rdr.records() {
+        let rec = match rec {
+            Ok(r) => r,
+            Err(e) => {
+                let line = e.position().map_or(0, |p| p.line());
+                problems.push(line_problem(&file, line, None, None, e.to_string()));
+                continue;
+            }
+        };
+        let line = rec.position().map_or(0, |p| p.line());
+        let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
+        let before = problems.len();
+        let id = get(0).to_string();
+        if id.is_empty() {
+            problems.push(line_problem(
+                &file,
+                line,
+                Some("shipment_id"),
+                Some(""),
+                "every line needs a shipment id (from manifest.csv)",
+            ));
+        } else if let Some(first) = seen.insert(id.clone(), line) {
+            problems.push(line_problem(
+                &file,
+                line,
+                Some("shipment_id"),
+                Some(&id),
+                format!("already confirmed on line {first}; give each shipment one line"),
+            ));
+        }
+        let status = match Status::parse(get(1)) {
+            Some(s) if s != Status::Scheduled => Some(s),
+            _ => {
+                problems.push(line_problem(
+                    &file,
+                    line,
+                    Some("status"),
+                    Some(get(1)),
+                    "must be released, not_released or dead_on_arrival",
+                ));
+                None
+            }
+        };
+        let raw = get(2);
+        let released_at = if raw.is_empty() {
+            None
+        } else if let Some(t) = parse_datetime(raw) {
+            Some(t.format("%Y-%m-%dT%H:%M").to_string())
+        } else if let Some(d) = parse_date(raw) {
+            Some(d.to_string())
+        } else {
+            problems.push(line_problem(
+                &file,
+                line,
+                Some("released_at"),
+                Some(raw),
+                "not an ISO date (YYYY-MM-DD) or local date-time (YYYY-MM-DDTHH:MM); leave it empty when unknown",
+            ));
+            None
+        };
+        if status == Some(Status::NotReleased) && released_at.is_some() {
+            problems.push(line_problem(
+                &file,
+                line,
+                Some("released_at"),
+                Some(raw),
+                "a shipment that was not released has no release time; leave it empty",
+            ));
+        }
+        if problems.len() > before {
+            continue;
+        }
+        if let Some(status) = status {
+            out.push(Confirmation {
+                line,
+                shipment_id: id,
+                status,
+                released_at,
+                note: get(3).to_string(),
+            });
+        }
+    }
+    if !problems.is_empty() {
+        return Err(LedgerError::input(problems));
+    }
+    Ok(out)
+}
+
+impl Ledger {
+    /// Applies `confirmations` (read from `file`, named in errors) in one transaction. An
+    /// unknown shipment id fails the whole import, naming every such line; nothing changes.
+    /// O(n log S) for n lines and S stored shipments.
+    pub fn confirm(
+        &mut self,
+        file: &str,
+        confirmations: &[Confirmation],
+    ) -> Result<ConfirmOutcome, LedgerError> {
+        let path = self.path.clone();
+        let err = |source| LedgerError::Sqlite {
+            path: path.clone(),
+            source,
+        };
+        let tx = self
+            .conn
+            .transaction_with_behavior(TransactionBehavior::Immediate)
+            .map_err(err)?;
+        let mut unknown = Vec::new();
+        let mut changed = 0;
+        let mut back = Vec::new();
+        {
+            let mut get = tx
+                .prepare(
+                    "SELECT status, released_at, note, site_kind, site_id FROM shipments
+                     WHERE shipment_id = ?1",
+                )
+                .map_err(err)?;
+            let mut set = tx
+                .prepare(
+                    "UPDATE shipments SET status = ?2, released_at = ?3, note = ?4
+                     WHERE shipment_id = ?1",
+                )
+                .map_err(err)?;
+            for c in confirmations {
+                let now: Option<(String, Option<String>, String, String, String)> = get
+                    .query_row([&c.shipment_id], |r| {
+                        Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
+                    })
+                    .optional()
+                    .map_err(err)?;
+                let Some((status, released_at, note, kind, site)) = now else {
+                    unknown.push(line_problem(
+                        file,
+                        c.line,
+                        Some("shipment_id"),
+                        Some(&c.shipment_id),
+                        "no such shipment in the ledger; commit its plan first (`broodcast ledger commit`)",
+                    ));
+                    continue;
+                };
+                if kind == "dooryard" && !c.status.counts_as_release() {
+                    back.push(site);
+                }
+                if (status.as_str(), released_at.as_deref(), note.as_str())
+                    == (c.status.as_str(), c.released_at.as_deref(), c.note.as_str())
+                {
+                    continue;
+                }
+                set.execute(params![
+                    c.shipment_id,
+                    c.status.as_str(),
+                    c.released_at,
+                    c.note
+                ])
+                .map_err(err)?;
+                changed += 1;
+            }
+        }
+        if !unknown.is_empty() {
+            // Dropping the transaction rolls back every update made above.
+            return Err(LedgerError::input(unknown));
+        }
+        tx.commit().map_err(err)?;
+        back.sort();
+        back.dedup();
+        Ok(ConfirmOutcome {
+            lines: confirmations.len(),
+            changed,
+            requests_back_in_queue: back,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::commit::tests::{folder, row};
+    use super::super::read_plan_folder;
+    use super::*;
+
+    fn setup() -> (tempfile::TempDir, Ledger) {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
+        let a = row("S-A", "2027-03-01", "B1", "block", 3);
+        let b = row("S-B", "2027-03-02", "R1", "dooryard", 2);
+        let p = read_plan_folder(folder("2027-03-01", &[&a, &b]).path()).expect("read");
+        l.commit(&p, false).expect("commit");
+        (dir, l)
+    }
+
+    fn write(dir: &Path, body: &str) -> std::path::PathBuf {
+        let p = dir.join("confirmations.csv");
+        std::fs::write(&p, format!("shipment_id,status,released_at,note\n{body}")).expect("w");
+        p
+    }
+
+    fn statuses(l: &Ledger) -> Vec<(String, String, Option<String>)> {
+        let mut q = l
+            .conn
+            .prepare("SELECT shipment_id, status, released_at FROM shipments ORDER BY 1")
+            .expect("prepare");
+        q.query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))
+            .expect("query")
+            .collect::<Result<_, _>>()
+            .expect("rows")
+    }
+
+    #[test]
+    fn confirm_twice_changes_nothing_the_second_time() {
+        let (dir, mut l) = setup();
+        let p = write(
+            dir.path(),
+            "S-A,released,2027-03-01T10:15,ok\nS-B,not_released,,away\n",
+        );
+        let c = read_confirmations(&p).expect("read");
+        let first = l.confirm("confirmations.csv", &c).expect("first");
+        assert_eq!(first.changed, 2);
+        assert_eq!(first.requests_back_in_queue, vec!["R1".to_string()]);
+        let after_first = statuses(&l);
+        let second = l.confirm("confirmations.csv", &c).expect("second");
+        assert_eq!(second.changed, 0);
+        assert_eq!(statuses(&l), after_first);
+        assert_eq!(after_first[0].2.as_deref(), Some("2027-03-01T10:15"));
+    }
+
+    #[test]
+    fn unknown_id_fails_the_whole_file_and_names_the_line() {
+        let (dir, mut l) = setup();
+        let before = statuses(&l);
+        let p = write(dir.path(), "S-A,released,,\nS-NOPE,released,,\n");
+        let c = read_confirmations(&p).expect("read");
+        let e = l.confirm("confirmations.csv", &c).expect_err("unknown");
+        assert!(e.is_input());
+        assert!(
+            e.to_string()
+                .contains("confirmations.csv:3: field 'shipment_id'"),
+            "{e}"
+        );
+        assert_eq!(statuses(&l), before, "nothing changed");
+    }
+
+    #[test]
+    fn bad_lines_name_field() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let p = write(
+            dir.path(),
+            "S-A,maybe,,\nS-B,released,yesterday,\nS-C,not_released,2027-03-01,\nS-B,released,,\n",
+        );
+        let text = read_confirmations(&p).expect_err("bad").to_string();
+        assert!(
+            text.contains("confirmations.csv:2: field 'status'"),
+            "{text}"
+        );
+        assert!(
+            text.contains("confirmations.csv:3: field 'released_at'"),
+            "{text}"
+        );
+        assert!(
+            text.contains("confirmations.csv:4: field 'released_at'"),
+            "{text}"
+        );
+        assert!(
+            text.contains("confirmations.csv:5: field 'shipment_id'"),
+            "{text}"
+        );
+    }
+}
