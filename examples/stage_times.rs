@@ -38,11 +38,12 @@ fn main() {
     let files = output::render_all(&view).expect("renders");
     let out_t = t.elapsed();
     println!(
-        "sites {} arcs {} shipments {} routes {} undeliverable {} files {}",
+        "sites {} arcs {} shipments {} routes {} drive {:.1} min undeliverable {} files {}",
         s.sites.len(),
         a.arcs.len(),
         al.shipments.len(),
         d.routes.len(),
+        d.routes.iter().map(|r| r.drive_minutes).sum::<f64>(),
         d.undeliverable.len(),
         files.len()
     );

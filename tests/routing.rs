@@ -322,6 +322,7 @@ fn solomon_routes_feasible_all_served_and_near_best_known() {
         time_limit: None,
         max_iterations: 1_000,
         neighbours: 12,
+        stall_rounds: u32::MAX,
     };
     for r in rdr.records() {
         let r = r.expect("bks.csv row");

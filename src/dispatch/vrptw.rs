@@ -100,16 +100,20 @@ pub struct SolveOptions {
     pub max_iterations: u32,
     /// Nearest neighbours per customer considered by the local search (≥ 1).
     pub neighbours: usize,
+    /// Stop after this many perturbation rounds in a row without a new best solution
+    /// (`u32::MAX`: never). Small depot-days converge long before `max_iterations`.
+    pub stall_rounds: u32,
 }
 
 impl Default for SolveOptions {
-    /// Seed 1, 2 s, 3,000 rounds, 12 neighbours.
+    /// Seed 1, 2 s, 3,000 rounds, 12 neighbours, stop after 1,000 rounds without a new best.
     fn default() -> Self {
         SolveOptions {
             seed: 1,
             time_limit: Some(Duration::from_secs(2)),
             max_iterations: 3_000,
             neighbours: 12,
+            stall_rounds: 1_000,
         }
     }
 }
@@ -218,10 +222,14 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
     let mut rng = fastrand::Rng::with_seed(opts.seed);
     let served = data.n - 1;
     if served > 1 {
+        let mut last_best = 0u32;
         for it in 0..opts.max_iterations {
             if let Some(limit) = opts.time_limit
                 && started.elapsed() >= limit
             {
+                break;
+            }
+            if it - last_best >= opts.stall_rounds {
                 break;
             }
             let mut cand = cur.clone();
@@ -231,6 +239,7 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
             let (bu, bd, _) = best.key();
             let (cu, cd, _) = cand.key();
             if cand.key_lt(&best) {
+                last_best = it;
                 best = cand.clone();
                 cur = cand;
             } else if cu <= bu && cd <= bd * (1.0 + threshold) + EPS {
