@@ -23,9 +23,9 @@ for t in $TARGETS; do
   "$BIN/$t" -artifact_prefix="artifacts/$t/" -max_total_time="$SECONDS_PER_TARGET" -timeout=5 \
     -max_len="$len" -dict="$dict" -print_final_stats=1 "$LOGDIR/work/$t" \
     >"$LOGDIR/$t.log" 2>&1 || echo "$t: finding, see $LOGDIR/$t.log"
-  # Minimise: keep only inputs that add coverage, into the committed corpus folder.
+  # Minimise: a greedy set cover of the features, into the committed corpus folder.
   rm -rf "$LOGDIR/min/$t" && mkdir -p "$LOGDIR/min/$t"
-  "$BIN/$t" -merge=1 -timeout=5 -max_len="$len" "$LOGDIR/min/$t" "$LOGDIR/work/$t" \
+  "$BIN/$t" -set_cover_merge=1 -timeout=5 -max_len="$len" "$LOGDIR/min/$t" "$LOGDIR/work/$t" \
     >"$LOGDIR/$t.cmin.log" 2>&1
   rm -rf "corpus/$t" && cp -r "$LOGDIR/min/$t" "corpus/$t"
   echo "$t: $(ls "corpus/$t" | wc -l) files, $(du -sk "corpus/$t" | cut -f1) KiB"

@@ -93,7 +93,10 @@ fn remove_dead_leftovers(target: &Path) -> io::Result<()> {
 /// Whether process `pid` exists (signal 0 probe); `true` when it cannot be told.
 #[cfg(unix)]
 fn process_alive(pid: u32) -> bool {
-    let Some(pid) = i32::try_from(pid).ok().and_then(rustix::process::Pid::from_raw) else {
+    let Some(pid) = i32::try_from(pid)
+        .ok()
+        .and_then(rustix::process::Pid::from_raw)
+    else {
         return true;
     };
     !matches!(
@@ -356,7 +359,11 @@ mod tests {
         // pid 1 is always running: a live run's temp folder is left alone, and so are other
         // targets' leftovers.
         fs::create_dir(root.path().join(".plan.tmp-1")).unwrap();
-        fs::create_dir(root.path().join(".other.tmp-".to_string() + &dead.to_string())).unwrap();
+        fs::create_dir(
+            root.path()
+                .join(".other.tmp-".to_string() + &dead.to_string()),
+        )
+        .unwrap();
         write_dir_atomically(&out, &files("new")).unwrap();
         let dead_other = format!(".other.tmp-{dead}");
         let mut want = vec![".plan.tmp-1", dead_other.as_str(), "plan"];
