@@ -49,7 +49,7 @@ pub(super) fn human_bytes(n: u64) -> String {
 /// The problem text for a file past [`MAX_FILE_BYTES`].
 pub(super) fn too_big(size: u64) -> String {
     format!(
-        "the file is {}, more than the limit of {}; check it is the right file (an export of a \
+        "the file is {size} bytes ({}), more than the limit of {}; check it is the right file (an export of a \
          whole layer or a binary file?), or split the scenario",
         human_bytes(size),
         human_bytes(MAX_FILE_BYTES)
