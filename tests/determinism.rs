@@ -41,7 +41,10 @@ fn plan_writes_the_same_bytes_on_one_and_two_threads() {
     assert!(text.contains("\"time_limit_seconds\": 2.0"), "{text}");
     fs::write(
         &cfg,
-        text.replace("\"time_limit_seconds\": 2.0", "\"time_limit_seconds\": 600.0"),
+        text.replace(
+            "\"time_limit_seconds\": 2.0",
+            "\"time_limit_seconds\": 600.0",
+        ),
     )
     .expect("write scenario.json");
 

@@ -224,7 +224,11 @@ fn redacted_route_sheets_hold_no_address_and_the_rest_is_unchanged() {
     let sheets = String::from_utf8(red[4].1.clone()).unwrap();
     for s in &p.scenario.sites {
         if let Some(r) = s.as_request() {
-            assert!(!sheets.contains(&r.address), "{} on a redacted sheet", r.address);
+            assert!(
+                !sheets.contains(&r.address),
+                "{} on a redacted sheet",
+                r.address
+            );
         }
     }
     assert!(sheets.contains("address withheld"));
@@ -255,7 +259,11 @@ fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
         assert!(personal.iter().all(|v| !v.is_empty()));
         requests.push((rec[id].to_string(), rec[address].to_string(), personal));
     }
-    assert!(requests.len() > 50, "the demo has {} requests", requests.len());
+    assert!(
+        requests.len() > 50,
+        "the demo has {} requests",
+        requests.len()
+    );
 
     let tmp = tempfile::tempdir().unwrap();
     let mut outputs = Vec::new();
@@ -270,7 +278,10 @@ fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
         let mut files: BTreeMap<String, String> = BTreeMap::new();
         for name in FILE_NAMES {
-            files.insert(name.into(), std::fs::read_to_string(out.join(name)).unwrap());
+            files.insert(
+                name.into(),
+                std::fs::read_to_string(out.join(name)).unwrap(),
+            );
         }
         let mut log = String::from_utf8_lossy(&o.stdout).into_owned();
         log.push_str(&String::from_utf8_lossy(&o.stderr));
@@ -305,15 +316,25 @@ fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
             on_sheets += 1;
         }
     }
-    assert!(on_sheets > 0, "no request is served in the demo; nothing was checked");
+    assert!(
+        on_sheets > 0,
+        "no request is served in the demo; nothing was checked"
+    );
     // One withheld address per dooryard stop or parcel label, i.e. per dooryard manifest row.
     let mut m = csv::Reader::from_reader(outputs[0]["manifest.csv"].as_bytes());
-    let kind = m.headers().unwrap().iter().position(|h| h == "site_kind").unwrap();
+    let kind = m
+        .headers()
+        .unwrap()
+        .iter()
+        .position(|h| h == "site_kind")
+        .unwrap();
     let dooryard_rows = m
         .records()
         .filter(|r| &r.as_ref().unwrap()[kind] == "dooryard")
         .count();
-    let withheld = outputs[1]["route-sheets.html"].matches("address withheld</em>").count();
+    let withheld = outputs[1]["route-sheets.html"]
+        .matches("address withheld</em>")
+        .count();
     assert_eq!(withheld, dooryard_rows);
 }
 

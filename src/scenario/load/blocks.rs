@@ -562,7 +562,13 @@ mod tests {
         // Points along the four sides of a 0.01° square, closed.
         let mut ring = Vec::with_capacity(n);
         let per_side = (n - 1).div_ceil(4);
-        let corners = [(0.0, 0.0), (0.01, 0.0), (0.01, 0.01), (0.0, 0.01), (0.0, 0.0)];
+        let corners = [
+            (0.0, 0.0),
+            (0.01, 0.0),
+            (0.01, 0.01),
+            (0.0, 0.01),
+            (0.0, 0.0),
+        ];
         'outer: for w in corners.windows(2) {
             for k in 0..per_side {
                 if ring.len() == n - 1 {
@@ -616,7 +622,10 @@ mod tests {
         assert!(rows.is_empty() && ids.is_none());
         assert_eq!(sink.problems.len(), 1);
         let msg = sink.problems[0].to_string();
-        assert!(msg.contains("4 features") && msg.contains("limit of 3"), "{msg}");
+        assert!(
+            msg.contains("4 features") && msg.contains("limit of 3"),
+            "{msg}"
+        );
     }
 
     #[test]
@@ -628,7 +637,10 @@ mod tests {
         assert_eq!(sink.problems.len(), 1);
         let msg = sink.problems[0].to_string();
         assert!(msg.starts_with("b.geojson: feature 1 (id 'B2'): field 'geometry':"));
-        assert!(msg.contains("13 positions") && msg.contains("limit of 12"), "{msg}");
+        assert!(
+            msg.contains("13 positions") && msg.contains("limit of 12"),
+            "{msg}"
+        );
     }
 
     #[test]
@@ -639,7 +651,10 @@ mod tests {
         assert!(rows.is_empty() && ids.is_none());
         assert_eq!(sink.problems.len(), 1, "{:?}", sink.problems);
         let msg = sink.problems[0].to_string();
-        assert!(msg.contains("feature 2") && msg.contains("36 positions in all"), "{msg}");
+        assert!(
+            msg.contains("feature 2") && msg.contains("36 positions in all"),
+            "{msg}"
+        );
         assert!(msg.contains("limit of 25"), "{msg}");
     }
 }

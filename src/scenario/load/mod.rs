@@ -69,7 +69,10 @@ fn read_limited(path: &Path) -> Fetched<'static> {
         Err(e) => return unreadable(e),
     }
     let mut bytes = Vec::new();
-    match file.take(limits::MAX_FILE_BYTES + 1).read_to_end(&mut bytes) {
+    match file
+        .take(limits::MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+    {
         Ok(n) if n as u64 > limits::MAX_FILE_BYTES => Fetched::TooBig(n as u64),
         Ok(_) => Fetched::Found(Cow::Owned(bytes)),
         Err(e) => unreadable(e),
