@@ -130,3 +130,17 @@ fn a_matrix_with_too_many_ids_is_refused_at_its_header() {
         "{l}"
     );
 }
+
+#[test]
+fn bytes_given_in_memory_past_the_size_limit_are_refused_too() {
+    // Zeroed allocations are mapped lazily: this costs no 256 MiB of writes.
+    let big = vec![0u8; usize::try_from(limits::MAX_FILE_BYTES).unwrap() + 1];
+    let files = [("supply.csv", big.as_slice())];
+    let err = broodcast::scenario::load_files(&files).unwrap_err();
+    let p = err
+        .problems
+        .iter()
+        .find(|p| p.file == "supply.csv")
+        .expect("supply.csv named");
+    assert!(p.message.contains("limit of 256 MiB"), "{p}");
+}

@@ -244,4 +244,24 @@ mod tests {
             );
         }
     }
+
+    #[test]
+    fn extra_rows_are_reported_once_and_reading_stops() {
+        let mut text = String::from("id,A\nA,0\n");
+        text.push_str(&"A,0\n".repeat(10_000));
+        let mut sink = Sink::default();
+        assert!(parse("m.csv", text.as_bytes(), &mut sink).is_none());
+        assert_eq!(sink.problems.len(), 1, "{:?}", &sink.problems[..2]);
+        assert!(sink.problems[0].to_string().starts_with("m.csv:3:"));
+    }
+
+    #[test]
+    fn too_many_ids_fail_at_the_header() {
+        let ids: Vec<String> = (0..=MAX_MATRIX_IDS).map(|i| format!("L{i}")).collect();
+        let text = format!("id,{}\n", ids.join(","));
+        let mut sink = Sink::default();
+        assert!(parse("m.csv", text.as_bytes(), &mut sink).is_none());
+        assert_eq!(sink.problems.len(), 1);
+        assert!(sink.problems[0].message.contains("limit of 5000"));
+    }
 }
