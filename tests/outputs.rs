@@ -8,7 +8,9 @@ use std::path::Path;
 use std::process::Command;
 
 use broodcast::output::fixture::{TinyPlan, tiny_plan};
-use broodcast::output::{FILE_NAMES, render_all, write_dir_atomically};
+use broodcast::output::{
+    FILE_NAMES, RenderOptions, render_all, render_all_with, write_dir_atomically,
+};
 use broodcast::scenario::SiteDetail;
 use chrono::NaiveDateTime;
 
@@ -206,6 +208,134 @@ fn request_addresses_appear_on_route_sheets_and_nowhere_else() {
             }
         }
     }
+}
+
+#[test]
+fn redacted_route_sheets_hold_no_address_and_the_rest_is_unchanged() {
+    let p = tiny_plan();
+    let full = render_all(&p.view()).unwrap();
+    let red = render_all_with(&p.view(), &RenderOptions { redact: true }).unwrap();
+    for ((n, a), (m, b)) in full.iter().zip(&red) {
+        assert_eq!(n, m);
+        if n != "route-sheets.html" {
+            assert_eq!(a, b, "{n} must not change with --redact");
+        }
+    }
+    let sheets = String::from_utf8(red[4].1.clone()).unwrap();
+    for s in &p.scenario.sites {
+        if let Some(r) = s.as_request() {
+            assert!(
+                !sheets.contains(&r.address),
+                "{} on a redacted sheet",
+                r.address
+            );
+        }
+    }
+    assert!(sheets.contains("address withheld"));
+}
+
+/// Through the binary on the demo: the raw demo `requests.csv` has fake name, phone and
+/// e-mail columns. No output holds any of them; no analyst output holds an address (raw or
+/// HTML-escaped); the route sheets hold the addresses of the requests they serve, and with
+/// `--redact` none at all. Nor does the terminal output.
+#[test]
+fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
+    let bin = env!("CARGO_BIN_EXE_broodcast");
+    let raw = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/demo/requests.csv");
+    let mut reader = csv::Reader::from_path(&raw).unwrap();
+    let headers = reader.headers().unwrap().clone();
+    let col = |name: &str| {
+        headers
+            .iter()
+            .position(|h| h == name)
+            .unwrap_or_else(|| panic!("the demo requests.csv needs a {name} column"))
+    };
+    let (id, address) = (col("id"), col("address"));
+    let personal_cols = [col("name"), col("phone"), col("email")];
+    let mut requests = Vec::new();
+    for rec in reader.records() {
+        let rec = rec.unwrap();
+        let personal: Vec<String> = personal_cols.iter().map(|&i| rec[i].to_string()).collect();
+        assert!(personal.iter().all(|v| !v.is_empty()));
+        requests.push((rec[id].to_string(), rec[address].to_string(), personal));
+    }
+    assert!(
+        requests.len() > 50,
+        "the demo has {} requests",
+        requests.len()
+    );
+
+    let tmp = tempfile::tempdir().unwrap();
+    let mut outputs = Vec::new();
+    for redact in [false, true] {
+        let out = tmp.path().join(if redact { "redacted" } else { "full" });
+        let mut cmd = Command::new(bin);
+        cmd.args(["plan", "--out"]).arg(&out);
+        if redact {
+            cmd.arg("--redact");
+        }
+        let o = cmd.output().unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let mut files: BTreeMap<String, String> = BTreeMap::new();
+        for name in FILE_NAMES {
+            files.insert(
+                name.into(),
+                std::fs::read_to_string(out.join(name)).unwrap(),
+            );
+        }
+        let mut log = String::from_utf8_lossy(&o.stdout).into_owned();
+        log.push_str(&String::from_utf8_lossy(&o.stderr));
+        files.insert("(terminal)".into(), log);
+        outputs.push(files);
+    }
+    let escaped = |a: &str| html_escape::encode_quoted_attribute(a).into_owned();
+    let mut on_sheets = 0;
+    for (req_id, addr, personal) in &requests {
+        for (files, redact) in outputs.iter().zip([false, true]) {
+            for (name, text) in files {
+                for v in personal {
+                    assert!(!text.contains(v.as_str()), "{name} holds '{v}' of {req_id}");
+                }
+                let sheets = name == "route-sheets.html";
+                if !sheets || redact {
+                    for form in [addr.clone(), escaped(addr)] {
+                        assert!(
+                            !text.contains(&form),
+                            "{name} (redact {redact}) holds the address of {req_id}"
+                        );
+                    }
+                }
+            }
+        }
+        let manifest = &outputs[0]["manifest.csv"];
+        if manifest.contains(&format!(",{req_id},dooryard,")) {
+            assert!(
+                outputs[0]["route-sheets.html"].contains(&escaped(addr)),
+                "{req_id} is delivered but its address is not on the route sheets"
+            );
+            on_sheets += 1;
+        }
+    }
+    assert!(
+        on_sheets > 0,
+        "no request is served in the demo; nothing was checked"
+    );
+    // One withheld address per dooryard stop or parcel label, i.e. per dooryard manifest row.
+    let mut m = csv::Reader::from_reader(outputs[0]["manifest.csv"].as_bytes());
+    let kind = m
+        .headers()
+        .unwrap()
+        .iter()
+        .position(|h| h == "site_kind")
+        .unwrap();
+    let dooryard_rows = m
+        .records()
+        .filter(|r| &r.as_ref().unwrap()[kind] == "dooryard")
+        .count();
+    let withheld = outputs[1]["route-sheets.html"]
+        .matches("address withheld</em>")
+        .count();
+    assert_eq!(withheld, dooryard_rows);
 }
 
 #[test]

@@ -20,6 +20,10 @@ pub(crate) struct Args {
     /// `policy.rerelease_interval_days` are not candidates.
     #[arg(long)]
     ledger: Option<PathBuf>,
+    /// Withhold request addresses from the route sheets (dooryard stops and parcel labels
+    /// then show the request id and coordinates), e.g. to share the sheets for review.
+    #[arg(long)]
+    redact: bool,
 }
 
 pub(crate) fn run(args: Args) -> CliResult {
@@ -46,7 +50,11 @@ pub(crate) fn run(args: Args) -> CliResult {
         dispatch: &p.dispatch,
         moved: &p.moved,
     };
-    let files = output::render_all(&view).map_err(|e| Failure::Internal(e.into()))?;
+    let options = output::RenderOptions {
+        redact: args.redact,
+    };
+    let files =
+        output::render_all_with(&view, &options).map_err(|e| Failure::Internal(e.into()))?;
     output::write_dir_atomically(&args.out, &files)?;
     let a = &p.allocation;
     let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();

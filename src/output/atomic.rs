@@ -2,10 +2,16 @@
 //! half-written one under the target name.
 //!
 //! The new content is written beside the target (same parent, hence the same file system, so
-//! `rename` is atomic), flushed with `fsync`, then renamed into place. A folder cannot be
+//! `rename` is atomic), flushed with `fsync`, then swapped into place. On Linux the swap is one
+//! `renameat2(RENAME_EXCHANGE)`: the target name holds the old folder until the instant it
+//! holds the new one. Elsewhere, or on a file system without the exchange, a folder cannot be
 //! renamed over a non-empty folder, so an existing target is first renamed aside; the window
-//! in which the target name is absent is two renames long, and the old folder is restored if
-//! the second rename fails.
+//! in which the target name is absent is then two renames long, and the old folder is restored
+//! if the second rename fails.
+//!
+//! A run killed mid-write (SIGKILL, power loss) can leave its temp folder `.<name>.tmp-<pid>`
+//! or the moved-aside `.<name>.old-<pid>` beside the target, never a partial target. The next
+//! successful write removes such leftovers of processes that are no longer running.
 
 use std::fs::{self, File};
 use std::io::{self, Write};
@@ -15,9 +21,10 @@ use std::path::{Path, PathBuf};
 /// replacing any folder already there.
 ///
 /// Steps: fresh temp folder `.<name>.tmp-<pid>` beside the target; every file written and
-/// fsynced; the folder fsynced; an existing target renamed to `.<name>.old-<pid>`; the temp
-/// folder renamed to the target; the old folder removed. On any error the temp folder is
-/// removed and the old target, if it had been moved aside, is put back.
+/// fsynced; the folder fsynced; the temp folder exchanged with an existing target (Linux) or
+/// the target renamed to `.<name>.old-<pid>` and the temp folder renamed to the target; the
+/// old folder removed; leftovers of crashed runs on the same target removed. On any error the
+/// temp folder is removed and the old target, if it had been moved aside, is put back.
 ///
 /// # Errors
 /// Any I/O error; `InvalidInput` for a file name that would escape the folder, and when
@@ -41,8 +48,88 @@ pub fn write_dir_atomically(target: &Path, files: &[(String, Vec<u8>)]) -> io::R
     let result = fill_and_swap(target, &tmp, &old, files);
     if result.is_err() {
         let _ = fs::remove_dir_all(&tmp);
+        return result;
     }
-    result
+    // The plan is in place; failing to tidy up after another run is not this run's failure.
+    let _ = remove_dead_leftovers(target);
+    Ok(())
+}
+
+/// Removes `.<name>.tmp-<pid>` and `.<name>.old-<pid>` beside `target` whose process is no
+/// longer running (a live pid may be another run writing the same target right now).
+/// O(entries in the parent folder).
+fn remove_dead_leftovers(target: &Path) -> io::Result<()> {
+    let Some(name) = target.file_name().and_then(|n| n.to_str()) else {
+        return Ok(());
+    };
+    let parent = match target.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    for entry in fs::read_dir(parent)? {
+        let entry = entry?;
+        let file_name = entry.file_name();
+        let Some(rest) = file_name
+            .to_str()
+            .and_then(|n| n.strip_prefix('.'))
+            .and_then(|n| n.strip_prefix(name))
+        else {
+            continue;
+        };
+        let pid = rest
+            .strip_prefix(".tmp-")
+            .or_else(|| rest.strip_prefix(".old-"))
+            .and_then(|p| p.parse::<u32>().ok());
+        if let Some(pid) = pid
+            && pid != std::process::id()
+            && !process_alive(pid)
+        {
+            remove_if_exists(&entry.path())?;
+        }
+    }
+    Ok(())
+}
+
+/// Whether process `pid` exists (signal 0 probe); `true` when it cannot be told.
+#[cfg(unix)]
+fn process_alive(pid: u32) -> bool {
+    let Some(pid) = i32::try_from(pid)
+        .ok()
+        .and_then(rustix::process::Pid::from_raw)
+    else {
+        return true;
+    };
+    !matches!(
+        rustix::process::test_kill_process(pid),
+        Err(rustix::io::Errno::SRCH)
+    )
+}
+
+#[cfg(not(unix))]
+fn process_alive(_pid: u32) -> bool {
+    true
+}
+
+/// Swaps two existing paths in one step. `Unsupported` where the platform or the file system
+/// has no such operation.
+#[cfg(target_os = "linux")]
+fn exchange(a: &Path, b: &Path) -> io::Result<()> {
+    use rustix::fs::{CWD, RenameFlags, renameat_with};
+    match renameat_with(CWD, a, CWD, b, RenameFlags::EXCHANGE) {
+        Ok(()) => Ok(()),
+        Err(e) if e == rustix::io::Errno::INVAL || e == rustix::io::Errno::NOSYS => Err(
+            io::Error::new(io::ErrorKind::Unsupported, "no RENAME_EXCHANGE here"),
+        ),
+        Err(e) => Err(e.into()),
+    }
+}
+
+#[cfg(not(target_os = "linux"))]
+fn exchange(_a: &Path, _b: &Path) -> io::Result<()> {
+    Err(io::Error::new(
+        io::ErrorKind::Unsupported,
+        "no atomic exchange on this platform",
+    ))
 }
 
 fn fill_and_swap(
@@ -61,6 +148,19 @@ fn fill_and_swap(
     sync_dir(tmp)?;
     let had_old = target.exists();
     if had_old {
+        match exchange(tmp, target) {
+            Ok(()) => {
+                if let Some(parent) = target.parent() {
+                    sync_dir(parent)?;
+                }
+                // `tmp` now holds the previous plan; if it cannot be removed now, the next
+                // run removes it (its pid is then dead).
+                let _ = fs::remove_dir_all(tmp);
+                return Ok(());
+            }
+            Err(e) if e.kind() == io::ErrorKind::Unsupported => {}
+            Err(e) => return Err(e),
+        }
         remove_if_exists(old)?;
         fs::rename(target, old)?;
     }
@@ -241,5 +341,44 @@ mod tests {
         write_file_atomically(&p, b"v2").unwrap();
         assert_eq!(fs::read(&p).unwrap(), b"v2");
         assert_eq!(entries(root.path()), ["ledger.csv"]);
+    }
+
+    #[test]
+    fn leftovers_of_dead_runs_are_removed_by_the_next_write() {
+        let root = tempfile::tempdir().unwrap();
+        let out = root.path().join("plan");
+        // A pid that has just exited stands for a run killed mid-write.
+        let mut child = std::process::Command::new("true").spawn().unwrap();
+        let dead = child.id();
+        child.wait().unwrap();
+        for tag in ["tmp", "old"] {
+            let d = root.path().join(format!(".plan.{tag}-{dead}"));
+            fs::create_dir(&d).unwrap();
+            fs::write(d.join("manifest.csv"), "partial").unwrap();
+        }
+        // pid 1 is always running: a live run's temp folder is left alone, and so are other
+        // targets' leftovers.
+        fs::create_dir(root.path().join(".plan.tmp-1")).unwrap();
+        fs::create_dir(
+            root.path()
+                .join(".other.tmp-".to_string() + &dead.to_string()),
+        )
+        .unwrap();
+        write_dir_atomically(&out, &files("new")).unwrap();
+        let dead_other = format!(".other.tmp-{dead}");
+        let mut want = vec![".plan.tmp-1", dead_other.as_str(), "plan"];
+        want.sort();
+        assert_eq!(entries(root.path()), want);
+    }
+
+    #[test]
+    fn replacing_keeps_no_moved_aside_copy() {
+        let root = tempfile::tempdir().unwrap();
+        let out = root.path().join("plan");
+        write_dir_atomically(&out, &files("one")).unwrap();
+        write_dir_atomically(&out, &files("two")).unwrap();
+        write_dir_atomically(&out, &files("three")).unwrap();
+        assert_eq!(fs::read_to_string(out.join("a.txt")).unwrap(), "three");
+        assert_eq!(entries(root.path()), ["plan"]);
     }
 }

@@ -6,7 +6,8 @@
 //! are sorted, maps are `BTreeMap`s, and no clock or random source is read.
 //!
 //! Personal data: the only output that carries a request's street address is
-//! `route-sheets.html` (the driver and dispatcher need it). Analyst outputs (`manifest.*`,
+//! `route-sheets.html` (the driver and dispatcher need it), and not even that one when
+//! [`RenderOptions::redact`] is set. Analyst outputs (`manifest.*`,
 //! `allocation.csv`, `summary.json`, `plan.geojson`, `report.html`) carry ids and coordinates
 //! only. The scenario never holds names, phones or e-mails.
 
@@ -86,7 +87,18 @@ pub const CAUTIONS: [&str; 4] = [
     "This plan is decision support: local extension and licensed pest-control practice decide.",
 ];
 
-/// Renders every output file: `(file name, bytes)` in [`FILE_NAMES`] order.
+/// Choices about how the outputs are written that do not change the plan.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct RenderOptions {
+    /// Withhold request street addresses from the route sheets, the one output that carries
+    /// them, so that the sheets can be shared (e.g. with a contractor or for review). Each
+    /// dooryard stop and parcel label then reads "address withheld" with the request id and
+    /// coordinates; the layout stays the same.
+    pub redact: bool,
+}
+
+/// Renders every output file: `(file name, bytes)` in [`FILE_NAMES`] order, with the
+/// default [`RenderOptions`] (addresses on the route sheets).
 ///
 /// Cost: O(S + R·k + P) for S sites, R routes of k stops and P parcels, plus sorting.
 ///
@@ -95,13 +107,27 @@ pub const CAUTIONS: [&str; 4] = [
 /// facility or vehicle that does not exist; CSV/JSON errors otherwise (not expected for
 /// in-memory writers).
 pub fn render_all(view: &PlanView) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
+    render_all_with(view, &RenderOptions::default())
+}
+
+/// [`render_all`] with explicit [`RenderOptions`].
+///
+/// # Errors
+/// As [`render_all`].
+pub fn render_all_with(
+    view: &PlanView,
+    options: &RenderOptions,
+) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
     let plan = Delivered::build(view)?;
     let files = vec![
         ("manifest.csv", manifest::csv(&plan.rows)?),
         ("manifest.json", manifest::json(view, &plan)?),
         ("allocation.csv", allocation_csv::render(view, &plan)?),
         ("summary.json", summary::render(view, &plan)?),
-        ("route-sheets.html", route_sheets::render(view, &plan)?),
+        (
+            "route-sheets.html",
+            route_sheets::render(view, &plan, options.redact)?,
+        ),
         ("plan.geojson", geojson::render(view, &plan)?),
         ("report.html", report::render(view, &plan)?),
     ];

@@ -50,14 +50,28 @@ table.stops th.cont { background: #fff; font-weight: normal; color: #444; border
 const MAP_W: f64 = 680.0;
 const MAP_H: f64 = 330.0;
 
-pub(crate) fn render(view: &PlanView, _plan: &Delivered) -> Result<Vec<u8>, OutputError> {
+/// What a redacted sheet prints instead of a street address.
+pub(crate) const WITHHELD: &str = "address withheld";
+
+/// Renders the sheets; `redact` replaces every request address by [`WITHHELD`], the request
+/// id and its coordinates (the driver can still navigate by coordinates).
+pub(crate) fn render(
+    view: &PlanView,
+    _plan: &Delivered,
+    redact: bool,
+) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
     let mut h = String::new();
     let _ = write!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}</title>\n<style>{CSS}</style>\n</head>\n<body>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}{}</title>\n<style>{CSS}</style>\n</head>\n<body>\n",
         esc(&sc.name),
-        sc.week_start
+        sc.week_start,
+        if redact {
+            " — addresses withheld"
+        } else {
+            ""
+        }
     );
     if view.dispatch.routes.is_empty() && view.dispatch.parcels.is_empty() {
         let _ = writeln!(
@@ -67,10 +81,10 @@ pub(crate) fn render(view: &PlanView, _plan: &Delivered) -> Result<Vec<u8>, Outp
         );
     }
     for route in &view.dispatch.routes {
-        sheet(&mut h, sc, route)?;
+        sheet(&mut h, sc, route, redact)?;
     }
     if !view.dispatch.parcels.is_empty() {
-        parcel_page(&mut h, view)?;
+        parcel_page(&mut h, view, redact)?;
     }
     h.push_str("</body>\n</html>\n");
     Ok(h.into_bytes())
@@ -113,7 +127,16 @@ pub(crate) fn duration(minutes: f64) -> String {
     }
 }
 
-fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
+/// The line under a redacted sheet's title.
+fn redaction_note(redact: bool) -> &'static str {
+    if redact {
+        "<p class=\"muted\">Addresses withheld for sharing: dooryard stops are given by request id and coordinates.</p>\n"
+    } else {
+        ""
+    }
+}
+
+fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), OutputError> {
     let depot = sc.facilities.get(r.depot).ok_or_else(|| {
         OutputError::Inconsistent(format!(
             "route {}: depot index {} is out of range",
@@ -129,7 +152,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
     let wasps: f64 = r.stops.iter().map(|s| s.wasps_expected_alive).sum();
     let _ = write!(
         h,
-        "<section class=\"sheet\">\n<h1>Route {id}</h1>\n<table class=\"meta\"><tr>\
+        "<section class=\"sheet\">\n<h1>Route {id}</h1>\n{note}<table class=\"meta\"><tr>\
 <td class=\"k\">Date</td><td class=\"v\">{date}</td>\
 <td class=\"k\">Vehicle</td><td class=\"v\">{veh}</td>\
 <td class=\"k\">Depot</td><td class=\"v\">{dname} ({did})</td></tr>\n<tr>\
@@ -140,6 +163,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
 <td class=\"k\">Vials on board</td><td class=\"v\">{vials}</td>\
 <td class=\"k\">Expected live wasps</td><td class=\"v\">{wasps}</td></tr></table>\n",
         id = esc(&r.id),
+        note = redaction_note(redact),
         date = day(r.date),
         veh = esc(vehicle.id.as_str()),
         dname = esc(&depot.name),
@@ -167,6 +191,12 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route) -> Result<(), OutputError> {
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
         let find = match &site.detail {
+            SiteDetail::Dooryard(_) if redact => format!(
+                "<em>{WITHHELD}</em> (request {})<br><span class=\"muted nw\">{}, {}</span>",
+                esc(site.id.as_str()),
+                fixed(site.location.lat, 6),
+                fixed(site.location.lon, 6)
+            ),
             SiteDetail::Dooryard(req) => format!(
                 "{}<br><span class=\"muted nw\">{}, {}</span>",
                 esc(&req.address),
@@ -333,17 +363,23 @@ fn route_map(
     Ok(s)
 }
 
-fn parcel_page(h: &mut String, view: &PlanView) -> Result<(), OutputError> {
+fn parcel_page(h: &mut String, view: &PlanView, redact: bool) -> Result<(), OutputError> {
     let sc = view.scenario;
     let _ = write!(
         h,
-        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n\
+        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n\
 <table class=\"stops\"><thead><tr><th>#</th><th>Request</th><th>Address</th><th>From</th><th>Hand over</th><th>Delivery (est.)</th><th>Vials</th><th>Release by</th><th>Packed</th></tr></thead><tbody>\n",
-        sc.week_start
+        sc.week_start,
+        redaction_note(redact)
     );
     for (i, p) in view.dispatch.parcels.iter().enumerate() {
         let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
         let address = match &site.detail {
+            SiteDetail::Dooryard(_) if redact => format!(
+                "<em>{WITHHELD}</em><br><span class=\"muted nw\">{}, {}</span>",
+                fixed(site.location.lat, 6),
+                fixed(site.location.lon, 6)
+            ),
             SiteDetail::Dooryard(r) => esc(&r.address),
             SiteDetail::Block(_) => format!("block {}", esc(site.id.as_str())),
         };
@@ -382,11 +418,46 @@ mod tests {
     use super::super::fixture::tiny_plan;
     use super::*;
 
-    fn html() -> String {
+    fn html_with(redact: bool) -> String {
         let p = tiny_plan();
         let v = p.view();
         let plan = Delivered::build(&v).unwrap();
-        String::from_utf8(render(&v, &plan).unwrap()).unwrap()
+        String::from_utf8(render(&v, &plan, redact).unwrap()).unwrap()
+    }
+
+    fn html() -> String {
+        html_with(false)
+    }
+
+    #[test]
+    fn redacted_sheets_keep_the_layout_and_drop_every_address() {
+        let (full, red) = (html(), html_with(true));
+        for a in ["12 Palm Row", "3 Grove Lane", "88 Canal Street"] {
+            assert!(full.contains(a) && !red.contains(a), "{a}");
+        }
+        // Same pages, maps, stops and cautions; R1, R2 by id on routes, R3 on the labels.
+        for marker in [
+            "<section class=\"sheet\">",
+            "<svg class=\"map\"",
+            "<tr><td class=\"seq\">",
+            "<footer class=\"cautions\">",
+        ] {
+            assert_eq!(
+                full.matches(marker).count(),
+                red.matches(marker).count(),
+                "{marker}"
+            );
+        }
+        assert_eq!(red.matches("address withheld</em> (request R").count(), 2);
+        assert_eq!(
+            red.matches("<em>address withheld</em><br>").count(),
+            1,
+            "the parcel"
+        );
+        assert!(
+            red.contains("26.990000, -80.010000"),
+            "R1 still has its coordinates"
+        );
     }
 
     #[test]

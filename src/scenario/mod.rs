@@ -20,7 +20,9 @@ use chrono::{NaiveDate, NaiveDateTime, NaiveTime, Weekday};
 use geo::MultiPolygon;
 use serde::Serialize;
 
-pub use load::{Source, load, load_dir, load_embedded_demo, load_files, parse_travel_matrix};
+pub use load::{
+    Source, limits, load, load_dir, load_embedded_demo, load_files, parse_travel_matrix,
+};
 pub use problems::{InputError, Location, MAX_LISTED, Problem, Warning};
 
 macro_rules! id_type {

@@ -14,6 +14,7 @@ use geo::{Coord, LineString, MultiPolygon, Orient, Polygon};
 use serde_json::Value;
 
 use super::fields::{check_lat, check_lon, parse_date, parse_enum, parse_time};
+use super::limits::{MAX_FEATURES, MAX_POLYGON_VERTICES, MAX_TOTAL_VERTICES};
 use super::text::Sink;
 use crate::scenario::problems::Location;
 use crate::scenario::{Block, Flush, LonLat, Management};
@@ -60,6 +61,21 @@ fn shown(v: &Value) -> String {
     }
 }
 
+/// Size caps of one parse; [`Caps::DEFAULT`] holds the documented limits, tests use small ones.
+struct Caps {
+    features: usize,
+    polygon_vertices: usize,
+    total_vertices: usize,
+}
+
+impl Caps {
+    const DEFAULT: Caps = Caps {
+        features: MAX_FEATURES,
+        polygon_vertices: MAX_POLYGON_VERTICES,
+        total_vertices: MAX_TOTAL_VERTICES,
+    };
+}
+
 /// Parses and validates every feature. Also returns every block id written in the file, valid
 /// or not (`None` when the file is unusable as a whole), so that references to a block whose
 /// feature already has a problem are not reported twice.
@@ -67,6 +83,15 @@ pub(super) fn parse(
     file: &str,
     text: &str,
     sink: &mut Sink,
+) -> (Vec<BlockRow>, Option<BTreeSet<String>>) {
+    parse_capped(file, text, sink, &Caps::DEFAULT)
+}
+
+fn parse_capped(
+    file: &str,
+    text: &str,
+    sink: &mut Sink,
+    caps: &Caps,
 ) -> (Vec<BlockRow>, Option<BTreeSet<String>>) {
     let root: Value = match serde_json::from_str(text) {
         Ok(v) => v,
@@ -102,9 +127,25 @@ pub(super) fn parse(
         );
         return (Vec::new(), None);
     };
+    if features.len() > caps.features {
+        sink.problem(
+            file,
+            Location::Key("features".into()),
+            None,
+            None,
+            format!(
+                "{} features, more than the limit of {}; check it is the right file (a whole \
+                 parcel layer?), or keep only the blocks of this program",
+                features.len(),
+                caps.features
+            ),
+        );
+        return (Vec::new(), None);
+    }
     let mut out = Vec::new();
     let mut seen: BTreeMap<String, usize> = BTreeMap::new();
     let mut declared = BTreeSet::new();
+    let mut vertices = 0usize;
     for (index, feature) in features.iter().enumerate() {
         let id = feature_id(feature);
         if let Some(id) = &id {
@@ -115,7 +156,12 @@ pub(super) fn parse(
             index,
             id: id.clone(),
         };
-        if let Some(row) = parse_feature(&f, feature, sink) {
+        let row = parse_feature(&f, feature, caps, &mut vertices, sink);
+        if vertices > caps.total_vertices {
+            // Reported by `geometry` at the feature that crossed the limit; stop here.
+            return (Vec::new(), None);
+        }
+        if let Some(row) = row {
             if let Some(first) = seen.get(&row.id) {
                 f.bad(
                     sink,
@@ -147,7 +193,13 @@ fn feature_id(feature: &Value) -> Option<String> {
     }
 }
 
-fn parse_feature(f: &Feat<'_>, feature: &Value, sink: &mut Sink) -> Option<BlockRow> {
+fn parse_feature(
+    f: &Feat<'_>,
+    feature: &Value,
+    caps: &Caps,
+    vertices: &mut usize,
+    sink: &mut Sink,
+) -> Option<BlockRow> {
     if feature.get("type").and_then(Value::as_str) != Some("Feature") {
         f.bad(
             sink,
@@ -259,7 +311,7 @@ fn parse_feature(f: &Feat<'_>, feature: &Value, sink: &mut Sink) -> Option<Block
         );
     }
     let access = access_point(f, props, sink);
-    let geometry = geometry(f, feature.get("geometry"), sink);
+    let geometry = geometry(f, feature.get("geometry"), caps, vertices, sink);
 
     let (Some(id), Some(crop), Some(management), Some(flush), Some(last_insecticide)) =
         (id, crop, management, flush, last_insecticide)
@@ -345,7 +397,15 @@ fn access_point(
     }
 }
 
-fn geometry(f: &Feat<'_>, geom: Option<&Value>, sink: &mut Sink) -> Option<MultiPolygon<f64>> {
+/// The feature's outline, checked. `vertices` is the running count of positions in the file;
+/// past the caps a problem is recorded before any ring is converted or validated.
+fn geometry(
+    f: &Feat<'_>,
+    geom: Option<&Value>,
+    caps: &Caps,
+    vertices: &mut usize,
+    sink: &mut Sink,
+) -> Option<MultiPolygon<f64>> {
     let Some(geom) = geom.filter(|g| !g.is_null()) else {
         f.bad(
             sink,
@@ -380,6 +440,36 @@ fn geometry(f: &Feat<'_>, geom: Option<&Value>, sink: &mut Sink) -> Option<Multi
             return None;
         }
     };
+    for (pi, rings) in polygons.iter().enumerate() {
+        let n: usize = rings.iter().map(Vec::len).sum();
+        *vertices = vertices.saturating_add(n);
+        if n > caps.polygon_vertices {
+            f.bad(
+                sink,
+                Some("geometry"),
+                None,
+                format!(
+                    "polygon {pi} has {n} positions, more than the limit of {} per polygon; \
+                     simplify the outline in a GIS (a 0.5 m tolerance keeps a block's shape)",
+                    caps.polygon_vertices
+                ),
+            );
+            return None;
+        }
+    }
+    if *vertices > caps.total_vertices {
+        f.bad(
+            sink,
+            Some("geometry"),
+            None,
+            format!(
+                "the polygons up to this feature have {} positions in all, more than the limit \
+                 of {} per file; simplify the outlines in a GIS or split the scenario",
+                *vertices, caps.total_vertices
+            ),
+        );
+        return None;
+    }
     let mut ok = true;
     let mut out = Vec::with_capacity(polygons.len());
     for (pi, rings) in polygons.iter().enumerate() {
@@ -461,4 +551,110 @@ fn ring_coords(ring: &[geojson::Position]) -> Result<Vec<Coord<f64>>, String> {
         return Err("the ring is not closed; repeat the first position at the end".into());
     }
     Ok(coords)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A valid square block as GeoJSON text, `n` positions on its ring (n ≥ 5).
+    fn block(id: &str, n: usize) -> String {
+        // Points along the four sides of a 0.01° square, closed.
+        let mut ring = Vec::with_capacity(n);
+        let per_side = (n - 1).div_ceil(4);
+        let corners = [
+            (0.0, 0.0),
+            (0.01, 0.0),
+            (0.01, 0.01),
+            (0.0, 0.01),
+            (0.0, 0.0),
+        ];
+        'outer: for w in corners.windows(2) {
+            for k in 0..per_side {
+                if ring.len() == n - 1 {
+                    break 'outer;
+                }
+                let t = k as f64 / per_side as f64;
+                let x = -80.0 + w[0].0 + (w[1].0 - w[0].0) * t;
+                let y = 27.0 + w[0].1 + (w[1].1 - w[0].1) * t;
+                ring.push(format!("[{x},{y}]"));
+            }
+        }
+        ring.push(ring[0].clone());
+        format!(
+            r#"{{"type":"Feature","properties":{{"id":"{id}","crop":"orange","management":"organic","flush":"light","last_insecticide":null,"access_start":"07:00","access_end":"17:00"}},"geometry":{{"type":"Polygon","coordinates":[[{}]]}}}}"#,
+            ring.join(",")
+        )
+    }
+
+    fn collection(features: &[String]) -> String {
+        format!(
+            r#"{{"type":"FeatureCollection","features":[{}]}}"#,
+            features.join(",")
+        )
+    }
+
+    const SMALL: Caps = Caps {
+        features: 3,
+        polygon_vertices: 12,
+        total_vertices: 25,
+    };
+
+    #[test]
+    fn blocks_within_the_caps_load() {
+        let mut sink = Sink::default();
+        let text = collection(&[block("B1", 12), block("B2", 12)]);
+        let (rows, _) = parse_capped("b.geojson", &text, &mut sink, &SMALL);
+        assert!(sink.problems.is_empty(), "{:?}", sink.problems);
+        assert_eq!(rows.len(), 2);
+    }
+
+    #[test]
+    fn too_many_features_fails_before_any_feature_is_read() {
+        let mut sink = Sink::default();
+        let text = collection(&[
+            block("B1", 5),
+            block("B2", 5),
+            block("B3", 5),
+            block("B4", 5),
+        ]);
+        let (rows, ids) = parse_capped("b.geojson", &text, &mut sink, &SMALL);
+        assert!(rows.is_empty() && ids.is_none());
+        assert_eq!(sink.problems.len(), 1);
+        let msg = sink.problems[0].to_string();
+        assert!(
+            msg.contains("4 features") && msg.contains("limit of 3"),
+            "{msg}"
+        );
+    }
+
+    #[test]
+    fn a_polygon_past_the_vertex_cap_is_named_with_the_cap() {
+        let mut sink = Sink::default();
+        let text = collection(&[block("B1", 5), block("B2", 13)]);
+        let (rows, _) = parse_capped("b.geojson", &text, &mut sink, &SMALL);
+        assert_eq!(rows.len(), 1, "B1 still loads");
+        assert_eq!(sink.problems.len(), 1);
+        let msg = sink.problems[0].to_string();
+        assert!(msg.starts_with("b.geojson: feature 1 (id 'B2'): field 'geometry':"));
+        assert!(
+            msg.contains("13 positions") && msg.contains("limit of 12"),
+            "{msg}"
+        );
+    }
+
+    #[test]
+    fn the_total_vertex_cap_stops_the_file_at_the_feature_that_crosses_it() {
+        let mut sink = Sink::default();
+        let text = collection(&[block("B1", 12), block("B2", 12), block("B3", 12)]);
+        let (rows, ids) = parse_capped("b.geojson", &text, &mut sink, &SMALL);
+        assert!(rows.is_empty() && ids.is_none());
+        assert_eq!(sink.problems.len(), 1, "{:?}", sink.problems);
+        let msg = sink.problems[0].to_string();
+        assert!(
+            msg.contains("feature 2") && msg.contains("36 positions in all"),
+            "{msg}"
+        );
+        assert!(msg.contains("limit of 25"), "{msg}");
+    }
 }

@@ -12,6 +12,7 @@
 use std::collections::BTreeMap;
 
 use super::fields::parse_f64;
+use super::limits::MAX_MATRIX_IDS;
 use super::text::{Sink, decode, line_of, newline_offsets};
 use crate::scenario::TravelMatrix;
 use crate::scenario::problems::Location;
@@ -61,6 +62,22 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
             None,
             None,
             "the header lists no location ids; write a corner label, then one id per column",
+        );
+        return None;
+    }
+    if ids.len() > MAX_MATRIX_IDS {
+        sink.problem(
+            file,
+            Location::Line(1),
+            None,
+            None,
+            format!(
+                "the header lists {} location ids, more than the limit of {MAX_MATRIX_IDS} (the \
+                 matrix would hold {} cells); give drive minutes only between the facilities \
+                 and the sites you plan, or leave travel.matrix out to use geodesic distances",
+                ids.len(),
+                ids.len() * ids.len()
+            ),
         );
         return None;
     }
@@ -116,8 +133,8 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
                 None,
                 format!("more rows than the {n} ids in the header; the matrix must be square"),
             );
-            minutes.push(Vec::new());
-            continue;
+            // One report is enough, and stopping bounds the work on a runaway file.
+            break;
         }
         let row_id = rec.get(0).map_or("", str::trim);
         if row_id != ids[i] {
@@ -226,5 +243,25 @@ mod tests {
                 sink.problems
             );
         }
+    }
+
+    #[test]
+    fn extra_rows_are_reported_once_and_reading_stops() {
+        let mut text = String::from("id,A\nA,0\n");
+        text.push_str(&"A,0\n".repeat(10_000));
+        let mut sink = Sink::default();
+        assert!(parse("m.csv", text.as_bytes(), &mut sink).is_none());
+        assert_eq!(sink.problems.len(), 1, "{:?}", &sink.problems[..2]);
+        assert!(sink.problems[0].to_string().starts_with("m.csv:3:"));
+    }
+
+    #[test]
+    fn too_many_ids_fail_at_the_header() {
+        let ids: Vec<String> = (0..=MAX_MATRIX_IDS).map(|i| format!("L{i}")).collect();
+        let text = format!("id,{}\n", ids.join(","));
+        let mut sink = Sink::default();
+        assert!(parse("m.csv", text.as_bytes(), &mut sink).is_none());
+        assert_eq!(sink.problems.len(), 1);
+        assert!(sink.problems[0].message.contains("limit of 5000"));
     }
 }

@@ -10,6 +10,7 @@
 mod blocks;
 mod config;
 mod fields;
+pub mod limits;
 mod matrix;
 mod tables;
 mod text;
@@ -43,11 +44,39 @@ pub fn load(source: &Source) -> Result<Scenario, InputError> {
 
 /// Loads and validates the scenario folder `dir`.
 pub fn load_dir(dir: &Path) -> Result<Scenario, InputError> {
-    load_with(&|name: &str| match std::fs::read(dir.join(name)) {
-        Ok(bytes) => Fetched::Found(Cow::Owned(bytes)),
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Fetched::Missing,
-        Err(e) => Fetched::Unreadable(e.to_string()),
-    })
+    load_with(&|name: &str| read_limited(&dir.join(name)))
+}
+
+/// Reads a file of at most [`limits::MAX_FILE_BYTES`]: the size is checked from metadata
+/// before reading, and the read itself stops one byte past the limit, so a device, a pipe or
+/// a file that grows while read cannot exhaust memory either.
+fn read_limited(path: &Path) -> Fetched<'static> {
+    use std::io::Read;
+    let unreadable = |e: std::io::Error| match e.kind() {
+        std::io::ErrorKind::NotFound => Fetched::Missing,
+        _ => Fetched::Unreadable(e.to_string()),
+    };
+    let file = match std::fs::File::open(path) {
+        Ok(f) => f,
+        Err(e) => return unreadable(e),
+    };
+    match file.metadata() {
+        Ok(m) if m.is_dir() => {
+            return Fetched::Unreadable("it is a folder, not a file".into());
+        }
+        Ok(m) if m.len() > limits::MAX_FILE_BYTES => return Fetched::TooBig(m.len()),
+        Ok(_) => {}
+        Err(e) => return unreadable(e),
+    }
+    let mut bytes = Vec::new();
+    match file
+        .take(limits::MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+    {
+        Ok(n) if n as u64 > limits::MAX_FILE_BYTES => Fetched::TooBig(n as u64),
+        Ok(_) => Fetched::Found(Cow::Owned(bytes)),
+        Err(e) => unreadable(e),
+    }
 }
 
 /// Loads and validates a scenario given as (file name, bytes) pairs, e.g. files embedded in
@@ -95,6 +124,8 @@ enum Fetched<'a> {
     Found(Cow<'a, [u8]>),
     Missing,
     Unreadable(String),
+    /// Past [`limits::MAX_FILE_BYTES`]: the size in bytes (as far as known).
+    TooBig(u64),
 }
 
 /// Distance past which a site or scouting point is probably mistyped, km (common practice: a
@@ -113,7 +144,21 @@ fn fetch<'a>(
     sink: &mut Sink,
 ) -> Option<Cow<'a, [u8]>> {
     match get(name) {
+        Fetched::Found(b) if b.len() as u64 > limits::MAX_FILE_BYTES => {
+            sink.problem(
+                name,
+                Location::File,
+                None,
+                None,
+                limits::too_big(b.len() as u64),
+            );
+            None
+        }
         Fetched::Found(b) => Some(b),
+        Fetched::TooBig(size) => {
+            sink.problem(name, Location::File, None, None, limits::too_big(size));
+            None
+        }
         Fetched::Missing => {
             if required {
                 sink.problem(

@@ -5,6 +5,7 @@ use std::collections::BTreeMap;
 use csv::StringRecord;
 
 use super::fields::show;
+use super::limits::MAX_CSV_ROWS;
 use crate::scenario::problems::Location;
 use crate::scenario::{Problem, Warning};
 
@@ -120,7 +121,8 @@ pub(super) struct Table<'f> {
 }
 
 /// Reads a CSV table and checks that `required` columns are present. Rows whose field count
-/// differs from the header are reported and dropped. `None` when the header itself is unusable.
+/// differs from the header are reported and dropped. `None` when the header itself is unusable
+/// or the file has more than [`MAX_CSV_ROWS`] rows (reading stops there).
 pub(super) fn read_table<'f>(
     file: &'f str,
     text: &str,
@@ -195,7 +197,23 @@ pub(super) fn read_table<'f>(
     }
     let width = header.len();
     let mut rows = Vec::new();
-    for rec in records {
+    for (n, rec) in records.enumerate() {
+        if n == MAX_CSV_ROWS {
+            let line = rec
+                .as_ref()
+                .map_or(0, |r| line_of(text, &newlines, r.position()));
+            sink.problem(
+                file,
+                Location::Line(line),
+                None,
+                None,
+                format!(
+                    "more than {MAX_CSV_ROWS} data rows, the limit per CSV file; check it is \
+                     the right file, or split the scenario"
+                ),
+            );
+            return None;
+        }
         match rec {
             Ok(r) => {
                 let line = line_of(text, &newlines, r.position());
