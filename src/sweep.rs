@@ -435,9 +435,12 @@ pub fn load_with_settings(
     })
 }
 
-/// The scenario without the facilities `ids`: their supply rows and the vehicles based at them
-/// go too, so no arc leaves them and every site falls back on the remaining facilities.
-/// Facility indices are renumbered in the original order. O(facilities + supply + fleet).
+/// The scenario with the facilities `ids` down for the week: their supply rows and the
+/// vehicles based at them go, so no arc leaves them. The facilities themselves stay (indices
+/// unchanged), so every site keeps the facilities that serve it in the full plan
+/// (`arcs::ArcOptions::max_facilities_per_site` is judged over all facilities) and merely
+/// loses the arcs of the ones that are down: the variant's arcs are a subset of the full
+/// plan's, so an outage can never raise the LP bound. O(supply + fleet).
 ///
 /// # Errors
 /// [`SweepError::UnknownFacility`] for an id no facility has, [`SweepError::NoFacilityLeft`]
@@ -465,44 +468,9 @@ pub fn without_facilities(scenario: &Scenario, ids: &[String]) -> Result<Scenari
             ids: ids.join(", "),
         });
     }
-    let mut new_idx: Vec<Option<FacilityIdx>> = Vec::with_capacity(drop.len());
-    let mut next = 0;
-    for d in &drop {
-        new_idx.push((!d).then(|| {
-            next += 1;
-            next - 1
-        }));
-    }
     let mut sc = scenario.clone();
-    sc.facilities = scenario
-        .facilities
-        .iter()
-        .zip(&drop)
-        .filter(|(_, d)| !**d)
-        .map(|(f, _)| f.clone())
-        .collect();
-    sc.supply = scenario
-        .supply
-        .iter()
-        .filter_map(|s| {
-            new_idx[s.facility].map(|f| {
-                let mut s = s.clone();
-                s.facility = f;
-                s
-            })
-        })
-        .collect();
-    sc.fleet = scenario
-        .fleet
-        .iter()
-        .filter_map(|v| {
-            new_idx[v.depot].map(|d| {
-                let mut v = v.clone();
-                v.depot = d;
-                v
-            })
-        })
-        .collect();
+    sc.supply.retain(|s| !drop[s.facility]);
+    sc.fleet.retain(|v| !drop[v.depot]);
     Ok(sc)
 }
 
@@ -834,28 +802,28 @@ mod tests {
     }
 
     #[test]
-    fn without_removes_supply_and_vehicles_and_renumbers() {
+    fn without_removes_supply_and_vehicles_and_keeps_indices() {
         let sc = fixture::tiny();
         assert!(sc.facilities.len() >= 2);
         let first = sc.facilities[0].id.to_string();
         let out = without_facilities(&sc, std::slice::from_ref(&first)).unwrap();
-        assert_eq!(out.facilities.len(), sc.facilities.len() - 1);
-        assert!(out.facility_idx(&first).is_none());
+        assert!(
+            out.facilities
+                .iter()
+                .map(|f| &f.id)
+                .eq(sc.facilities.iter().map(|f| &f.id))
+        );
         let kept: u64 = sc
             .supply
             .iter()
             .filter(|s| s.facility != 0)
             .map(|s| u64::from(s.vials))
             .sum();
+        assert!(kept < sc.total_supply_vials(), "the fixture packs at F1");
         assert_eq!(out.total_supply_vials(), kept);
-        for s in &out.supply {
-            assert!(s.facility < out.facilities.len());
-        }
-        for v in &out.fleet {
-            assert!(v.depot < out.facilities.len());
-            let orig = sc.fleet.iter().find(|o| o.id == v.id).unwrap();
-            assert_eq!(sc.facilities[orig.depot].id, out.facilities[v.depot].id);
-        }
+        assert!(out.supply.iter().all(|s| s.facility != 0));
+        assert!(out.fleet.iter().all(|v| v.depot != 0));
+        assert!(!out.fleet.is_empty());
         let e = without_facilities(&sc, &["NOPE".into()]).unwrap_err();
         assert!(e.is_input() && e.to_string().contains("NOPE"), "{e}");
         let all: Vec<String> = sc.facilities.iter().map(|f| f.id.to_string()).collect();
