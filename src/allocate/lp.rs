@@ -661,7 +661,7 @@ const MAX_PRICING_ROUNDS: usize = 30;
 
 /// Arcs one pricing round adds at most, and per site: partial pricing keeps each round's LP
 /// small, since an interior-point solve costs far more than another round of pricing.
-const PRICED_ARCS_PER_ROUND: usize = 4_000;
+const PRICED_ARCS_PER_ROUND: usize = 2_000;
 const PRICED_ARCS_PER_SITE: usize = 2;
 
 /// Adds to `arc_in` the arcs with a reduced cost above `tol` against the duals `y` of
