@@ -2,29 +2,10 @@
 //! belongs, `sequence` and `export-model` on real files.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Command;
 
-fn bin() -> PathBuf {
-    PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
-}
-
-fn run(args: &[&str]) -> Output {
-    Command::new(bin())
-        .args(args)
-        .output()
-        .expect("run broodcast")
-}
-
-fn run_ok(args: &[&str]) -> String {
-    let out = run(args);
-    assert!(
-        out.status.success(),
-        "broodcast {args:?} failed: {}{}",
-        String::from_utf8_lossy(&out.stdout),
-        String::from_utf8_lossy(&out.stderr)
-    );
-    String::from_utf8(out.stdout).expect("utf-8 stdout")
-}
+mod util;
+use util::{run, run_ok};
 
 const OUTPUTS: [&str; 7] = [
     "manifest.csv",

@@ -3,32 +3,13 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
 use chrono::NaiveDate;
 
-fn bin() -> PathBuf {
-    PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
-}
-
-fn run(args: &[&str]) -> Output {
-    Command::new(bin())
-        .args(args)
-        .output()
-        .expect("run broodcast")
-}
-
-fn run_ok(args: &[&str]) -> String {
-    let out = run(args);
-    assert!(
-        out.status.success(),
-        "broodcast {args:?} failed: {}{}",
-        String::from_utf8_lossy(&out.stdout),
-        String::from_utf8_lossy(&out.stderr)
-    );
-    String::from_utf8(out.stdout).expect("utf-8 stdout")
-}
+mod util;
+use util::{bin, run, run_ok};
 
 fn s(p: &Path) -> &str {
     p.to_str().expect("utf-8 path")

@@ -1,35 +1,16 @@
 //! Sweeps and comparisons: properties of the LP value over supply, outages, reproduction of
 //! `plan`, determinism across thread counts, and the `sweep`/`compare` binaries end to end.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::path::Path;
+use std::process::Command;
 
 use broodcast::generate::{GenParams, generate};
 use broodcast::plan::{self, PlanOptions};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{self, Multiplier, Sweep, SweepSpec};
 
-fn bin() -> PathBuf {
-    PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
-}
-
-fn run(args: &[&str]) -> Output {
-    Command::new(bin())
-        .args(args)
-        .output()
-        .expect("run broodcast")
-}
-
-fn run_ok(args: &[&str]) -> String {
-    let out = run(args);
-    assert!(
-        out.status.success(),
-        "broodcast {args:?} failed: {}{}",
-        String::from_utf8_lossy(&out.stdout),
-        String::from_utf8_lossy(&out.stderr)
-    );
-    String::from_utf8(out.stdout).expect("utf-8 stdout")
-}
+mod util;
+use util::{run, run_ok};
 
 fn spec(supply: &str, without: &[&str]) -> SweepSpec {
     SweepSpec {

@@ -5,6 +5,32 @@
 
 use std::fs;
 use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// The broodcast binary built for these tests.
+pub fn bin() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
+}
+
+/// Runs the binary with `args`.
+pub fn run(args: &[&str]) -> Output {
+    Command::new(bin())
+        .args(args)
+        .output()
+        .expect("run broodcast")
+}
+
+/// Runs the binary, asserts it succeeded, returns its stdout.
+pub fn run_ok(args: &[&str]) -> String {
+    let out = run(args);
+    assert!(
+        out.status.success(),
+        "broodcast {args:?} failed: {}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).expect("utf-8 stdout")
+}
 
 /// The hand-written valid scenario folder.
 pub fn minimal_dir() -> PathBuf {
