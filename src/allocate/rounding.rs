@@ -21,10 +21,15 @@
 //! share, release limits), so the plan's objective is a lower bound and the LP optimum an upper
 //! bound on the best whole-vial plan.
 
+use std::collections::BTreeSet;
+
 use super::lp::{Force, Instance};
 use crate::scenario::SiteKind;
 
 const EPS: f64 = 1e-9;
+
+/// A growth move at one site: (objective gain per vial, arc, vials).
+type Growth = (f64, usize, u32);
 
 /// Integer plan under construction, with running totals so a move is checked in O(arcs it
 /// touches).
@@ -37,13 +42,23 @@ pub(crate) struct State<'i, 'a> {
     site_v: Vec<u32>,
     door: f64,
     total: f64,
+    /// Moves evaluated so far (the work budget's unit).
     work: u64,
+    /// Objective of the current plan (benefit − travel − force penalties), kept by `apply`.
+    obj: f64,
+    /// Moves committed since the last `checkpoint`, for `rollback`; None outside one.
+    journal: Option<Vec<(usize, i64)>>,
+    /// Per site position: its growth moves at its current state, best gain per vial first,
+    /// ignoring supply, capacity and the share floor (checked when a move is taken). A site's
+    /// moves depend only on its own vials, so only `apply` at that site makes them stale
+    /// (None).
+    growth: Vec<Option<Vec<Growth>>>,
 }
 
 impl<'i, 'a> State<'i, 'a> {
     /// The empty plan.
     pub fn new(inst: &'i Instance<'a>) -> Self {
-        State {
+        let mut st = State {
             inst,
             x: vec![0; inst.arcs.len()],
             used: vec![0.0; inst.resources.len()],
@@ -52,7 +67,12 @@ impl<'i, 'a> State<'i, 'a> {
             door: 0.0,
             total: 0.0,
             work: 0,
-        }
+            obj: 0.0,
+            journal: None,
+            growth: vec![None; inst.sites.len()],
+        };
+        st.obj = st.objective();
+        st
     }
 
     /// Force shortfall penalty plus benefit of site position `sp` holding `e` wasps in `v`
@@ -73,8 +93,8 @@ impl<'i, 'a> State<'i, 'a> {
         val
     }
 
-    fn site_ok(&self, sp: usize) -> bool {
-        let (e, v) = (self.site_e[sp], self.site_v[sp]);
+    /// Whether `e` wasps in `v` vials is a valid release at site position `sp`.
+    fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
         if v == 0 {
             return true;
         }
@@ -88,14 +108,24 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
+    fn site_ok(&self, sp: usize) -> bool {
+        self.release_ok(sp, self.site_e[sp], self.site_v[sp])
+    }
+
     fn share_ok(&self) -> bool {
+        self.share_ok_at(self.door, self.total)
+    }
+
+    fn share_ok_at(&self, door: f64, total: f64) -> bool {
         match self.inst.share {
-            Some(s) => self.door >= s * self.total - 1e-7,
+            Some(s) => door >= s * total - 1e-7,
             None => true,
         }
     }
 
-    fn apply(&mut self, a: usize, d: i64) {
+    /// Changes the vials on arc `a` by `d` without bookkeeping (objective, journal, growth
+    /// moves): callers restore or account for it.
+    fn apply_raw(&mut self, a: usize, d: i64) {
         let inst = self.inst;
         let sp = inst.arc_site[a];
         let df = d as f64;
@@ -114,13 +144,27 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
+    /// Changes the vials on arc `a` by `d`, keeping the objective, the journal and the site's
+    /// growth moves up to date.
+    fn apply(&mut self, a: usize, d: i64) {
+        let sp = self.inst.arc_site[a];
+        let before = self.site_value(sp, self.site_e[sp], self.site_v[sp]);
+        self.apply_raw(a, d);
+        let after = self.site_value(sp, self.site_e[sp], self.site_v[sp]);
+        self.obj += after - before - self.inst.cost[a] * d as f64;
+        self.growth[sp] = None;
+        if let Some(j) = &mut self.journal {
+            j.push((a, d));
+        }
+    }
+
     /// Objective gain of applying `moves` (arc, change in vials) if the result is feasible.
     fn try_moves(&mut self, moves: &[(usize, i64)]) -> Option<f64> {
         self.try_moves_with(moves, true)
     }
 
     /// As `try_moves`; `check_resources` false skips supply/capacity checks (used while
-    /// repairing an over-full resource by removals).
+    /// repairing an over-full resource by removals). Leaves the state bit for bit as it was.
     fn try_moves_with(&mut self, moves: &[(usize, i64)], check_resources: bool) -> Option<f64> {
         self.work += moves.len() as u64;
         let inst = self.inst;
@@ -132,13 +176,23 @@ impl<'i, 'a> State<'i, 'a> {
         let mut sites: Vec<usize> = moves.iter().map(|&(a, _)| inst.arc_site[a]).collect();
         sites.sort_unstable();
         sites.dedup();
+        let saved_sites: Vec<(f64, u32)> = sites
+            .iter()
+            .map(|&s| (self.site_e[s], self.site_v[s]))
+            .collect();
+        let saved_res: Vec<(usize, f64)> = moves
+            .iter()
+            .flat_map(|&(a, _)| inst.arc_res[a])
+            .map(|r| (r, self.used[r]))
+            .collect();
+        let (door, total) = (self.door, self.total);
         let before: f64 = sites
             .iter()
             .map(|&s| self.site_value(s, self.site_e[s], self.site_v[s]))
             .sum();
         let mut cost = 0.0;
         for &(a, d) in moves {
-            self.apply(a, d);
+            self.apply_raw(a, d);
             cost += inst.cost[a] * d as f64;
         }
         let mut ok = self.share_ok() && sites.iter().all(|&s| self.site_ok(s));
@@ -153,9 +207,17 @@ impl<'i, 'a> State<'i, 'a> {
             .iter()
             .map(|&s| self.site_value(s, self.site_e[s], self.site_v[s]))
             .sum();
-        for &(a, d) in moves.iter().rev() {
-            self.apply(a, -d);
+        for &(a, d) in moves {
+            self.x[a] = (i64::from(self.x[a]) - d) as u32;
         }
+        for (&s, &(e, v)) in sites.iter().zip(&saved_sites) {
+            self.site_e[s] = e;
+            self.site_v[s] = v;
+        }
+        for &(r, u) in saved_res.iter().rev() {
+            self.used[r] = u;
+        }
+        (self.door, self.total) = (door, total);
         ok.then_some(after - before - cost)
     }
 
@@ -163,6 +225,24 @@ impl<'i, 'a> State<'i, 'a> {
         for &(a, d) in moves {
             self.apply(a, d);
         }
+    }
+
+    /// Starts recording commits, so that `rollback` can undo them.
+    fn checkpoint(&mut self) {
+        self.journal = Some(Vec::new());
+    }
+
+    /// Undoes every commit since `checkpoint`, and stops recording.
+    fn rollback(&mut self) {
+        let journal = self.journal.take().unwrap_or_default();
+        for &(a, d) in journal.iter().rev() {
+            self.apply(a, -d);
+        }
+    }
+
+    /// Keeps every commit since `checkpoint`, and stops recording.
+    fn keep(&mut self) {
+        self.journal = None;
     }
 
     /// Returns to a saved plan (vials per arc). O(arcs).
@@ -185,6 +265,7 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// The plan's objective (benefit − travel − force penalties), recomputed from scratch.
+    /// O(sites + arcs); the search uses the running `obj`.
     pub fn objective(&self) -> f64 {
         let inst = self.inst;
         let benefit: f64 = (0..inst.sites.len())
@@ -199,51 +280,127 @@ impl<'i, 'a> State<'i, 'a> {
         benefit - cost
     }
 
-    /// Best opening or growing move at site `sp`: (gain per vial, moves).
-    fn best_move_at(&mut self, sp: usize) -> Option<(f64, Vec<(usize, i64)>)> {
-        let inst = self.inst;
-        let mut best: Option<(f64, Vec<(usize, i64)>)> = None;
-        let arcs = inst.sites[sp].arcs.clone();
-        let served = self.site_v[sp] > 0;
-        for a in arcs {
-            let alive = inst.arcs[a].wasps_alive_per_vial;
-            let n: i64 = match (inst.sites[sp].kind, served) {
-                (SiteKind::Dooryard, true) => continue,
-                (SiteKind::Dooryard, false) => i64::from(inst.per_request),
-                (SiteKind::Block, true) => 1,
-                (SiteKind::Block, false) => ((inst.min * (1.0 - EPS) / alive).ceil() as i64).max(1),
-            };
-            if n > i64::from(self.free(a)) {
-                continue;
-            }
-            let mv = vec![(a, n)];
-            if let Some(g) = self.try_moves(&mv) {
-                let ratio = g / n as f64;
-                if ratio > 1e-9 && best.as_ref().is_none_or(|b| ratio > b.0) {
-                    best = Some((ratio, mv));
+    /// The growth moves of site position `sp` at its current state (see `growth`): one more
+    /// vial on any arc of a served block, or opening an unserved block with the fewest vials
+    /// that reach the minimum release, or serving a request with the standard count. Moves
+    /// that gain nothing are left out. O(arcs of the site) when stale, O(1) otherwise.
+    fn growth_moves(&mut self, sp: usize) -> &[Growth] {
+        if self.growth[sp].is_none() {
+            let inst = self.inst;
+            let site = &inst.sites[sp];
+            let (e, v) = (self.site_e[sp], self.site_v[sp]);
+            let here = self.site_value(sp, e, v);
+            let mut moves: Vec<Growth> = Vec::new();
+            for &a in &site.arcs {
+                let alive = inst.arcs[a].wasps_alive_per_vial;
+                let n: u32 = match (site.kind, v > 0) {
+                    (SiteKind::Dooryard, true) => break,
+                    (SiteKind::Dooryard, false) => inst.per_request,
+                    (SiteKind::Block, true) => 1,
+                    (SiteKind::Block, false) => {
+                        ((inst.min * (1.0 - EPS) / alive).ceil() as u32).max(1)
+                    }
+                };
+                self.work += 1;
+                let (e2, v2) = (e + f64::from(n) * alive, v + n);
+                if !self.release_ok(sp, e2, v2) {
+                    continue;
+                }
+                let g = self.site_value(sp, e2, v2) - here - inst.cost[a] * f64::from(n);
+                let ratio = g / f64::from(n);
+                if ratio > 1e-9 {
+                    moves.push((ratio, a, n));
                 }
             }
+            // Stable: among equal gains the earlier arc comes first.
+            moves.sort_by(|x, y| y.0.total_cmp(&x.0));
+            self.growth[sp] = Some(moves);
         }
+        self.growth[sp].as_deref().unwrap_or(&[])
+    }
+
+    /// The best growth move at site position `sp` that supply, capacity and the share floor
+    /// allow now.
+    fn best_move_at(&mut self, sp: usize) -> Option<Growth> {
+        let door_site = self.inst.sites[sp].kind == SiteKind::Dooryard;
+        let (door, total) = (self.door, self.total);
+        let moves = std::mem::take(&mut self.growth[sp]);
+        let moves = match moves {
+            Some(m) => m,
+            None => {
+                self.growth_moves(sp);
+                self.growth[sp].take().unwrap_or_default()
+            }
+        };
+        self.work += 1;
+        let best = moves.iter().copied().find(|&(_, a, n)| {
+            let nf = f64::from(n);
+            n <= self.free(a)
+                && self.share_ok_at(if door_site { door + nf } else { door }, total + nf)
+        });
+        self.growth[sp] = Some(moves);
         best
     }
 
-    /// Greedy fill over site positions `cand`. O(iterations × arcs of `cand`).
-    fn greedy(&mut self, cand: &[usize], budget: u64) {
+    /// Greedy fill over site positions `cand` (but `skip`): take the best allowed growth
+    /// move per vial until none gains or the budget is spent. O(iterations × |cand|).
+    fn greedy(&mut self, cand: &[usize], skip: Option<usize>, budget: u64) {
         while self.work < budget {
-            let mut best: Option<(f64, Vec<(usize, i64)>)> = None;
+            let mut best: Option<Growth> = None;
             for &sp in cand {
+                if Some(sp) == skip {
+                    continue;
+                }
                 if let Some(m) = self.best_move_at(sp)
-                    && best.as_ref().is_none_or(|b| m.0 > b.0)
+                    && best.is_none_or(|b| m.0 > b.0)
                 {
                     best = Some(m);
                 }
             }
             match best {
-                Some((_, mv)) => self.commit(&mv),
+                Some((_, a, n)) => self.commit(&[(a, i64::from(n))]),
                 None => break,
             }
         }
     }
+
+    /// Objective change of one vial more on arc `b`, whose site is served and must stay a
+    /// valid release; None otherwise. Supply, capacity and share are not checked.
+    fn add_one_gain(&self, b: usize) -> Option<f64> {
+        let inst = self.inst;
+        let sb = inst.arc_site[b];
+        let (e, v) = (self.site_e[sb], self.site_v[sb]);
+        if v == 0 {
+            return None;
+        }
+        let e2 = e + inst.arcs[b].wasps_alive_per_vial;
+        self.release_ok(sb, e2, v + 1)
+            .then(|| self.site_value(sb, e2, v + 1) - self.site_value(sb, e, v) - inst.cost[b])
+    }
+
+    /// Objective change of one vial less on arc `a`, and whether its site stays valid.
+    fn remove_one_gain(&self, a: usize) -> (f64, bool) {
+        let inst = self.inst;
+        let sa = inst.arc_site[a];
+        let (e, v) = (self.site_e[sa], self.site_v[sa]);
+        let v2 = v - 1;
+        let e2 = if v2 == 0 {
+            0.0
+        } else {
+            e - inst.arcs[a].wasps_alive_per_vial
+        };
+        (
+            self.site_value(sa, e2, v2) - self.site_value(sa, e, v) + inst.cost[a],
+            self.release_ok(sa, e2, v2),
+        )
+    }
+}
+
+/// Key that sorts `f64` gains in decreasing order (total order, as `f64::total_cmp`).
+fn desc_key(g: f64) -> u64 {
+    let b = g.to_bits();
+    let ascending = if b >> 63 == 1 { !b } else { b ^ (1 << 63) };
+    !ascending
 }
 
 /// Rounds LP vials `lp_x` (per usable arc) to a whole-vial plan over the site positions with
@@ -351,12 +508,16 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
         }
     }
     // 2. Greedy fill.
-    st.greedy(&cand_list, budget / 2);
+    st.greedy(&cand_list, None, budget / 2);
     // 3. Local search.
     let cand_arcs: Vec<usize> = cand_list
         .iter()
         .flat_map(|&sp| inst.sites[sp].arcs.iter().copied())
         .collect();
+    let mut cand_pos = vec![usize::MAX; inst.arcs.len()];
+    for (i, &a) in cand_arcs.iter().enumerate() {
+        cand_pos[a] = i;
+    }
     let mut res_arcs: Vec<Vec<usize>> = vec![Vec::new(); inst.resources.len()];
     for &a in &cand_arcs {
         for &r in &inst.arc_res[a] {
@@ -366,19 +527,26 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
     let mut improved = true;
     while improved && st.work < budget {
         improved = false;
-        // Single-vial moves between arcs of served sites (a site must stay feasible).
+        // Single-vial moves between arcs of served sites (a site must stay feasible). Moves to
+        // another site gain (one vial less at the donor) + (one more at the recipient), so
+        // recipients are kept sorted by the second term and each donor walks them best first.
+        let mut recv: BTreeSet<(u64, usize)> = BTreeSet::new();
+        let mut recv_gain: Vec<Option<f64>> = vec![None; cand_arcs.len()];
+        for (i, &b) in cand_arcs.iter().enumerate() {
+            if let Some(g) = st.add_one_gain(b) {
+                recv.insert((desc_key(g), i));
+                recv_gain[i] = Some(g);
+            }
+        }
         let donors: Vec<usize> = cand_arcs.iter().copied().filter(|&a| st.x[a] > 0).collect();
         for &a in &donors {
             if st.x[a] == 0 || st.work >= budget {
                 continue;
             }
+            let sa = inst.arc_site[a];
             let mut best: Option<(f64, usize)> = None;
-            for &b in &cand_arcs {
+            for &b in &inst.sites[sa].arcs {
                 if b == a {
-                    continue;
-                }
-                let sb = inst.arc_site[b];
-                if st.site_v[sb] == 0 && sb != inst.arc_site[a] {
                     continue;
                 }
                 if let Some(g) = st.try_moves(&[(a, -1), (b, 1)])
@@ -388,9 +556,47 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     best = Some((g, b));
                 }
             }
+            let (da, a_ok) = st.remove_one_gain(a);
+            if a_ok {
+                let ra = inst.arc_res[a];
+                let door_a = f64::from(u8::from(inst.sites[sa].kind == SiteKind::Dooryard));
+                for &(_, i) in &recv {
+                    st.work += 2;
+                    let b = cand_arcs[i];
+                    let g = da + recv_gain[i].unwrap_or(f64::NEG_INFINITY);
+                    if g <= 1e-9 || best.is_some_and(|x| g <= x.0) {
+                        break;
+                    }
+                    let sb = inst.arc_site[b];
+                    if sb == sa {
+                        continue;
+                    }
+                    let fits = inst.arc_res[b].iter().all(|&r| {
+                        let freed = if ra.contains(&r) { 1.0 } else { 0.0 };
+                        st.used[r] - freed + 1.0 <= inst.res_rhs[r] + 1e-7
+                    });
+                    let door_b = f64::from(u8::from(inst.sites[sb].kind == SiteKind::Dooryard));
+                    if fits && st.share_ok_at(st.door - door_a + door_b, st.total) {
+                        best = Some((g, b));
+                        break;
+                    }
+                }
+            }
             if let Some((_, b)) = best {
                 st.commit(&[(a, -1), (b, 1)]);
                 improved = true;
+                for s2 in [sa, inst.arc_site[b]] {
+                    for &c in &inst.sites[s2].arcs {
+                        let i = cand_pos[c];
+                        if let Some(g) = recv_gain[i].take() {
+                            recv.remove(&(desc_key(g), i));
+                        }
+                        if let Some(g) = st.add_one_gain(c) {
+                            recv.insert((desc_key(g), i));
+                            recv_gain[i] = Some(g);
+                        }
+                    }
+                }
             }
         }
         // Open an unserved site on one arc, push out the cheapest vials that share its
@@ -419,8 +625,8 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 if gain <= 0.0 || n as f64 * alive > inst.max * (1.0 + EPS) + EPS {
                     continue;
                 }
-                let before_obj = st.objective();
-                let saved = st.x.clone();
+                let before_obj = st.obj;
+                st.checkpoint();
                 st.commit(&[(a, n)]);
                 let mut ok = st.share_ok();
                 for &r in &inst.arc_res[a] {
@@ -454,12 +660,13 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     }
                 }
                 if ok {
-                    st.greedy(&cand_list, budget);
+                    st.greedy(&cand_list, None, budget);
                 }
-                if !(ok && st.objective() > before_obj + 1e-9 * before_obj.abs().max(1.0)) {
-                    st.restore(&saved);
-                } else {
+                if ok && st.obj > before_obj + 1e-9 * before_obj.abs().max(1.0) {
+                    st.keep();
                     improved = true;
+                } else {
+                    st.rollback();
                 }
             }
         }
@@ -473,8 +680,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
             if st.site_v[sp] == 0 || st.work >= budget {
                 continue;
             }
-            let before_obj = st.objective();
-            let saved = st.x.clone();
+            let before_obj = st.obj;
             let empty: Vec<(usize, i64)> = inst.sites[sp]
                 .arcs
                 .iter()
@@ -484,15 +690,15 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
             if st.try_moves(&empty).is_none() {
                 continue;
             }
+            st.checkpoint();
             st.commit(&empty);
-            let others: Vec<usize> = cand_list.iter().copied().filter(|&s| s != sp).collect();
-            st.greedy(&others, budget);
-            st.greedy(&cand_list, budget);
-            if st.objective() > before_obj + 1e-9 * before_obj.abs().max(1.0) {
+            st.greedy(&cand_list, Some(sp), budget);
+            st.greedy(&cand_list, None, budget);
+            if st.obj > before_obj + 1e-9 * before_obj.abs().max(1.0) {
+                st.keep();
                 improved = true;
             } else {
-                // Undo: restore the saved plan.
-                st.restore(&saved);
+                st.rollback();
             }
         }
     }
