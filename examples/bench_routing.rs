@@ -328,6 +328,7 @@ fn main() -> Result<()> {
         seed: 1,
         time_limit: None,
         max_iterations: vrp.max_iterations,
+        stall_rounds: broodcast::dispatch::vrptw::SolveOptions::default().stall_rounds,
     };
     rows.push(synthetic_depot_day(&dispatch_opts));
 

@@ -1,18 +1,24 @@
 //! Times each stage of `plan` on a scenario folder (default: the built-in demo).
-//! `cargo run --release --example stage_times -- [DIR]`
+//! `cargo run --release --example stage_times -- [DIR] [SUPPLY_MULTIPLIER]`
+//! (`-` as DIR is the demo; the multiplier scales supply as `sweep --supply` does.)
 use std::time::Instant;
 
 use broodcast::allocate::{self, AllocOptions};
 use broodcast::travel::TravelModel;
-use broodcast::{arcs, dispatch, output, plan, scenario};
+use broodcast::{arcs, dispatch, output, plan, scenario, sweep};
 
 fn main() {
     let t = Instant::now();
-    let s = match std::env::args().nth(1) {
+    let s = match std::env::args().nth(1).filter(|d| d != "-") {
         Some(d) => scenario::load_dir(std::path::Path::new(&d)),
         None => scenario::load_embedded_demo(),
     }
     .expect("valid scenario");
+    let s = match std::env::args().nth(2) {
+        Some(m) => sweep::scale_supply(&s, &sweep::Multiplier::parse(&m).expect("multiplier"))
+            .expect("scales"),
+        None => s,
+    };
     let load = t.elapsed();
     let t = Instant::now();
     let travel = TravelModel::new(&s);
@@ -25,7 +31,11 @@ fn main() {
     let al = allocate::allocate(&s, &pr, &a, &AllocOptions::default()).expect("allocates");
     let alloc_t = t.elapsed();
     let t = Instant::now();
-    let d = dispatch::dispatch(&s, &al, &travel);
+    let mut dopts = dispatch::DispatchOptions::from_scenario(&s);
+    if let Some(n) = std::env::var("STALL").ok().and_then(|v| v.parse().ok()) {
+        dopts.stall_rounds = n;
+    }
+    let d = dispatch::dispatch_with(&s, &al, &travel, &dopts);
     let disp_t = t.elapsed();
     let t = Instant::now();
     let view = output::PlanView {

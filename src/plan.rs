@@ -35,6 +35,10 @@ pub struct PlanOptions {
     pub pressure: PressureParams,
     /// Allocation options.
     pub alloc: AllocOptions,
+    /// Divides the scenario's route-search rounds per depot-day (most rounds and rounds
+    /// without a new best); 0 and 1 mean the full search. `sweep` uses it for variants with
+    /// several times the supply, whose routes nobody prints.
+    pub route_rounds_divisor: u32,
 }
 
 /// Site priority (dimensionless) for every site, in `SiteIdx` order.
@@ -77,7 +81,16 @@ pub fn plan_with(
     let arcs = arcs::build_arcs(&scenario, travel);
     let mut alloc_opts = opts.alloc.clone();
     let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
-    let first_dispatch = dispatch::dispatch(&scenario, &first, travel);
+    // The feedback rounds re-route only the depot-days whose stops changed.
+    let routes = dispatch::RouteCache::new();
+    let mut dispatch_opts = dispatch::DispatchOptions::from_scenario(&scenario);
+    let divisor = opts.route_rounds_divisor.max(1);
+    dispatch_opts.max_iterations = (dispatch_opts.max_iterations / divisor).max(1);
+    dispatch_opts.stall_rounds = (dispatch_opts.stall_rounds / divisor).max(1);
+    let route = |allocation: &Allocation| {
+        dispatch::dispatch_cached(&scenario, allocation, travel, &dispatch_opts, &routes)
+    };
+    let first_dispatch = route(&first);
     let mut moved = Vec::new();
     if first_dispatch.undeliverable.is_empty() {
         return Ok(Plan {
@@ -108,7 +121,7 @@ pub fn plan_with(
     }
     alloc_opts.excluded.extend(removed);
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
-    let second_dispatch = dispatch::dispatch(&scenario, &second, travel);
+    let second_dispatch = route(&second);
     let (allocation, dispatch) = if second_dispatch.undeliverable.is_empty() {
         (second, second_dispatch)
     } else {
@@ -130,7 +143,7 @@ pub fn plan_with(
             .collect();
         let allocation =
             drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?;
-        let dispatch = dispatch::dispatch(&scenario, &allocation, travel);
+        let dispatch = route(&allocation);
         debug_assert!(dispatch.undeliverable.is_empty());
         (allocation, dispatch)
     };

@@ -505,6 +505,22 @@ pub struct SweepSpec {
     pub settings: Vec<Setting>,
     /// Saturation threshold as a share of the 1× marginal value (0 < fraction < 1).
     pub saturation_fraction: f64,
+    /// Search every variant's routes as long as `plan` does. Off (the default), a variant
+    /// with m > 1 times the supply searches 1/⌈m⌉ of the rounds per depot-day, so it costs
+    /// about what the 1× plan costs. Allocations are the same unless the shorter search
+    /// leaves a stop unplaced (then the feedback round runs, as in `plan`; `docs/sweep.md`).
+    pub full_routes: bool,
+}
+
+impl SweepSpec {
+    /// Route-search rounds divisor for the variant at `m` (see [`SweepSpec::full_routes`]).
+    pub fn route_rounds_divisor(&self, m: &Multiplier) -> u32 {
+        if self.full_routes || m.value() <= 1.0 {
+            1
+        } else {
+            m.value().ceil().min(f64::from(u32::MAX)) as u32
+        }
+    }
 }
 
 /// One variant's headline figures.
@@ -637,7 +653,11 @@ pub fn sweep(
         .with_max_len(1)
         .map(|(m, sc)| {
             let name = format!("x{m}");
-            let p = plan::plan_with(sc, &travel, priority.clone(), opts).map_err(|source| {
+            let opts = PlanOptions {
+                route_rounds_divisor: spec.route_rounds_divisor(&m),
+                ..opts.clone()
+            };
+            let p = plan::plan_with(sc, &travel, priority.clone(), &opts).map_err(|source| {
                 SweepError::Plan {
                     variant: name.clone(),
                     source,

@@ -20,7 +20,7 @@ use broodcast::allocate::{Allocation, Shipment};
 use broodcast::arcs::{Arc, Mode};
 use broodcast::dispatch::tsp::{TspOptions, best_order, tour_minutes};
 use broodcast::dispatch::vrptw::{Customer, Instance, SolveOptions, VehicleSpec, solve};
-use broodcast::dispatch::{DispatchOptions, dispatch, dispatch_with};
+use broodcast::dispatch::{DispatchOptions, RouteCache, dispatch, dispatch_cached, dispatch_with};
 use broodcast::scenario::{Scenario, SiteKind, fixture};
 use broodcast::travel::{Place, TravelModel, TravelTimes};
 use chrono::{Datelike, NaiveDateTime};
@@ -461,6 +461,7 @@ fn fixture_dispatch_respects_window_deadline_shift_capacity_and_parcel_days() {
         seed: 1,
         time_limit: None,
         max_iterations: 200,
+        stall_rounds: u32::MAX,
     };
     let d = dispatch_with(&s, &alloc, &travel, &opts);
     check_dispatch(&s, &alloc, &travel, &d);
@@ -630,6 +631,43 @@ fn fixture_dispatch_is_deterministic() {
 }
 
 #[test]
+fn cached_depot_days_route_exactly_as_a_new_search() {
+    let s = fixture::tiny();
+    let alloc = fixture_allocation(&s);
+    let travel = TravelModel::new(&s);
+    let opts = DispatchOptions {
+        seed: 3,
+        time_limit: None,
+        max_iterations: 200,
+        stall_rounds: u32::MAX,
+    };
+    let cache = RouteCache::new();
+    let first = dispatch_cached(&s, &alloc, &travel, &opts, &cache);
+    let held = cache.len();
+    assert!(
+        held >= 2,
+        "the fixture routes several depot-days, got {held}"
+    );
+    // The same allocation again: every depot-day comes from the cache.
+    let again = dispatch_cached(&s, &alloc, &travel, &opts, &cache);
+    assert_eq!(format!("{first:?}"), format!("{again:?}"));
+    assert_eq!(cache.len(), held);
+    // One route shipment fewer (and shipment indices shifted): only its depot-day is new,
+    // and the whole dispatch equals a search without the cache.
+    let mut fewer = alloc.clone();
+    let drop = fewer
+        .shipments
+        .iter()
+        .position(|sh| sh.arc.mode == Mode::Route)
+        .expect("fixture has route shipments");
+    fewer.shipments.remove(drop);
+    let cached = dispatch_cached(&s, &fewer, &travel, &opts, &cache);
+    let fresh = dispatch_with(&s, &fewer, &travel, &opts);
+    assert_eq!(format!("{cached:?}"), format!("{fresh:?}"));
+    assert_eq!(cache.len(), held + 1);
+}
+
+#[test]
 fn random_allocations_on_the_fixture_dispatch_within_every_limit() {
     // Property-style: seeded random allocations (many more vials than the vans hold, tight
     // and loose release-by times) must still give only feasible routes and full accounting.
@@ -678,6 +716,7 @@ fn random_allocations_on_the_fixture_dispatch_within_every_limit() {
             seed: round,
             time_limit: None,
             max_iterations: 50,
+            stall_rounds: u32::MAX,
         };
         let d = dispatch_with(&s, &alloc, &travel, &opts);
         check_dispatch(&s, &alloc, &travel, &d);

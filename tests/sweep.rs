@@ -18,6 +18,7 @@ fn spec(supply: &str, without: &[&str]) -> SweepSpec {
         without: without.iter().map(|s| s.to_string()).collect(),
         settings: Vec::new(),
         saturation_fraction: 0.25,
+        full_routes: false,
     }
 }
 

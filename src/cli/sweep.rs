@@ -32,6 +32,10 @@ pub(crate) struct Args {
     /// share of the 1× value.
     #[arg(long, default_value_t = 0.25)]
     saturation: f64,
+    /// Search every variant's routes as long as `plan` does (default: a variant with m > 1
+    /// times the supply searches 1/⌈m⌉ of the rounds per depot-day).
+    #[arg(long)]
+    full_routes: bool,
     /// Output folder, replaced as a whole only once every file is ready.
     #[arg(long, default_value = "sweep-out")]
     out: PathBuf,
@@ -113,6 +117,7 @@ pub(crate) fn run(args: Args) -> CliResult {
         without: args.without.clone(),
         settings,
         saturation_fraction: args.saturation,
+        full_routes: args.full_routes,
     };
     let n = sweep::normalize_multipliers(spec.supply.clone()).len();
     let bar = if std::io::stderr().is_terminal() {

@@ -3,6 +3,7 @@
 //! daily parcel cap and the vials' release-by times.
 
 use std::collections::BTreeMap;
+use std::sync::Mutex;
 use std::time::Duration;
 
 use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime};
@@ -25,6 +26,8 @@ pub struct DispatchOptions {
     pub time_limit: Option<Duration>,
     /// Most perturbation rounds per depot-day.
     pub max_iterations: u32,
+    /// A depot-day's search stops after this many rounds in a row without a new best.
+    pub stall_rounds: u32,
 }
 
 impl DispatchOptions {
@@ -36,7 +39,52 @@ impl DispatchOptions {
             time_limit: (secs.is_finite() && secs > 0.0)
                 .then(|| Duration::from_secs_f64(secs.min(86_400.0))),
             max_iterations: SolveOptions::default().max_iterations,
+            stall_rounds: SolveOptions::default().stall_rounds,
         }
+    }
+}
+
+/// Depot-day route solutions already found, so that routing a changed allocation of the same
+/// week (the route feedback round of `plan`) searches again only the depot-days whose stops
+/// changed. Reuse gives what a new search would: a depot-day's routes depend only on its
+/// instance and search settings (unless a time limit binds).
+#[derive(Debug, Default)]
+pub struct RouteCache {
+    solved: Mutex<Vec<(SolveOptions, Instance, vrptw::Solution)>>,
+}
+
+impl RouteCache {
+    /// An empty cache.
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Depot-days held.
+    pub fn len(&self) -> usize {
+        self.solved.lock().map(|s| s.len()).unwrap_or(0)
+    }
+
+    /// Whether no depot-day is held.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The stored solution of `inst` under `opts`, or a new search (then stored). O(size of
+    /// the instances held) to look up.
+    fn solve(&self, inst: &Instance, opts: &SolveOptions) -> vrptw::Solution {
+        let found = self.solved.lock().ok().and_then(|s| {
+            s.iter()
+                .find(|(o, i, _)| o == opts && i == inst)
+                .map(|(_, _, sol)| sol.clone())
+        });
+        if let Some(sol) = found {
+            return sol;
+        }
+        let sol = vrptw::solve(inst, opts);
+        if let Ok(mut s) = self.solved.lock() {
+            s.push((opts.clone(), inst.clone(), sol.clone()));
+        }
+        sol
     }
 }
 
@@ -47,11 +95,12 @@ pub fn dispatch(
     allocation: &Allocation,
     travel: &(impl TravelTimes + Sync),
 ) -> Dispatch {
-    dispatch_with(
+    dispatch_cached(
         scenario,
         allocation,
         travel,
         &DispatchOptions::from_scenario(scenario),
+        &RouteCache::new(),
     )
 }
 
@@ -74,6 +123,19 @@ pub fn dispatch_with(
     allocation: &Allocation,
     travel: &(impl TravelTimes + Sync),
     opts: &DispatchOptions,
+) -> Dispatch {
+    dispatch_cached(scenario, allocation, travel, opts, &RouteCache::new())
+}
+
+/// As [`dispatch_with`], taking a depot-day's routes from `cache` when the same depot-day
+/// (same stops, windows, vials, fleet and settings) was routed before, and storing the new
+/// ones. The result is the same as without the cache.
+pub fn dispatch_cached(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &(impl TravelTimes + Sync),
+    opts: &DispatchOptions,
+    cache: &RouteCache,
 ) -> Dispatch {
     let mut out = Dispatch::default();
     let mut groups: BTreeMap<(FacilityIdx, NaiveDate), BTreeMap<SiteIdx, Vec<usize>>> =
@@ -98,7 +160,7 @@ pub fn dispatch_with(
         .map(|((facility, date), visits)| {
             let mut part = Dispatch::default();
             route_depot_day(
-                scenario, allocation, travel, opts, *facility, *date, visits, &mut part,
+                scenario, allocation, travel, opts, cache, *facility, *date, visits, &mut part,
             );
             part
         })
@@ -140,13 +202,14 @@ fn hours_between(from: NaiveDateTime, to: NaiveDateTime) -> f64 {
 
 #[expect(
     clippy::too_many_arguments,
-    reason = "one depot-day needs the scenario, the plan, travel, settings, its key, its visits and the output"
+    reason = "one depot-day needs the scenario, the plan, travel, settings, the cache, its key, its visits and the output"
 )]
 fn route_depot_day(
     scenario: &Scenario,
     allocation: &Allocation,
     travel: &(impl TravelTimes + Sync),
     opts: &DispatchOptions,
+    cache: &RouteCache,
     facility: FacilityIdx,
     date: NaiveDate,
     visits: &BTreeMap<SiteIdx, Vec<usize>>,
@@ -217,12 +280,13 @@ fn route_depot_day(
     let seed = opts.seed
         ^ (facility as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
         ^ (date.num_days_from_ce() as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    let sol = vrptw::solve(
+    let sol = cache.solve(
         &inst,
         &SolveOptions {
             seed,
             time_limit: opts.time_limit,
             max_iterations: opts.max_iterations,
+            stall_rounds: opts.stall_rounds,
             ..SolveOptions::default()
         },
     );
@@ -379,6 +443,7 @@ mod tests {
             seed: 1,
             time_limit: None,
             max_iterations: 100,
+            stall_rounds: u32::MAX,
         }
     }
 

@@ -94,4 +94,4 @@ mod build;
 pub mod tsp;
 pub mod vrptw;
 
-pub use build::{DispatchOptions, dispatch, dispatch_with};
+pub use build::{DispatchOptions, RouteCache, dispatch, dispatch_cached, dispatch_with};
