@@ -17,14 +17,20 @@ fn row(label: &str, s: &Scenario) {
     let priority = plan::priorities(s, &Default::default());
     let a = arcs::build_arcs(s, &travel);
     let t = Instant::now();
-    let al = allocate(s, &priority, &a, &AllocOptions::default()).expect("allocates");
+    let opts = AllocOptions {
+        pricing: std::env::var_os("NO_PRICING").is_none(),
+        ..AllocOptions::default()
+    };
+    let al = allocate(s, &priority, &a, &opts).expect("allocates");
     let secs = t.elapsed().as_secs_f64();
     let shipped: u32 = al.shipments.iter().map(|x| x.vials).sum();
     println!(
-        "| {label} | {} | {shipped} | {secs:.3} | {:.1} | {:.1} | {:.3} % |",
+        "| {label} | {} | {shipped} | {secs:.3} | {:.1} | {:.1} | {:.1} | {:.3} % | {:.3} % |",
         s.sites.len(),
         al.objective,
         al.lp_bound,
+        al.bound,
+        100.0 * (1.0 - al.objective / al.lp_bound),
         100.0 * al.gap
     );
 }
@@ -39,8 +45,10 @@ fn main() {
     } else {
         sizes
     };
-    println!("| scenario | sites | shipped vials | allocate s | objective | LP bound | gap |");
-    println!("|---|---:|---:|---:|---:|---:|---:|");
+    println!(
+        "| scenario | sites | shipped vials | allocate s | objective | LP bound | whole-vial bound | gap to LP | gap |"
+    );
+    println!("|---|---:|---:|---:|---:|---:|---:|---:|---:|");
     let demo = scenario::load_embedded_demo().expect("demo loads");
     for m in ["0.25", "0.5", "1", "2", "4"] {
         let mult = Multiplier::parse(m).expect("multiplier");
@@ -48,6 +56,15 @@ fn main() {
             &format!("demo {m}×"),
             &scale_supply(&demo, &mult).expect("scales"),
         );
+    }
+    // Extra folders: BENCH_DIRS=dir1:dir2 (e.g. the state-scale week from `generate`).
+    for d in std::env::var("BENCH_DIRS")
+        .unwrap_or_default()
+        .split(':')
+        .filter(|d| !d.is_empty())
+    {
+        let s = scenario::load_dir(std::path::Path::new(d)).expect("folder loads");
+        row(d, &s);
     }
     for n in sizes {
         let files = generate(&GenParams::sized(n, 1));

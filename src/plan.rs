@@ -183,8 +183,8 @@ fn drop_undeliverable(
     }
     allocation.objective =
         allocate::plan_objective(scenario, priority, arcs, opts, &allocation.shipments)?;
-    allocation.gap = if allocation.lp_bound > 0.0 {
-        1.0 - allocation.objective / allocation.lp_bound
+    allocation.gap = if allocation.bound > 0.0 {
+        1.0 - allocation.objective / allocation.bound
     } else {
         0.0
     };

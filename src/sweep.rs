@@ -534,7 +534,9 @@ pub struct VariantResult {
     pub lp_bound: f64,
     /// The whole-vial plan's objective (same units).
     pub objective: f64,
-    /// 1 − objective / lp_bound.
+    /// Whole-vial upper bound (≤ `lp_bound`, see [`crate::allocate::Allocation::bound`]).
+    pub bound: f64,
+    /// 1 − objective / bound.
     pub gap: f64,
     /// Vials packed over the week after scaling, all facilities.
     pub supply_vials: u64,
@@ -713,6 +715,7 @@ fn variant_result(name: String, m: Multiplier, p: &Plan) -> Result<VariantResult
         name,
         multiplier: m,
         lp_bound: al.lp_bound,
+        bound: al.bound,
         objective: al.objective,
         gap: al.gap,
         supply_vials,
@@ -918,6 +921,7 @@ mod tests {
             name: format!("x{m}"),
             multiplier: Multiplier::parse(m).unwrap(),
             lp_bound: 0.0,
+            bound: 0.0,
             objective: 0.0,
             gap: 0.0,
             supply_vials: 0,

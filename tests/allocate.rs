@@ -279,9 +279,10 @@ fn brute_force(s: &Scenario, p: &[f64], arcs: &Arcs) -> f64 {
 }
 
 #[test]
-fn whole_vial_plan_is_between_brute_force_and_lp_bound_on_tiny_instances() {
+fn whole_vial_plan_is_between_brute_force_and_both_bounds_on_tiny_instances() {
     let mut worst = 0.0f64;
     let mut tested = 0;
+    let mut tighter = 0;
     for seed in 0..40u64 {
         let (s, p, arcs) = tiny_instance(seed, 3 + (seed % 3) as usize);
         let states: f64 = arcs
@@ -310,13 +311,24 @@ fn whole_vial_plan_is_between_brute_force_and_lp_bound_on_tiny_instances() {
             "seed {seed}: brute {best} > lp {}",
             alloc.lp_bound
         );
+        // The whole-vial (Lagrangian) bound is still a bound, and never above the LP's.
+        assert!(
+            best <= alloc.bound + 1e-6 * best.abs().max(1.0),
+            "seed {seed}: brute {best} > whole-vial bound {}",
+            alloc.bound
+        );
+        assert!(alloc.bound <= alloc.lp_bound + 1e-9 * alloc.lp_bound.abs().max(1.0));
+        if alloc.bound < alloc.lp_bound - 1e-6 * alloc.lp_bound.abs().max(1.0) {
+            tighter += 1;
+        }
         if best > 0.0 {
             worst = worst.max(1.0 - alloc.objective / best);
         }
         tested += 1;
     }
     eprintln!(
-        "{tested} tiny instances; worst shortfall of rounding vs brute-force optimum: {:.2} %",
+        "{tested} tiny instances; worst shortfall of rounding vs brute-force optimum: {:.2} %; \
+         whole-vial bound below the LP bound on {tighter}",
         worst * 100.0
     );
     assert!(tested >= 20);

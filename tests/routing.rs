@@ -440,6 +440,7 @@ fn fixture_allocation(s: &Scenario) -> Allocation {
         shipments,
         sites: Vec::new(),
         lp_bound: 0.0,
+        bound: 0.0,
         objective: 0.0,
         gap: 0.0,
         marginal_value_per_vial: Vec::new(),

@@ -66,7 +66,12 @@ pub struct Allocation {
     pub lp_bound: f64,
     /// The whole-vial plan's objective under the same function.
     pub objective: f64,
-    /// `1 - objective / lp_bound` (0 when `lp_bound` is 0).
+    /// Upper bound on any whole-vial plan's objective: the smaller of `lp_bound` and the
+    /// Lagrangian bound of the LP's duals with whole-vial site subproblems (`docs/model.md`,
+    /// "Bounds"). At most `lp_bound`.
+    pub bound: f64,
+    /// `1 - objective / bound` (0 when `bound` is 0): how far the plan can be from the best
+    /// whole-vial plan, at most.
     pub gap: f64,
     /// Objective gained per extra vial at each facility (indexed by `FacilityIdx`), from the
     /// supply-row duals (the best day of the week).
@@ -80,6 +85,7 @@ pub struct Allocation {
 pub mod model;
 pub mod mps;
 
+mod bound;
 mod lp;
 mod rounding;
 
@@ -235,7 +241,7 @@ pub fn allocate(
     let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
     let mut notes = inst.notes.clone();
     let n = scenario.sites.len();
-    let (x, lp_bound, marginal, binding) = if inst.arcs.is_empty() {
+    let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
         notes.push(if scenario.total_supply_vials() == 0 {
             "no vials are packed this week: nothing to allocate".to_string()
         } else {
@@ -244,6 +250,7 @@ pub fn allocate(
         });
         (
             Vec::new(),
+            0.0,
             0.0,
             vec![0.0; scenario.facilities.len()],
             Vec::new(),
@@ -342,7 +349,9 @@ pub fn allocate(
             })
             .collect();
         let x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
-        (x, sol.objective, marginal, binding)
+        let bound =
+            bound::whole_vial_bound(&inst, &relax.res_dual, relax.share_dual).min(sol.objective);
+        (x, sol.objective, bound, marginal, binding)
     };
     let mut shipments: Vec<Shipment> = x
         .iter()
@@ -406,8 +415,8 @@ pub fn allocate(
              limits, vehicle and parcel capacity, shelf life and the dooryard share"
         ));
     }
-    let gap = if lp_bound.abs() > 1e-12 {
-        (1.0 - objective / lp_bound).max(0.0)
+    let gap = if bound.abs() > 1e-12 {
+        (1.0 - objective / bound).max(0.0)
     } else {
         0.0
     };
@@ -415,6 +424,7 @@ pub fn allocate(
         shipments,
         sites,
         lp_bound,
+        bound,
         objective,
         gap,
         marginal_value_per_vial: marginal,

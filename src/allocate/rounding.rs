@@ -31,6 +31,10 @@ const EPS: f64 = 1e-9;
 /// A growth move at one site: (objective gain per vial, arc, vials).
 type Growth = (f64, usize, u32);
 
+/// A single-vial move: (gain, receiving arc, optional reroute (from, to) of one vial of a
+/// third site that makes room on the receiving arc's full row).
+type VialMove = (f64, usize, Option<(usize, usize)>);
+
 /// Integer plan under construction, with running totals so a move is checked in O(arcs it
 /// touches).
 pub(crate) struct State<'i, 'a> {
@@ -544,7 +548,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 continue;
             }
             let sa = inst.arc_site[a];
-            let mut best: Option<(f64, usize)> = None;
+            let mut best: Option<VialMove> = None;
             for &b in &inst.sites[sa].arcs {
                 if b == a {
                     continue;
@@ -553,13 +557,14 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     && g > 1e-9
                     && best.is_none_or(|x| g > x.0)
                 {
-                    best = Some((g, b));
+                    best = Some((g, b, None));
                 }
             }
             let (da, a_ok) = st.remove_one_gain(a);
             if a_ok {
                 let ra = inst.arc_res[a];
                 let door_a = f64::from(u8::from(inst.sites[sa].kind == SiteKind::Dooryard));
+                let mut chains = 0;
                 for &(_, i) in &recv {
                     st.work += 2;
                     let b = cand_arcs[i];
@@ -571,21 +576,63 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     if sb == sa {
                         continue;
                     }
-                    let fits = inst.arc_res[b].iter().all(|&r| {
-                        let freed = if ra.contains(&r) { 1.0 } else { 0.0 };
-                        st.used[r] - freed + 1.0 <= inst.res_rhs[r] + 1e-7
-                    });
+                    let full: Vec<usize> = inst.arc_res[b]
+                        .iter()
+                        .copied()
+                        .filter(|&r| {
+                            let freed = if ra.contains(&r) { 1.0 } else { 0.0 };
+                            st.used[r] - freed + 1.0 > inst.res_rhs[r] + 1e-7
+                        })
+                        .collect();
                     let door_b = f64::from(u8::from(inst.sites[sb].kind == SiteKind::Dooryard));
-                    if fits && st.share_ok_at(st.door - door_a + door_b, st.total) {
-                        best = Some((g, b));
-                        break;
+                    if full.is_empty() {
+                        if st.share_ok_at(st.door - door_a + door_b, st.total) {
+                            best = Some((g, b, None));
+                            break;
+                        }
+                        continue;
+                    }
+                    // The recipient's supply or vehicle row is full: make room by moving
+                    // one vial of a third site off that row onto another of its arcs (an
+                    // ejection chain of length two).
+                    if full.len() > 1 || chains >= MAX_CHAINS_PER_DONOR {
+                        continue;
+                    }
+                    chains += 1;
+                    let r = full[0];
+                    let mut tried = 0;
+                    for &c in &res_arcs[r] {
+                        if tried >= MAX_REROUTES_PER_CHAIN {
+                            break;
+                        }
+                        let sc = inst.arc_site[c];
+                        if st.x[c] == 0 || sc == sa || sc == sb {
+                            continue;
+                        }
+                        tried += 1;
+                        for &c2 in &inst.sites[sc].arcs {
+                            if c2 == c || inst.arc_res[c2].contains(&r) {
+                                continue;
+                            }
+                            if let Some(gc) = st.try_moves(&[(a, -1), (b, 1), (c, -1), (c2, 1)])
+                                && gc > 1e-9
+                                && best.is_none_or(|x| gc > x.0)
+                            {
+                                best = Some((gc, b, Some((c, c2))));
+                            }
+                        }
                     }
                 }
             }
-            if let Some((_, b)) = best {
+            if let Some((_, b, chain)) = best {
                 st.commit(&[(a, -1), (b, 1)]);
+                let mut touched = vec![sa, inst.arc_site[b]];
+                if let Some((c, c2)) = chain {
+                    st.commit(&[(c, -1), (c2, 1)]);
+                    touched.push(inst.arc_site[c]);
+                }
                 improved = true;
-                for s2 in [sa, inst.arc_site[b]] {
+                for s2 in touched {
                     for &c in &inst.sites[s2].arcs {
                         let i = cand_pos[c];
                         if let Some(g) = recv_gain[i].take() {
@@ -724,6 +771,12 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
 /// Largest candidate arc count for the microlp polish (DESIGN.md: microlp's branch and bound
 /// is only reliable on small models).
 const MIP_POLISH_MAX_ARCS: usize = 60;
+
+/// Blocked recipients per donor for which the single-vial search tries an ejection chain.
+const MAX_CHAINS_PER_DONOR: usize = 8;
+
+/// Third-site vials tried per ejection chain.
+const MAX_REROUTES_PER_CHAIN: usize = 16;
 
 /// The whole-vial problem over `cand` sites as a MIP (integer vials, a 0/1 serve flag per
 /// site), solved by microlp with a 1e-4 relative gap and a 5 s safety limit. Returns vials

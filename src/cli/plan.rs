@@ -60,7 +60,7 @@ pub(crate) fn run(args: Args) -> CliResult {
     let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
     let mut text = format!(
         "planned '{}' (week of {}): {} of {} vials shipped, {} routes, {} parcels\n\
-         objective {:.1}, LP bound {:.1}, gap {:.2} %\n",
+         objective {:.1}, whole-vial bound {:.1} (LP bound {:.1}), gap {:.2} %\n",
         p.scenario.name,
         p.scenario.week_start,
         shipped,
@@ -68,6 +68,7 @@ pub(crate) fn run(args: Args) -> CliResult {
         p.dispatch.routes.len(),
         p.dispatch.parcels.len(),
         a.objective,
+        a.bound,
         a.lp_bound,
         a.gap * 100.0,
     );

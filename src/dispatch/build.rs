@@ -430,6 +430,7 @@ mod tests {
             shipments,
             sites: Vec::new(),
             lp_bound: 0.0,
+            bound: 0.0,
             objective: 0.0,
             gap: 0.0,
             marginal_value_per_vial: Vec::new(),

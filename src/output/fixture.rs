@@ -175,6 +175,7 @@ pub fn tiny_plan() -> TinyPlan {
         shipments,
         sites,
         lp_bound: 1000.0,
+        bound: 1000.0,
         objective: 950.0,
         gap: 0.05,
         marginal_value_per_vial: vec![12.5, 8.0],

@@ -99,8 +99,9 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         (
             format!("{} %", fixed(100.0 * al.gap, 2)),
             format!(
-                "gap to LP bound (objective {} of {})",
+                "gap to the whole-vial bound (objective {} of {}; LP bound {})",
                 fixed(al.objective, 1),
+                fixed(al.bound, 1),
                 fixed(al.lp_bound, 1)
             ),
         ),
@@ -513,7 +514,7 @@ mod tests {
         for needle in [
             "16 / 60",
             "vials shipped of supply (27 %)",
-            "gap to LP bound",
+            "gap to the whole-vial bound",
             "Why sites got nothing",
             "undeliverable",
             "supply_F1_2027-03-02",

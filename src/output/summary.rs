@@ -22,7 +22,10 @@ struct Summary<'a> {
     objective: f64,
     /// LP relaxation optimum, an upper bound on `objective`.
     lp_bound: f64,
-    /// 1 − objective / lp_bound.
+    /// Whole-vial upper bound on `objective` (≤ `lp_bound`): the LP duals' Lagrangian bound
+    /// with whole-vial site subproblems.
+    bound: f64,
+    /// 1 − objective / bound.
     gap: f64,
     supply_vials: u64,
     allocated_vials: u64,
@@ -64,6 +67,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         week_start: sc.week_start.to_string(),
         objective: round_to(al.objective, 6),
         lp_bound: round_to(al.lp_bound, 6),
+        bound: round_to(al.bound, 6),
         gap: round_to(al.gap, 6),
         supply_vials: sc.total_supply_vials(),
         allocated_vials: al.shipments.iter().map(|s| u64::from(s.vials)).sum(),

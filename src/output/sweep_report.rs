@@ -16,7 +16,7 @@ use crate::scenario::SiteKind;
 use crate::sweep::{Sweep, VariantResult, constraint_kind, is_shared_kind};
 
 /// The `sweep.csv` header, in column order.
-pub const SWEEP_COLUMNS: [&str; 12] = [
+pub const SWEEP_COLUMNS: [&str; 13] = [
     "variant",
     "supply_multiplier",
     "lp_bound",
@@ -29,6 +29,7 @@ pub const SWEEP_COLUMNS: [&str; 12] = [
     "wasps_expected_alive",
     "marginal_value_per_vial",
     "blocks_served",
+    "bound",
 ];
 
 /// Delivered totals of one plan, as `summary.json` counts them.
@@ -114,6 +115,7 @@ fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
             &fixed(v.wasps_expected_alive, 1),
             &fixed(v.marginal_value_per_vial, 6),
             &v.blocks_served.to_string(),
+            &fixed(v.bound, 3),
         ])?;
     }
     w.into_inner()
@@ -398,6 +400,7 @@ mod tests {
             name: format!("x{m}"),
             multiplier: Multiplier::parse(m).unwrap(),
             lp_bound: lp,
+            bound: lp,
             objective: lp * 0.99,
             gap: 0.01,
             supply_vials: 100,
