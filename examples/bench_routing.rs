@@ -295,6 +295,7 @@ fn synthetic_depot_day(opts: &DispatchOptions) -> Row {
         marginal_value_per_vial: Vec::new(),
         binding: Vec::new(),
         notes: Vec::new(),
+        working_set: Vec::new(),
     };
     let travel = TravelModel::new(&s);
     let t = Instant::now();

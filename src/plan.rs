@@ -120,6 +120,7 @@ pub fn plan_with(
         ));
     }
     alloc_opts.excluded.extend(removed);
+    alloc_opts.warm_start = first.working_set.iter().copied().collect();
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     let second_dispatch = route(&second);
     let (allocation, dispatch) = if second_dispatch.undeliverable.is_empty() {

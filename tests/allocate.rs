@@ -382,6 +382,42 @@ fn pricing_reaches_the_full_pool_optimum() {
     assert!(rel < 1e-6, "{} vs {}", with.lp_bound, without.lp_bound);
 }
 
+#[test]
+fn a_warm_started_resolve_reaches_the_same_optimum() {
+    // As plan's route feedback does: drop a few served arcs, solve again from the first
+    // solve's working set.
+    let (s, p, arcs) = synthetic::generate(11, 2000, 400);
+    let first = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
+    let excluded: std::collections::BTreeSet<_> = first
+        .shipments
+        .iter()
+        .take(3)
+        .map(|sh| {
+            (
+                sh.arc.facility,
+                sh.arc.dispatch_date,
+                sh.arc.site,
+                sh.arc.mode,
+            )
+        })
+        .collect();
+    assert!(!first.working_set.is_empty());
+    let cold = AllocOptions {
+        excluded,
+        ..Default::default()
+    };
+    let warm = AllocOptions {
+        warm_start: first.working_set.iter().copied().collect(),
+        ..cold.clone()
+    };
+    let a = allocate(&s, &p, &arcs, &cold).expect("valid");
+    let b = allocate(&s, &p, &arcs, &warm).expect("valid");
+    let rel = (a.lp_bound - b.lp_bound).abs() / a.lp_bound;
+    assert!(rel < 1e-6, "cold {} vs warm {}", a.lp_bound, b.lp_bound);
+    assert!(b.lp_bound <= first.lp_bound * (1.0 + 1e-9));
+    assert!(b.gap <= 0.01, "gap {}", b.gap);
+}
+
 fn check_invariants(s: &Scenario, arcs: &Arcs, a: &Allocation) {
     let mut supply: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
     let mut depot: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();

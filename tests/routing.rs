@@ -446,6 +446,7 @@ fn fixture_allocation(s: &Scenario) -> Allocation {
         marginal_value_per_vial: Vec::new(),
         binding: Vec::new(),
         notes: Vec::new(),
+        working_set: Vec::new(),
     }
 }
 

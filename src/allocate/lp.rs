@@ -53,6 +53,8 @@ pub(crate) struct Instance<'a> {
     pub scenario: &'a Scenario,
     /// Usable arcs, in `Arcs` order.
     pub arcs: Vec<&'a Arc>,
+    /// Index into `Arcs::arcs` of each usable arc.
+    pub source: Vec<usize>,
     /// Travel cost per vial on each usable arc, objective units.
     pub cost: Vec<f64>,
     /// Resource indices each usable arc draws one vial from: supply, then capacity or parcel.
@@ -164,10 +166,11 @@ impl<'a> Instance<'a> {
             })
         };
         let mut usable: Vec<&Arc> = Vec::new();
+        let mut source: Vec<usize> = Vec::new();
         let mut arc_res = Vec::new();
         let mut cost = Vec::new();
         let (mut excluded, mut dead, mut no_resource) = (0usize, 0usize, 0usize);
-        for a in &arcs.arcs {
+        for (i, a) in arcs.arcs.iter().enumerate() {
             if a.site >= n || a.facility >= scenario.facilities.len() {
                 return Err(AllocError::ArcsMismatch {
                     scenario: scenario.name.clone(),
@@ -224,6 +227,7 @@ impl<'a> Instance<'a> {
             arc_res.push([r0, r1]);
             cost.push(policy.travel_cost_per_hour * a.drive_minutes.max(0.0) / 60.0);
             usable.push(a);
+            source.push(i);
         }
         if excluded > 0 {
             notes.push(format!(
@@ -303,6 +307,7 @@ impl<'a> Instance<'a> {
         Ok(Instance {
             scenario,
             arcs: usable,
+            source,
             cost,
             arc_res,
             resources,
@@ -510,6 +515,8 @@ pub(crate) struct Relaxation {
     pub rounds: usize,
     /// Arc columns in the final working set.
     pub columns: usize,
+    /// The final working set, as indices into `Arcs::arcs`, ascending.
+    pub working_set: Vec<usize>,
 }
 
 /// Reduced cost of arc `a` of a site outside the working set, per vial: the first wasps are
@@ -717,6 +724,13 @@ pub(crate) fn solve_relaxation(
     } else {
         vec![true; na]
     };
+    // A previous solve's working set (e.g. before the route feedback removed a few arcs)
+    // starts this one close to its end: fewer pricing rounds, the same optimum.
+    for (inn, src) in arc_in.iter_mut().zip(&inst.source) {
+        if opts.warm_start.contains(src) {
+            *inn = true;
+        }
+    }
     let scale = inst
         .sites
         .iter()
@@ -756,7 +770,15 @@ pub(crate) fn solve_relaxation(
                 .collect();
             let in_set = built.site_rows.iter().map(Option::is_some).collect();
             let columns = arc_in.iter().filter(|b| **b).count();
+            let working_set = inst
+                .source
+                .iter()
+                .zip(&arc_in)
+                .filter(|(_, inn)| **inn)
+                .map(|(&s, _)| s)
+                .collect();
             return Ok(Relaxation {
+                working_set,
                 built,
                 solution,
                 x,

@@ -80,6 +80,9 @@ pub struct Allocation {
     pub binding: Vec<Binding>,
     /// Human-readable notes (e.g. "dooryard share 0.30 cannot be met: ...").
     pub notes: Vec<String>,
+    /// The LP's final working set, as indices into `Arcs::arcs` (see
+    /// [`AllocOptions::warm_start`]).
+    pub working_set: Vec<usize>,
 }
 
 pub mod model;
@@ -111,6 +114,10 @@ pub struct AllocOptions {
     /// Most rounding moves evaluated (default 20 million): a work budget, not a time limit,
     /// so the plan does not depend on machine speed.
     pub rounding_budget: u64,
+    /// Arcs (indices into `Arcs::arcs`) to put in the LP's first working set besides the
+    /// usual choice, e.g. [`Allocation::working_set`] of an earlier solve of the same week.
+    /// Pricing still certifies the bound over every arc, so the optimum is the same.
+    pub warm_start: BTreeSet<usize>,
 }
 
 impl Default for AllocOptions {
@@ -119,6 +126,7 @@ impl Default for AllocOptions {
             excluded: BTreeSet::new(),
             pricing: true,
             rounding_budget: 20_000_000,
+            warm_start: BTreeSet::new(),
         }
     }
 }
@@ -241,6 +249,7 @@ pub fn allocate(
     let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
     let mut notes = inst.notes.clone();
     let n = scenario.sites.len();
+    let mut working_set = Vec::new();
     let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
         notes.push(if scenario.total_supply_vials() == 0 {
             "no vials are packed this week: nothing to allocate".to_string()
@@ -351,6 +360,7 @@ pub fn allocate(
         let x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
         let bound =
             bound::whole_vial_bound(&inst, &relax.res_dual, relax.share_dual).min(sol.objective);
+        working_set = relax.working_set.clone();
         (x, sol.objective, bound, marginal, binding)
     };
     let mut shipments: Vec<Shipment> = x
@@ -430,6 +440,7 @@ pub fn allocate(
         marginal_value_per_vial: marginal,
         binding,
         notes,
+        working_set,
     })
 }
 

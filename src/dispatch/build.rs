@@ -436,6 +436,7 @@ mod tests {
             marginal_value_per_vial: Vec::new(),
             binding: Vec::new(),
             notes: Vec::new(),
+            working_set: Vec::new(),
         }
     }
 

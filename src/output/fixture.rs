@@ -190,6 +190,7 @@ pub fn tiny_plan() -> TinyPlan {
             },
         ],
         notes: vec!["dooryard share 0.10 met: 6 of 19 vials".into()],
+        working_set: Vec::new(),
     };
     let dispatch = Dispatch {
         routes,
