@@ -1,4 +1,5 @@
-//! The allocation: an LP relaxation over the candidate arcs (good_lp, clarabel backend),
+//! The allocation: an LP relaxation over the candidate arcs (good_lp; clarabel backend, or
+//! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
 //! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`.
 
 use serde::Serialize;
@@ -83,6 +84,8 @@ pub mod mps;
 mod lp;
 mod rounding;
 
+pub use model::Solver;
+
 use std::collections::BTreeSet;
 
 use chrono::NaiveDate;
@@ -105,6 +108,10 @@ pub struct AllocOptions {
     /// Most rounding moves evaluated (default 20 million): a work budget, not a time limit,
     /// so the plan does not depend on machine speed.
     pub rounding_budget: u64,
+    /// Solver of the LP relaxation (default clarabel; HiGHS with the `highs` feature). Both
+    /// reach the same bound; the LP solution, and so the rounded plan, may differ (HiGHS
+    /// returns a vertex, clarabel a point inside the optimal face).
+    pub solver: model::Solver,
 }
 
 impl Default for AllocOptions {
@@ -113,6 +120,7 @@ impl Default for AllocOptions {
             excluded: BTreeSet::new(),
             pricing: true,
             rounding_budget: 20_000_000,
+            solver: model::Solver::default(),
         }
     }
 }
@@ -221,7 +229,7 @@ pub fn export_mps(
     Ok(mps::write_mps(&built.model))
 }
 
-/// Plans the week in whole vials: LP relaxation (clarabel) with working-set pricing, then
+/// Plans the week in whole vials: LP relaxation (`opts.solver`) with working-set pricing, then
 /// rounding and repair (see `docs/model.md`).
 ///
 /// Complexity: each LP round is an interior-point solve over the working set (roughly
