@@ -1,14 +1,37 @@
 //! Times each stage of `plan` on a scenario folder (default: the built-in demo).
-//! `cargo run --release --example stage_times -- [DIR]`
+//! `cargo run --release --example stage_times -- [DIR] [--solver clarabel|highs]` (`highs`
+//! needs `--features highs`; default clarabel).
 use std::time::Instant;
 
-use broodcast::allocate::{self, AllocOptions};
+use broodcast::allocate::{self, AllocOptions, Solver};
 use broodcast::travel::TravelModel;
 use broodcast::{arcs, dispatch, output, plan, scenario};
 
+fn solver(name: &str) -> Solver {
+    match name {
+        "clarabel" => Solver::Clarabel,
+        #[cfg(feature = "highs")]
+        "highs" => Solver::Highs,
+        other => {
+            eprintln!("unknown or unavailable solver `{other}` (highs needs --features highs)");
+            std::process::exit(2);
+        }
+    }
+}
+
 fn main() {
+    let mut dir = None;
+    let mut opts = AllocOptions::default();
+    let mut args = std::env::args().skip(1);
+    while let Some(a) = args.next() {
+        if a == "--solver" {
+            opts.solver = solver(&args.next().unwrap_or_default());
+        } else {
+            dir = Some(a);
+        }
+    }
     let t = Instant::now();
-    let s = match std::env::args().nth(1) {
+    let s = match dir {
         Some(d) => scenario::load_dir(std::path::Path::new(&d)),
         None => scenario::load_embedded_demo(),
     }
@@ -22,7 +45,7 @@ fn main() {
     let a = arcs::build_arcs(&s, &travel);
     let arcs_t = t.elapsed();
     let t = Instant::now();
-    let al = allocate::allocate(&s, &pr, &a, &AllocOptions::default()).expect("allocates");
+    let al = allocate::allocate(&s, &pr, &a, &opts).expect("allocates");
     let alloc_t = t.elapsed();
     let t = Instant::now();
     let d = dispatch::dispatch(&s, &al, &travel);
@@ -46,6 +69,13 @@ fn main() {
         d.routes.iter().map(|r| r.drive_minutes).sum::<f64>(),
         d.undeliverable.len(),
         files.len()
+    );
+    println!(
+        "solver {} LP bound {:.1} objective {:.1} gap {:.3} %",
+        opts.solver.name(),
+        al.lp_bound,
+        al.objective,
+        al.gap * 100.0
     );
     for (name, d) in [
         ("load", load),
