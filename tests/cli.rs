@@ -123,6 +123,37 @@ fn demo_refuses_to_overwrite_a_folder() {
     assert_eq!(out.status.code(), Some(2));
 }
 
+/// A default (pure-Rust) build has no HiGHS: `--solver highs` is an input error that says how
+/// to get it, before anything is loaded or written.
+#[cfg(not(feature = "highs"))]
+#[test]
+fn plan_solver_highs_without_the_feature_says_how_to_rebuild() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dest = tmp.path().join("out");
+    let out = run(&["plan", "--solver", "highs", "--out", dest.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("--features highs"), "{err}");
+    assert!(!dest.exists());
+}
+
+#[test]
+fn plan_solver_clarabel_is_the_default() {
+    let tmp = tempfile::tempdir().unwrap();
+    let a = tmp.path().join("a");
+    let b = tmp.path().join("b");
+    let text = run_ok(&["plan", "--solver", "clarabel", "--out", a.to_str().unwrap()]);
+    assert!(!text.contains("LP solver"), "{text}");
+    run_ok(&["plan", "--out", b.to_str().unwrap()]);
+    for f in ["manifest.csv", "allocation.csv"] {
+        assert_eq!(
+            std::fs::read(a.join(f)).unwrap(),
+            std::fs::read(b.join(f)).unwrap(),
+            "{f}"
+        );
+    }
+}
+
 #[test]
 fn sequence_orders_a_small_matrix() {
     // Four points on a line (minutes = distance): the best tour visits them in order and back.

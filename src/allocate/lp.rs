@@ -742,7 +742,7 @@ pub(crate) fn solve_relaxation(
     loop {
         rounds += 1;
         let built = build_model(inst, &arc_in);
-        let solution = built.model.solve_relaxation()?;
+        let solution = built.model.solve_relaxation_with(opts.solver)?;
         let y = &solution.duals;
         let mut added = 0;
         if opts.pricing {

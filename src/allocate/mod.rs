@@ -1,4 +1,5 @@
-//! The allocation: an LP relaxation over the candidate arcs (good_lp, clarabel backend),
+//! The allocation: an LP relaxation over the candidate arcs (good_lp; clarabel backend, or
+//! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
 //! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`.
 
 use serde::Serialize;
@@ -92,6 +93,8 @@ mod bound;
 mod lp;
 mod rounding;
 
+pub use model::Solver;
+
 use std::collections::BTreeSet;
 
 use chrono::NaiveDate;
@@ -118,6 +121,10 @@ pub struct AllocOptions {
     /// usual choice, e.g. [`Allocation::working_set`] of an earlier solve of the same week.
     /// Pricing still certifies the bound over every arc, so the optimum is the same.
     pub warm_start: BTreeSet<usize>,
+    /// Solver of the LP relaxation (default clarabel; HiGHS with the `highs` feature). Both
+    /// reach the same bound; the LP solution, and so the rounded plan, may differ (HiGHS
+    /// returns a vertex, clarabel a point inside the optimal face).
+    pub solver: model::Solver,
 }
 
 impl Default for AllocOptions {
@@ -127,6 +134,7 @@ impl Default for AllocOptions {
             pricing: true,
             rounding_budget: 20_000_000,
             warm_start: BTreeSet::new(),
+            solver: model::Solver::default(),
         }
     }
 }
@@ -235,7 +243,7 @@ pub fn export_mps(
     Ok(mps::write_mps(&built.model))
 }
 
-/// Plans the week in whole vials: LP relaxation (clarabel) with working-set pricing, then
+/// Plans the week in whole vials: LP relaxation (`opts.solver`) with working-set pricing, then
 /// rounding and repair (see `docs/model.md`).
 ///
 /// Complexity: each LP round is an interior-point solve over the working set (roughly

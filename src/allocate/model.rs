@@ -1,6 +1,7 @@
 //! Our own linear-model representation: named columns and rows, always maximised.
 //!
-//! One [`LinearModel`] is what the allocation solves with clarabel (relaxation, with duals),
+//! One [`LinearModel`] is what the allocation solves with clarabel (relaxation, with duals;
+//! or HiGHS, see [`Solver`], when built with the `highs` feature),
 //! what microlp solves when columns are integer (small reduced problems and tests), and what
 //! [`super::mps`] writes. Keeping one representation guarantees that the exported model is
 //! exactly the solved one.
@@ -39,6 +40,32 @@ pub enum ModelError {
         /// The solver's message.
         message: String,
     },
+}
+
+/// Which solver solves the continuous relaxation ([`LinearModel::solve_relaxation_with`]).
+///
+/// Both return the same conventions: primal values by column, and row duals as the objective
+/// gained per unit increase of the row's rhs (≥ 0 for a binding ≤ row of the maximisation).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub enum Solver {
+    /// Clarabel (pure Rust, interior point): the default, in every build.
+    #[default]
+    Clarabel,
+    /// HiGHS (C++, dual simplex by default; its solution is a vertex). Only in builds with
+    /// the `highs` cargo feature (`cargo build --release --features highs`).
+    #[cfg(feature = "highs")]
+    Highs,
+}
+
+impl Solver {
+    /// The name used on the command line and in messages (`clarabel`, `highs`).
+    pub fn name(self) -> &'static str {
+        match self {
+            Solver::Clarabel => "clarabel",
+            #[cfg(feature = "highs")]
+            Solver::Highs => "highs",
+        }
+    }
 }
 
 /// Row sense.
@@ -269,23 +296,52 @@ impl LinearModel {
     /// values and row duals. Integer flags are ignored. Clarabel turns each finite bound into a
     /// row, so the cost grows with columns + rows; see `docs/performance-allocate.md`.
     pub fn solve_relaxation(&self) -> Result<ModelSolution, ModelError> {
+        self.solve_relaxation_with(Solver::Clarabel)
+    }
+
+    /// Solves the continuous relaxation with `solver` and returns primal values and row duals
+    /// in the conventions of [`ModelSolution`], whichever the solver. Integer flags are ignored.
+    pub fn solve_relaxation_with(&self, solver: Solver) -> Result<ModelSolution, ModelError> {
         let (vars, cols, objective) = self.to_good_lp(false);
-        let mut problem = vars.maximise(objective).using(clarabel);
-        let refs: Vec<_> = self
-            .rows
-            .iter()
-            .map(|r| problem.add_constraint(self.constraint(r, &cols)))
-            .collect();
-        let mut sol = problem.solve().map_err(|e| self.map_err("clarabel", e))?;
-        let values: Vec<f64> = cols.iter().map(|&v| sol.value(v)).collect();
-        let dual = sol.compute_dual();
-        let duals: Vec<f64> = refs.iter().map(|r| dual.dual(r.clone())).collect();
+        let unsolved = vars.maximise(objective);
+        let (values, duals) = match solver {
+            Solver::Clarabel => self.solve_dual(unsolved.using(clarabel), &cols, "clarabel")?,
+            #[cfg(feature = "highs")]
+            Solver::Highs => self.solve_dual(
+                unsolved.using(good_lp::solvers::highs::highs),
+                &cols,
+                "highs",
+            )?,
+        };
         let objective = self.objective_of(&values);
         Ok(ModelSolution {
             values,
             duals,
             objective,
         })
+    }
+
+    /// Adds the rows to `problem`, solves it and reads the column values and row duals.
+    fn solve_dual<P>(
+        &self,
+        mut problem: P,
+        cols: &[Variable],
+        solver: &'static str,
+    ) -> Result<(Vec<f64>, Vec<f64>), ModelError>
+    where
+        P: SolverModel<Error = good_lp::ResolutionError>,
+        for<'a> P::Solution: SolutionWithDual<'a>,
+    {
+        let refs: Vec<_> = self
+            .rows
+            .iter()
+            .map(|r| problem.add_constraint(self.constraint(r, cols)))
+            .collect();
+        let mut sol = problem.solve().map_err(|e| self.map_err(solver, e))?;
+        let values: Vec<f64> = cols.iter().map(|&v| sol.value(v)).collect();
+        let dual = sol.compute_dual();
+        let duals: Vec<f64> = refs.iter().map(|r| dual.dual(r.clone())).collect();
+        Ok((values, duals))
     }
 
     /// Solves with microlp, honouring integer columns (branch and bound stops at relative
@@ -368,6 +424,52 @@ mod tests {
         let s = m.solve_relaxation().expect("feasible");
         assert!((s.values[x] - 2.0).abs() < 1e-6);
         assert!((s.duals[r] + 1.0).abs() < 1e-5, "{:?}", s.duals);
+    }
+
+    /// HiGHS must hand back the conventions clarabel does: same optimum, same primal where it
+    /// is unique, and row duals of the same sign and size (≥ 0 for a binding ≤ row, ≤ 0 for a
+    /// binding ≥ row that hurts, an equality row priced as d objective / d rhs).
+    #[cfg(feature = "highs")]
+    #[test]
+    fn highs_values_and_duals_agree_with_clarabel() {
+        // max 3x + 2y − z s.t. x + y ≤ 4 (dual 2), x + 3y ≤ 7 (slack), z ≥ 1 (dual −1),
+        // x − w = 0 with w ≤ 3 (the equality carries x's bound: dual 1), x, y, z, w ≥ 0.
+        // Unique optimum x = w = 3, y = 1, z = 1, value 10.
+        let mut m = LinearModel::new("agree");
+        let x = m.add_column("x", 0.0, f64::INFINITY, 3.0, false);
+        let y = m.add_column("y", 0.0, f64::INFINITY, 2.0, false);
+        let z = m.add_column("z", 0.0, 10.0, -1.0, false);
+        let w = m.add_column("w", 0.0, 3.0, 0.0, false);
+        m.add_row("r1", &[(x, 1.0), (y, 1.0)], Sense::Le, 4.0);
+        m.add_row("r2", &[(x, 1.0), (y, 3.0)], Sense::Le, 7.0);
+        m.add_row("floor", &[(z, 1.0)], Sense::Ge, 1.0);
+        m.add_row("tie", &[(x, 1.0), (w, -1.0)], Sense::Eq, 0.0);
+        let c = m.solve_relaxation_with(Solver::Clarabel).expect("feasible");
+        let h = m.solve_relaxation_with(Solver::Highs).expect("feasible");
+        assert!((c.objective - 10.0).abs() < 1e-6, "{}", c.objective);
+        assert!((h.objective - 10.0).abs() < 1e-9, "{}", h.objective);
+        for (a, b) in c.values.iter().zip(&h.values) {
+            assert!((a - b).abs() < 1e-5, "{:?} vs {:?}", c.values, h.values);
+        }
+        for (want, (a, b)) in [2.0, 0.0, -1.0, 1.0]
+            .iter()
+            .zip(c.duals.iter().zip(&h.duals))
+        {
+            assert!((a - want).abs() < 1e-5, "clarabel {:?}", c.duals);
+            assert!((b - want).abs() < 1e-9, "highs {:?}", h.duals);
+        }
+    }
+
+    #[cfg(feature = "highs")]
+    #[test]
+    fn highs_infeasible_relaxation_is_an_error_not_a_panic() {
+        let mut m = LinearModel::new("bad");
+        let x = m.add_column("x", 0.0, 1.0, 1.0, false);
+        m.add_row("r", &[(x, 1.0)], Sense::Ge, 5.0);
+        assert!(matches!(
+            m.solve_relaxation_with(Solver::Highs),
+            Err(ModelError::Infeasible { .. })
+        ));
     }
 
     #[test]

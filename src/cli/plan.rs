@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use super::{CliResult, Failure, print_out, source_of};
+use crate::allocate::Solver;
 use crate::ledger::LedgerMarks;
 use crate::output::{self, PlanView};
 use crate::plan::{self, PlanOptions};
@@ -24,11 +25,46 @@ pub(crate) struct Args {
     /// then show the request id and coordinates), e.g. to share the sheets for review.
     #[arg(long)]
     redact: bool,
+    /// LP solver of the allocation's relaxation: `clarabel` (default, pure Rust) or `highs`
+    /// (only in a build with the `highs` feature: `cargo build --release --features highs`).
+    #[arg(long, value_enum, default_value_t = SolverArg::Clarabel)]
+    solver: SolverArg,
+}
+
+/// `--solver` values. Both are always accepted by the parser, so that a build without HiGHS
+/// can say how to get it rather than list only `clarabel`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub(crate) enum SolverArg {
+    /// Clarabel, pure Rust (default).
+    Clarabel,
+    /// HiGHS (needs a build with `--features highs`).
+    Highs,
+}
+
+impl SolverArg {
+    /// The solver, or an input error (exit 2) when this build has no HiGHS.
+    pub(crate) fn solver(self) -> Result<Solver, Failure> {
+        match self {
+            SolverArg::Clarabel => Ok(Solver::Clarabel),
+            #[cfg(feature = "highs")]
+            SolverArg::Highs => Ok(Solver::Highs),
+            #[cfg(not(feature = "highs"))]
+            SolverArg::Highs => Err(Failure::Input(
+                "--solver highs: this broodcast was built without HiGHS; rebuild with \
+                 `cargo build --release --features highs` (needs cmake and a C++ compiler), \
+                 or use the default `--solver clarabel`"
+                    .to_string(),
+            )),
+        }
+    }
 }
 
 pub(crate) fn run(args: Args) -> CliResult {
+    // Checked before loading: a build without HiGHS refuses `--solver highs` at once.
+    let solver = args.solver.solver()?;
     let scenario = scenario::load(&source_of(&args.dir))?;
     let mut opts = PlanOptions::default();
+    opts.alloc.solver = solver;
     // The ledger is read here, once; planning gets typed marks, never the file.
     let marks = match &args.ledger {
         Some(db) => {
@@ -72,6 +108,9 @@ pub(crate) fn run(args: Args) -> CliResult {
         a.lp_bound,
         a.gap * 100.0,
     );
+    if solver != Solver::default() {
+        text.push_str(&format!("LP solver: {}\n", solver.name()));
+    }
     if let Some(m) = &marks {
         let (served, recent) = m.counts();
         text.push_str(&format!(
