@@ -186,7 +186,7 @@ fn plan_cli_with_highs_writes_a_plan() {
     let bound = |text: &str| -> f64 {
         let after = text.split("LP bound ").nth(1).expect("LP bound line");
         after
-            .split(',')
+            .split([',', ')'])
             .next()
             .and_then(|v| v.trim().parse().ok())
             .expect("a number")
