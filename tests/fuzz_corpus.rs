@@ -69,8 +69,10 @@ fn the_corpus_stays_small() {
     for (target, _) in oracle::TARGETS {
         let files = corpus(target);
         let bytes: usize = files.iter().map(|(_, b)| b.len()).sum();
-        assert!(files.len() <= 600, "{target}: {} files", files.len());
-        assert!(bytes <= 1 << 20, "{target}: {bytes} bytes");
+        // Minimised corpora (libFuzzer set cover) of the JSON loaders reach ~1,000 files and
+        // ~1.1 MB after 15 fuzzing minutes; the replay stays about a second.
+        assert!(files.len() <= 1_500, "{target}: {} files", files.len());
+        assert!(bytes <= 2 << 20, "{target}: {bytes} bytes");
     }
 }
 
