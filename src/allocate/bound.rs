@@ -209,3 +209,59 @@ fn fractional_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)], cap: f64) -> 
         .map(wasps_value)
         .fold(f64::NEG_INFINITY, f64::max)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::allocate::AllocOptions;
+    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::scenario::fixture::tiny;
+
+    #[test]
+    fn one_block_is_valued_at_its_best_whole_number_of_vials() {
+        // The fixture's agent: minimum 150, target 400, maximum 800 live wasps, weight 0.5
+        // above the target; travel costs 1 per hour, so a 20-minute arc costs 1/3 a vial.
+        let mut s = tiny();
+        s.policy.dooryard_share_min = 0.0;
+        let d = s.week_start;
+        let arcs = Arcs {
+            arcs: vec![Arc {
+                facility: 0,
+                pack_date: d,
+                dispatch_date: d,
+                site: 0,
+                mode: Mode::Route,
+                eta: d.and_hms_opt(9, 0, 0).expect("valid"),
+                release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
+                survival: 0.9,
+                wasps_alive_per_vial: 90.0,
+                drive_minutes: 20.0,
+            }],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let priority = vec![1.0; s.sites.len()];
+        let opts = AllocOptions {
+            pricing: false,
+            ..AllocOptions::default()
+        };
+        let inst = Instance::new(&s, &priority, &arcs, &opts).expect("valid");
+        let zero = vec![0.0; inst.resources.len()];
+        // Whole vials: 8 vials = 720 wasps (9 would be 810 > 800): 400 + 0.5 × 320 − 8/3.
+        let whole = 400.0 + 0.5 * 320.0 - 8.0 / 3.0;
+        let got = whole_vial_bound(&inst, &zero, 0.0);
+        assert!((got - whole).abs() < 1e-9, "{got} vs {whole}");
+        // Fractional vials reach the maximum: 800/90 vials, 400 + 0.5 × 400 − 800/270.
+        let fractional = fractional_max(&inst, 0, &[(90.0, 1.0 / 3.0)], 800.0);
+        assert!((fractional - (600.0 - 800.0 / 270.0)).abs() < 1e-9);
+        assert!(got < fractional);
+        // A price of 50 a vial on its supply row: Σ y b plus the site's best release at
+        // 50 + 1/3 a vial. 4 vials: 360 − 201.3; 5 vials: 400 + 0.5 × 50 − 251.7 = 173.3 (best);
+        // 6 vials: 400 + 70 − 302.
+        let mut y = zero.clone();
+        y[inst.arc_res[0][0]] = 50.0;
+        let supply = inst.res_rhs[inst.arc_res[0][0]];
+        let got = whole_vial_bound(&inst, &y, 0.0);
+        let best = 425.0 - 5.0 * (50.0 + 1.0 / 3.0);
+        assert!((got - (50.0 * supply + best)).abs() < 1e-9, "{got}");
+    }
+}
