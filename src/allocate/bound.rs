@@ -17,7 +17,7 @@
 //! weaker than the LP bound. It is tighter where the LP fills a release to its maximum with a
 //! fraction of a vial that no whole number of vials reaches.
 
-use super::lp::{Force, Instance};
+use super::lp::{Force, Instance, share_coef};
 use crate::scenario::SiteKind;
 
 const EPS: f64 = 1e-9;
@@ -33,19 +33,13 @@ const NODES_PER_SITE: usize = 200_000;
 pub(crate) fn whole_vial_bound(inst: &Instance, res_dual: &[f64], share_dual: f64) -> f64 {
     let y = |r: usize| res_dual.get(r).copied().unwrap_or(0.0).max(0.0);
     let lambda = (-share_dual).max(0.0);
-    let share = inst.share.unwrap_or(0.0);
     let price = |a: usize| {
-        let coef = if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
-            1.0 - share
-        } else {
-            -share
-        };
         let mut p = inst.cost[a];
         for &r in &inst.arc_res[a] {
             p += y(r);
         }
         if inst.share.is_some() {
-            p -= lambda * coef;
+            p -= lambda * share_coef(inst, a);
         }
         p
     };
@@ -79,23 +73,6 @@ pub(crate) fn whole_vial_bound(inst: &Instance, res_dual: &[f64], share_dual: f6
     total
 }
 
-/// Benefit less force penalties of `e` live wasps in `v` vials at site position `sp` (as the
-/// rounding values a site).
-fn value(inst: &Instance, sp: usize, e: f64, v: u32) -> f64 {
-    let mut val = inst.benefit(sp, e);
-    match inst.sites[sp].force {
-        Some(Force::Vials(need)) => {
-            val -= inst.force_penalty_per_vial * (need - f64::from(v)).max(0.0);
-        }
-        Some(Force::Wasps(need)) => {
-            val -= inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0)
-                * (need - e).max(0.0);
-        }
-        None => {}
-    }
-    val
-}
-
 /// max over whole-vial releases x of the site of value − Σ price·x; `arcs` holds (live wasps
 /// per vial, price per vial) of each of its arcs.
 fn site_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)]) -> f64 {
@@ -107,7 +84,7 @@ fn site_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)]) -> f64 {
         SiteKind::Block if min_alive > 0.0 => (cap / min_alive).floor().min(1e6) as u32,
         SiteKind::Block => u32::MAX,
     };
-    let mut best = value(inst, sp, 0.0, 0);
+    let mut best = inst.site_value(sp, 0.0, 0);
     let mut nodes = 0usize;
     let complete = enumerate(
         inst,
@@ -142,14 +119,8 @@ fn enumerate(
         return false;
     }
     if i == arcs.len() {
-        let site = &inst.sites[sp];
-        let ok = n == 0
-            || match site.kind {
-                SiteKind::Block => e >= inst.min * (1.0 - EPS) - EPS,
-                SiteKind::Dooryard => n == inst.per_request,
-            };
-        if ok {
-            *best = best.max(value(inst, sp, e, n) - cost);
+        if inst.release_ok(sp, e, n) {
+            *best = best.max(inst.site_value(sp, e, n) - cost);
         }
         return true;
     }
@@ -190,7 +161,7 @@ fn fractional_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)], cap: f64) -> 
         .map(|&(alive, p)| p / alive)
         .fold(f64::INFINITY, f64::min);
     if !per_wasp.is_finite() {
-        return value(inst, sp, 0.0, 0).max(0.0);
+        return inst.site_value(sp, 0.0, 0).max(0.0);
     }
     let need = match inst.sites[sp].force {
         Some(Force::Wasps(w)) => w.clamp(0.0, cap),

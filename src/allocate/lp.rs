@@ -358,6 +358,41 @@ impl<'a> Instance<'a> {
         let second = (e - self.target).max(0.0);
         self.sites[s].priority * (first + self.weight2 * second)
     }
+
+    /// Benefit less force shortfall penalties of site position `sp` holding `e` live wasps in
+    /// `v` vials: a site's part of the whole-vial objective (the rounding, the whole-vial
+    /// bound and `plan_objective` all value sites with it).
+    pub fn site_value(&self, sp: usize, e: f64, v: u32) -> f64 {
+        let mut val = self.benefit(sp, e);
+        match self.sites[sp].force {
+            Some(Force::Vials(need)) => {
+                val -= self.force_penalty_per_vial * (need - f64::from(v)).max(0.0);
+            }
+            Some(Force::Wasps(need)) => {
+                val -= self.force_penalty_per_vial / self.best_alive_per_vial.max(1.0)
+                    * (need - e).max(0.0);
+            }
+            None => {}
+        }
+        val
+    }
+
+    /// Whether `e` live wasps in `v` vials is a valid whole-vial release at site position
+    /// `sp`: nothing, or at most the maximum and, for a block, at least the minimum, for a
+    /// request exactly the standard count (relative tolerance 1e-9).
+    pub fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
+        const TOL: f64 = 1e-9;
+        if v == 0 {
+            return true;
+        }
+        if e > self.max * (1.0 + TOL) + TOL {
+            return false;
+        }
+        match self.sites[sp].kind {
+            SiteKind::Block => e >= self.min * (1.0 - TOL) - TOL,
+            SiteKind::Dooryard => v == self.per_request,
+        }
+    }
 }
 
 /// Rows of one working-set site.
@@ -389,7 +424,7 @@ pub(crate) struct Built {
 }
 
 /// Coefficient of arc `a` (one vial) in the dooryard share row Σ (door − share·all) ≥ 0.
-fn share_coef(inst: &Instance, a: usize) -> f64 {
+pub(crate) fn share_coef(inst: &Instance, a: usize) -> f64 {
     let s = inst.share.unwrap_or(0.0);
     if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
         1.0 - s

@@ -213,18 +213,7 @@ fn objective_of(inst: &lp::Instance, scenario: &Scenario, shipments: &[Shipment]
     }
     let mut total = -cost;
     for (sp, site) in inst.sites.iter().enumerate() {
-        let s = site.site;
-        total += inst.benefit(sp, e[s]);
-        match site.force {
-            Some(lp::Force::Vials(need)) => {
-                total -= inst.force_penalty_per_vial * (need - f64::from(v[s])).max(0.0)
-            }
-            Some(lp::Force::Wasps(need)) => {
-                total -= inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0)
-                    * (need - e[s]).max(0.0)
-            }
-            None => {}
-        }
+        total += inst.site_value(sp, e[site.site], v[site.site]);
     }
     total
 }

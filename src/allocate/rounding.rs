@@ -79,37 +79,14 @@ impl<'i, 'a> State<'i, 'a> {
         st
     }
 
-    /// Force shortfall penalty plus benefit of site position `sp` holding `e` wasps in `v`
-    /// vials.
+    /// See [`Instance::site_value`].
     fn site_value(&self, sp: usize, e: f64, v: u32) -> f64 {
-        let inst = self.inst;
-        let mut val = inst.benefit(sp, e);
-        match inst.sites[sp].force {
-            Some(Force::Vials(need)) => {
-                val -= inst.force_penalty_per_vial * (need - f64::from(v)).max(0.0);
-            }
-            Some(Force::Wasps(need)) => {
-                val -= inst.force_penalty_per_vial / inst.best_alive_per_vial.max(1.0)
-                    * (need - e).max(0.0);
-            }
-            None => {}
-        }
-        val
+        self.inst.site_value(sp, e, v)
     }
 
-    /// Whether `e` wasps in `v` vials is a valid release at site position `sp`.
+    /// See [`Instance::release_ok`].
     fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
-        if v == 0 {
-            return true;
-        }
-        let inst = self.inst;
-        if e > inst.max * (1.0 + EPS) + EPS {
-            return false;
-        }
-        match inst.sites[sp].kind {
-            SiteKind::Block => e >= inst.min * (1.0 - EPS) - EPS,
-            SiteKind::Dooryard => v == inst.per_request,
-        }
+        self.inst.release_ok(sp, e, v)
     }
 
     fn site_ok(&self, sp: usize) -> bool {
@@ -288,7 +265,7 @@ impl<'i, 'a> State<'i, 'a> {
     /// vial on any arc of a served block, or opening an unserved block with the fewest vials
     /// that reach the minimum release, or serving a request with the standard count. Moves
     /// that gain nothing are left out. O(arcs of the site) when stale, O(1) otherwise.
-    fn growth_moves(&mut self, sp: usize) -> &[Growth] {
+    fn refresh_growth(&mut self, sp: usize) {
         if self.growth[sp].is_none() {
             let inst = self.inst;
             let site = &inst.sites[sp];
@@ -320,30 +297,25 @@ impl<'i, 'a> State<'i, 'a> {
             moves.sort_by(|x, y| y.0.total_cmp(&x.0));
             self.growth[sp] = Some(moves);
         }
-        self.growth[sp].as_deref().unwrap_or(&[])
     }
 
     /// The best growth move at site position `sp` that supply, capacity and the share floor
     /// allow now.
     fn best_move_at(&mut self, sp: usize) -> Option<Growth> {
+        self.refresh_growth(sp);
+        self.work += 1;
         let door_site = self.inst.sites[sp].kind == SiteKind::Dooryard;
         let (door, total) = (self.door, self.total);
-        let moves = std::mem::take(&mut self.growth[sp]);
-        let moves = match moves {
-            Some(m) => m,
-            None => {
-                self.growth_moves(sp);
-                self.growth[sp].take().unwrap_or_default()
-            }
-        };
-        self.work += 1;
-        let best = moves.iter().copied().find(|&(_, a, n)| {
-            let nf = f64::from(n);
-            n <= self.free(a)
-                && self.share_ok_at(if door_site { door + nf } else { door }, total + nf)
-        });
-        self.growth[sp] = Some(moves);
-        best
+        self.growth[sp]
+            .as_deref()
+            .unwrap_or(&[])
+            .iter()
+            .copied()
+            .find(|&(_, a, n)| {
+                let nf = f64::from(n);
+                n <= self.free(a)
+                    && self.share_ok_at(if door_site { door + nf } else { door }, total + nf)
+            })
     }
 
     /// Greedy fill over site positions `cand` (but `skip`): take the best allowed growth
@@ -576,30 +548,34 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     if sb == sa {
                         continue;
                     }
-                    let full: Vec<usize> = inst.arc_res[b]
-                        .iter()
-                        .copied()
-                        .filter(|&r| {
-                            let freed = if ra.contains(&r) { 1.0 } else { 0.0 };
-                            st.used[r] - freed + 1.0 > inst.res_rhs[r] + 1e-7
-                        })
-                        .collect();
-                    let door_b = f64::from(u8::from(inst.sites[sb].kind == SiteKind::Dooryard));
-                    if full.is_empty() {
-                        if st.share_ok_at(st.door - door_a + door_b, st.total) {
-                            best = Some((g, b, None));
-                            break;
+                    // The recipient's rows with no room for one more vial once the donor's
+                    // is freed (an arc draws on two rows).
+                    let [r0, r1] = inst.arc_res[b];
+                    let full = |r: usize| {
+                        let freed = if ra.contains(&r) { 1.0 } else { 0.0 };
+                        st.used[r] - freed + 1.0 > inst.res_rhs[r] + 1e-7
+                    };
+                    let r = match (full(r0), full(r1)) {
+                        (false, false) => {
+                            let door_b =
+                                f64::from(u8::from(inst.sites[sb].kind == SiteKind::Dooryard));
+                            if st.share_ok_at(st.door - door_a + door_b, st.total) {
+                                best = Some((g, b, None));
+                                break;
+                            }
+                            continue;
                         }
-                        continue;
-                    }
+                        (true, false) => r0,
+                        (false, true) => r1,
+                        (true, true) => continue,
+                    };
                     // The recipient's supply or vehicle row is full: make room by moving
                     // one vial of a third site off that row onto another of its arcs (an
                     // ejection chain of length two).
-                    if full.len() > 1 || chains >= MAX_CHAINS_PER_DONOR {
+                    if chains >= MAX_CHAINS_PER_DONOR {
                         continue;
                     }
                     chains += 1;
-                    let r = full[0];
                     let mut tried = 0;
                     for &c in &res_arcs[r] {
                         if tried >= MAX_REROUTES_PER_CHAIN {
