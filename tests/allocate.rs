@@ -14,6 +14,8 @@ use broodcast::eligibility::Reason;
 use broodcast::scenario::{Override, OverrideAction, Scenario, SiteKind, Supply};
 use proptest::prelude::*;
 
+mod util;
+
 /// Hillier & Lieberman, *Introduction to Operations Research* (transportation-problem
 /// chapter, the P&T Company canneries-to-warehouses worked example; 7th ed. and later),
 /// stated from memory: supplies 75/125/100 truckloads, demands 80/65/70/85, unit costs below,
@@ -419,65 +421,7 @@ fn a_warm_started_resolve_reaches_the_same_optimum() {
 }
 
 fn check_invariants(s: &Scenario, arcs: &Arcs, a: &Allocation) {
-    let mut supply: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
-    let mut depot: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
-    let mut parcel: BTreeMap<chrono::NaiveDate, u32> = BTreeMap::new();
-    let n = s.sites.len();
-    let (mut e, mut v) = (vec![0.0; n], vec![0u32; n]);
-    for sh in &a.shipments {
-        assert!(sh.vials >= 1);
-        assert!(sh.arc.eta <= sh.arc.release_by, "arc past release-by used");
-        *supply
-            .entry((sh.arc.facility, sh.arc.pack_date))
-            .or_default() += sh.vials;
-        match sh.arc.mode {
-            Mode::Route => {
-                *depot
-                    .entry((sh.arc.facility, sh.arc.dispatch_date))
-                    .or_default() += sh.vials
-            }
-            Mode::Parcel => *parcel.entry(sh.arc.dispatch_date).or_default() += sh.vials,
-        }
-        e[sh.arc.site] += sh.wasps_expected_alive();
-        v[sh.arc.site] += sh.vials;
-    }
-    for ((f, d), u) in &supply {
-        assert!(
-            *u <= s.supply_vials(*f, *d),
-            "supply of {f} on {d} exceeded"
-        );
-    }
-    for ((f, d), u) in &depot {
-        let cap: u32 = s
-            .fleet
-            .iter()
-            .filter(|x| x.depot == *f && x.runs_on(*d))
-            .map(|x| x.capacity_vials)
-            .sum();
-        assert!(*u <= cap, "vehicle capacity of depot {f} on {d} exceeded");
-    }
-    for (d, u) in &parcel {
-        assert!(
-            *u <= s.parcel.max_vials_per_day,
-            "parcel cap on {d} exceeded"
-        );
-    }
-    let (mut door, mut total) = (0u32, 0u32);
-    for i in 0..n {
-        total += v[i];
-        if v[i] == 0 {
-            continue;
-        }
-        assert!(e[i] <= s.agent.max_release_wasps + 1e-6);
-        match s.sites[i].kind() {
-            SiteKind::Block => assert!(e[i] >= s.agent.min_release_wasps - 1e-6, "min release"),
-            SiteKind::Dooryard => {
-                assert_eq!(v[i], s.policy.dooryard_vials_per_request);
-                door += v[i];
-            }
-        }
-        assert_eq!(a.sites[i].vials, v[i]);
-    }
+    let (door, total) = util::check_whole_vial_limits(s, a);
     // The floor is dropped (with a note) when no request has a usable arc; that case is
     // pinned by `share_floor_with_no_reachable_request_is_dropped_with_a_note`.
     let dropped = a.notes.iter().any(|n| n.contains("dropped"));

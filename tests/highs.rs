@@ -6,23 +6,16 @@
 //! file compiles to nothing, and `cli.rs` checks that `--solver highs` is refused.
 #![cfg(feature = "highs")]
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 use std::process::Command;
 
 use broodcast::allocate::{AllocOptions, Allocation, Solver, allocate, plan_objective};
-use broodcast::arcs::{Arcs, Mode};
-use broodcast::generate::{GenParams, generate};
+use broodcast::arcs::Arcs;
 use broodcast::plan::{self, PlanOptions};
-use broodcast::scenario::{self, Scenario, SiteKind};
+use broodcast::scenario::{self, Scenario};
 
-fn generated(sites: usize, seed: u64) -> Scenario {
-    let files = generate(&GenParams::sized(sites, seed));
-    let view: Vec<(&str, &[u8])> = files
-        .iter()
-        .map(|(n, b)| (n.as_str(), b.as_slice()))
-        .collect();
-    scenario::load_files(&view).expect("generated scenario is valid")
-}
+mod util;
+use util::generated;
 
 fn with(solver: Solver) -> AllocOptions {
     AllocOptions {
@@ -38,64 +31,14 @@ fn assert_valid(s: &Scenario, prio: &[f64], arcs: &Arcs, opts: &AllocOptions, a:
         .iter()
         .map(|x| (x.facility, x.pack_date, x.dispatch_date, x.site, x.mode))
         .collect();
-    let mut supply: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
-    let mut depot: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
-    let mut parcel: BTreeMap<chrono::NaiveDate, u32> = BTreeMap::new();
-    let n = s.sites.len();
-    let (mut e, mut v) = (vec![0.0; n], vec![0u32; n]);
     for sh in &a.shipments {
         let x = &sh.arc;
-        assert!(sh.vials >= 1);
         assert!(
             known.contains(&(x.facility, x.pack_date, x.dispatch_date, x.site, x.mode)),
             "shipment on an arc that is not a candidate"
         );
-        assert!(x.eta <= x.release_by, "arc past release-by used");
-        *supply.entry((x.facility, x.pack_date)).or_default() += sh.vials;
-        match x.mode {
-            Mode::Route => *depot.entry((x.facility, x.dispatch_date)).or_default() += sh.vials,
-            Mode::Parcel => *parcel.entry(x.dispatch_date).or_default() += sh.vials,
-        }
-        e[x.site] += sh.wasps_expected_alive();
-        v[x.site] += sh.vials;
     }
-    for ((f, d), u) in &supply {
-        assert!(
-            *u <= s.supply_vials(*f, *d),
-            "supply of {f} on {d} exceeded"
-        );
-    }
-    for ((f, d), u) in &depot {
-        let cap: u32 = s
-            .fleet
-            .iter()
-            .filter(|x| x.depot == *f && x.runs_on(*d))
-            .map(|x| x.capacity_vials)
-            .sum();
-        assert!(*u <= cap, "vehicle capacity of depot {f} on {d} exceeded");
-    }
-    for (d, u) in &parcel {
-        assert!(
-            *u <= s.parcel.max_vials_per_day,
-            "parcel cap on {d} exceeded"
-        );
-    }
-    let (mut door, mut total) = (0u32, 0u32);
-    for i in 0..n {
-        assert_eq!(a.sites[i].vials, v[i]);
-        total += v[i];
-        if v[i] == 0 {
-            continue;
-        }
-        assert!(e[i] <= s.agent.max_release_wasps + 1e-6, "max release");
-        match s.sites[i].kind() {
-            SiteKind::Block => assert!(e[i] >= s.agent.min_release_wasps - 1e-6, "min release"),
-            SiteKind::Dooryard => {
-                assert_eq!(v[i], s.policy.dooryard_vials_per_request);
-                door += v[i];
-            }
-        }
-    }
+    let (door, total) = util::check_whole_vial_limits(s, a);
     if !a.notes.iter().any(|n| n.contains("dropped")) {
         let share = s.policy.dooryard_share_min;
         assert!(

@@ -4,13 +4,12 @@
 use std::path::Path;
 use std::process::Command;
 
-use broodcast::generate::{GenParams, generate};
 use broodcast::plan::{self, PlanOptions};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{self, Multiplier, Sweep, SweepSpec};
 
 mod util;
-use util::{run, run_ok};
+use util::{generated, run, run_ok};
 
 fn spec(supply: &str, without: &[&str]) -> SweepSpec {
     SweepSpec {
@@ -24,15 +23,6 @@ fn spec(supply: &str, without: &[&str]) -> SweepSpec {
 
 fn run_sweep(sc: &Scenario, supply: &str, without: &[&str]) -> Sweep {
     sweep::sweep(sc, &spec(supply, without), &PlanOptions::default(), &|| {}).unwrap()
-}
-
-fn generated(sites: usize, seed: u64) -> Scenario {
-    let files = generate(&GenParams::sized(sites, seed));
-    let view: Vec<(&str, &[u8])> = files
-        .iter()
-        .map(|(n, b)| (n.as_str(), b.as_slice()))
-        .collect();
-    scenario::load_files(&view).expect("generated scenario is valid")
 }
 
 /// The LP optimum is a concave, non-decreasing function of the supply right-hand sides (LP

@@ -1,11 +1,91 @@
 //! Shared test helpers: a copy of the minimal scenario in a temp dir, and a table of input
 //! defects, each with the file and location its problem must name. Reused by the loader tests
-//! and by binary-level tests (exit code 2, nothing written).
+//! and by binary-level tests (exit code 2, nothing written). Also a generated week and the
+//! limits every whole-vial plan must keep, for the allocation tests.
 #![allow(dead_code)]
 
+use std::collections::BTreeMap;
 use std::fs;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
+
+use broodcast::allocate::Allocation;
+use broodcast::arcs::Mode;
+use broodcast::generate::{GenParams, generate};
+use broodcast::scenario::{self, Scenario, SiteKind};
+
+/// The week `broodcast generate --sites SITES --seed SEED` writes, loaded.
+pub fn generated(sites: usize, seed: u64) -> Scenario {
+    let files = generate(&GenParams::sized(sites, seed));
+    let view: Vec<(&str, &[u8])> = files
+        .iter()
+        .map(|(n, b)| (n.as_str(), b.as_slice()))
+        .collect();
+    scenario::load_files(&view).expect("generated scenario is valid")
+}
+
+/// Asserts the limits every whole-vial plan keeps, recounted from its shipments: at least one
+/// vial a shipment, no arc past its release-by, supply per (facility, pack day), vehicle
+/// capacity per (depot, day), the daily parcel cap, each served block within the minimum and
+/// maximum release, each served request at the standard count, and each site's reported
+/// vials. Returns (dooryard vials, all vials) for the caller's share-floor check.
+pub fn check_whole_vial_limits(s: &Scenario, a: &Allocation) -> (u32, u32) {
+    let mut supply: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
+    let mut depot: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
+    let mut parcel: BTreeMap<chrono::NaiveDate, u32> = BTreeMap::new();
+    let n = s.sites.len();
+    let (mut e, mut v) = (vec![0.0; n], vec![0u32; n]);
+    for sh in &a.shipments {
+        let x = &sh.arc;
+        assert!(sh.vials >= 1);
+        assert!(x.eta <= x.release_by, "arc past release-by used");
+        *supply.entry((x.facility, x.pack_date)).or_default() += sh.vials;
+        match x.mode {
+            Mode::Route => *depot.entry((x.facility, x.dispatch_date)).or_default() += sh.vials,
+            Mode::Parcel => *parcel.entry(x.dispatch_date).or_default() += sh.vials,
+        }
+        e[x.site] += sh.wasps_expected_alive();
+        v[x.site] += sh.vials;
+    }
+    for ((f, d), u) in &supply {
+        assert!(
+            *u <= s.supply_vials(*f, *d),
+            "supply of {f} on {d} exceeded"
+        );
+    }
+    for ((f, d), u) in &depot {
+        let cap: u32 = s
+            .fleet
+            .iter()
+            .filter(|x| x.depot == *f && x.runs_on(*d))
+            .map(|x| x.capacity_vials)
+            .sum();
+        assert!(*u <= cap, "vehicle capacity of depot {f} on {d} exceeded");
+    }
+    for (d, u) in &parcel {
+        assert!(
+            *u <= s.parcel.max_vials_per_day,
+            "parcel cap on {d} exceeded"
+        );
+    }
+    let (mut door, mut total) = (0u32, 0u32);
+    for i in 0..n {
+        assert_eq!(a.sites[i].vials, v[i]);
+        total += v[i];
+        if v[i] == 0 {
+            continue;
+        }
+        assert!(e[i] <= s.agent.max_release_wasps + 1e-6, "max release");
+        match s.sites[i].kind() {
+            SiteKind::Block => assert!(e[i] >= s.agent.min_release_wasps - 1e-6, "min release"),
+            SiteKind::Dooryard => {
+                assert_eq!(v[i], s.policy.dooryard_vials_per_request);
+                door += v[i];
+            }
+        }
+    }
+    (door, total)
+}
 
 /// The broodcast binary built for these tests.
 pub fn bin() -> PathBuf {
