@@ -505,20 +505,31 @@ pub struct SweepSpec {
     pub settings: Vec<Setting>,
     /// Saturation threshold as a share of the 1× marginal value (0 < fraction < 1).
     pub saturation_fraction: f64,
-    /// Search every variant's routes as long as `plan` does. Off (the default), a variant
-    /// with m > 1 times the supply searches 1/⌈m⌉ of the rounds per depot-day, so it costs
-    /// about what the 1× plan costs. Allocations are the same unless the shorter search
-    /// leaves a stop unplaced (then the feedback round runs, as in `plan`; `docs/sweep.md`).
+    /// Search every variant's routes as long as `plan` does. Off (the default), the 1×
+    /// variant searches as `plan` does and every other variant, whose routes nobody prints,
+    /// searches 1/(2⌈m⌉) of the rounds per depot-day: about half of what the 1× plan's search
+    /// costs, since m times the supply routes about m times the stops. Allocations are the
+    /// same unless the shorter search leaves a stop unplaced (then the feedback round runs, as
+    /// in `plan`; `docs/sweep.md`).
     pub full_routes: bool,
 }
 
 impl SweepSpec {
-    /// Route-search rounds divisor for the variant at `m` (see [`SweepSpec::full_routes`]).
+    /// Route-search rounds divisor for the variant at `m` (see [`SweepSpec::full_routes`]):
+    /// 1 for the 1× variant and with `full_routes`, else 2⌈m⌉.
+    ///
+    /// ```
+    /// # use broodcast::sweep::{Multiplier, SweepSpec};
+    /// let spec = SweepSpec { supply: vec![], without: vec![], settings: vec![],
+    ///     saturation_fraction: 0.25, full_routes: false };
+    /// let d = |m: &str| spec.route_rounds_divisor(&Multiplier::parse(m).unwrap());
+    /// assert_eq!((d("0.25"), d("1"), d("1.5"), d("4")), (2, 1, 4, 8));
+    /// ```
     pub fn route_rounds_divisor(&self, m: &Multiplier) -> u32 {
-        if self.full_routes || m.value() <= 1.0 {
+        if self.full_routes || m.is_one() {
             1
         } else {
-            m.value().ceil().min(f64::from(u32::MAX)) as u32
+            (2.0 * m.value().ceil()).min(f64::from(u32::MAX)) as u32
         }
     }
 }

@@ -366,10 +366,41 @@ fn demo_sized_scenarios_round_within_one_percent() {
     }
 }
 
+/// Working-set pricing whatever the pool's size.
+fn always_priced() -> AllocOptions {
+    AllocOptions {
+        direct_max_arcs: 0,
+        ..Default::default()
+    }
+}
+
+#[test]
+fn a_small_pool_is_solved_whole_with_the_priced_optimum() {
+    // 600 sites give about 1,500 arcs, under the default `direct_max_arcs`, and 300 vials a
+    // first working set of more than a twentieth of them.
+    let (s, p, arcs) = synthetic::generate(5, 600, 300);
+    assert!(arcs.arcs.len() <= AllocOptions::default().direct_max_arcs);
+    let whole = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
+    assert!(
+        whole.notes.iter().any(|n| n.contains("at once")),
+        "{:?}",
+        whole.notes
+    );
+    let priced = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
+    assert!(priced.working_set.len() < whole.working_set.len());
+    let rel = (whole.lp_bound - priced.lp_bound).abs() / priced.lp_bound;
+    assert!(rel < 1e-6, "{} vs {}", whole.lp_bound, priced.lp_bound);
+}
+
 #[test]
 fn pricing_reaches_the_full_pool_optimum() {
     let (s, p, arcs) = synthetic::generate(7, 2000, 400);
-    let with = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
+    let with = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
+    assert!(
+        with.notes.iter().any(|n| n.contains("round(s)")),
+        "priced: {:?}",
+        with.notes
+    );
     let without = allocate(
         &s,
         &p,
@@ -389,7 +420,7 @@ fn a_warm_started_resolve_reaches_the_same_optimum() {
     // As plan's route feedback does: drop a few served arcs, solve again from the first
     // solve's working set.
     let (s, p, arcs) = synthetic::generate(11, 2000, 400);
-    let first = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
+    let first = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
     let excluded: std::collections::BTreeSet<_> = first
         .shipments
         .iter()
@@ -406,7 +437,7 @@ fn a_warm_started_resolve_reaches_the_same_optimum() {
     assert!(!first.working_set.is_empty());
     let cold = AllocOptions {
         excluded,
-        ..Default::default()
+        ..always_priced()
     };
     let warm = AllocOptions {
         warm_start: first.working_set.iter().copied().collect(),

@@ -550,6 +550,8 @@ pub(crate) struct Relaxation {
     pub rounds: usize,
     /// Arc columns in the final working set.
     pub columns: usize,
+    /// Whether the LP was solved on a working set with pricing (else on every arc at once).
+    pub priced: bool,
     /// The final working set, as indices into `Arcs::arcs`, ascending.
     pub working_set: Vec<usize>,
 }
@@ -742,7 +744,17 @@ fn add_priced_arcs(
     added
 }
 
-/// Solves the LP, with working-set pricing when `opts.pricing` is set.
+/// Whether to solve on a working set with pricing rather than on the whole pool at once:
+/// `opts.pricing` is set and the pool is large (over `opts.direct_max_arcs` arcs) or the first
+/// working set `first` is under a tenth of it (little supply for many sites). Each interior-
+/// point solve costs about the same whatever the round, so on a small pool the 4–7 rounds of
+/// pricing cost more than one solve of every arc; measured in `docs/performance-allocate.md`.
+fn use_pricing(inst: &Instance, opts: &AllocOptions, first: &[bool]) -> bool {
+    let na = inst.arcs.len();
+    opts.pricing && (na > opts.direct_max_arcs || first.iter().filter(|b| **b).count() * 10 < na)
+}
+
+/// Solves the LP, with working-set pricing when [`use_pricing`] says so.
 ///
 /// The working set is a set of arc columns ([`initial_arcs`]). Each round solves it, prices
 /// every other arc with the exact reduced cost against the round's duals (O(A)) and adds the
@@ -759,6 +771,10 @@ pub(crate) fn solve_relaxation(
     } else {
         vec![true; na]
     };
+    let priced = use_pricing(inst, opts, &arc_in);
+    if !priced {
+        arc_in.fill(true);
+    }
     // A previous solve's working set (e.g. before the route feedback removed a few arcs)
     // starts this one close to its end: fewer pricing rounds, the same optimum.
     for (inn, src) in arc_in.iter_mut().zip(&inst.source) {
@@ -780,7 +796,7 @@ pub(crate) fn solve_relaxation(
         let solution = built.model.solve_relaxation_with(opts.solver)?;
         let y = &solution.duals;
         let mut added = 0;
-        if opts.pricing {
+        if priced {
             if rounds >= MAX_PRICING_ROUNDS {
                 for inn in arc_in.iter_mut().filter(|b| !**b) {
                     *inn = true;
@@ -822,6 +838,7 @@ pub(crate) fn solve_relaxation(
                 share_dual,
                 rounds,
                 columns,
+                priced,
             });
         }
     }

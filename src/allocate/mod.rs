@@ -114,6 +114,11 @@ pub struct AllocOptions {
     /// Solve on a working set of promising sites and price the rest with the duals (default
     /// true). Off: one LP over every site. Both reach the same optimum.
     pub pricing: bool,
+    /// With `pricing`, a pool of at most this many arcs (default 4,500) whose first working
+    /// set holds at least a tenth of it is solved in one LP over every arc instead: there one
+    /// interior-point solve costs less than the rounds of pricing (measured in
+    /// `docs/performance-allocate.md`). 0 always prices.
+    pub direct_max_arcs: usize,
     /// Most rounding moves evaluated (default 20 million): a work budget, not a time limit,
     /// so the plan does not depend on machine speed.
     pub rounding_budget: u64,
@@ -132,6 +137,7 @@ impl Default for AllocOptions {
         AllocOptions {
             excluded: BTreeSet::new(),
             pricing: true,
+            direct_max_arcs: 4_500,
             rounding_budget: 20_000_000,
             warm_start: BTreeSet::new(),
             solver: model::Solver::default(),
@@ -266,7 +272,7 @@ pub fn allocate(
             scenario: scenario.name.clone(),
             source,
         })?;
-        if opts.pricing {
+        if relax.priced {
             let priced = relax.in_set.iter().filter(|b| **b).count();
             notes.push(format!(
                 "LP solved on {} of {} arcs ({priced} of {} reachable sites) in {} round(s); no \
@@ -275,6 +281,12 @@ pub fn allocate(
                 inst.arcs.len(),
                 inst.sites.len(),
                 relax.rounds
+            ));
+        } else if opts.pricing {
+            notes.push(format!(
+                "LP solved on all {} arcs at once: a pool this small solves faster whole than \
+                 by rounds of pricing",
+                inst.arcs.len()
             ));
         }
         let scale = inst.force_penalty_per_vial / 10.0;

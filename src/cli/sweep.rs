@@ -32,8 +32,8 @@ pub(crate) struct Args {
     /// share of the 1× value.
     #[arg(long, default_value_t = 0.25)]
     saturation: f64,
-    /// Search every variant's routes as long as `plan` does (default: a variant with m > 1
-    /// times the supply searches 1/⌈m⌉ of the rounds per depot-day).
+    /// Search every variant's routes as long as `plan` does (default: the 1× variant does,
+    /// and a variant at m times the supply searches 1/(2⌈m⌉) of the rounds per depot-day).
     #[arg(long)]
     full_routes: bool,
     /// Output folder, replaced as a whole only once every file is ready.
