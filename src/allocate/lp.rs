@@ -746,12 +746,12 @@ fn add_priced_arcs(
 
 /// Whether to solve on a working set with pricing rather than on the whole pool at once:
 /// `opts.pricing` is set and the pool is large (over `opts.direct_max_arcs` arcs) or the first
-/// working set `first` is under a tenth of it (little supply for many sites). Each interior-
+/// working set `first` is under a twentieth of it (little supply for many sites). Each interior-
 /// point solve costs about the same whatever the round, so on a small pool the 4–7 rounds of
 /// pricing cost more than one solve of every arc; measured in `docs/performance-allocate.md`.
 fn use_pricing(inst: &Instance, opts: &AllocOptions, first: &[bool]) -> bool {
     let na = inst.arcs.len();
-    opts.pricing && (na > opts.direct_max_arcs || first.iter().filter(|b| **b).count() * 10 < na)
+    opts.pricing && (na > opts.direct_max_arcs || first.iter().filter(|b| **b).count() * 20 < na)
 }
 
 /// Solves the LP, with working-set pricing when [`use_pricing`] says so.

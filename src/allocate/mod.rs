@@ -115,7 +115,7 @@ pub struct AllocOptions {
     /// true). Off: one LP over every site. Both reach the same optimum.
     pub pricing: bool,
     /// With `pricing`, a pool of at most this many arcs (default 4,500) whose first working
-    /// set holds at least a tenth of it is solved in one LP over every arc instead: there one
+    /// set holds at least a twentieth of it is solved in one LP over every arc instead: there one
     /// interior-point solve costs less than the rounds of pricing (measured in
     /// `docs/performance-allocate.md`). 0 always prices.
     pub direct_max_arcs: usize,
