@@ -599,6 +599,8 @@ pub struct Sweep {
     pub without: Vec<String>,
     /// The `--set` arguments applied, as written.
     pub settings: Vec<String>,
+    /// Whether every variant searched routes as long as `plan` ([`SweepSpec::full_routes`]).
+    pub full_routes: bool,
     /// One per multiplier, ascending.
     pub variants: Vec<VariantResult>,
     /// The saturation point.
@@ -688,6 +690,7 @@ pub fn sweep(
         week_start: case.week_start,
         without: spec.without.iter().map(|s| s.trim().to_string()).collect(),
         settings: spec.settings.iter().map(|s| s.arg.clone()).collect(),
+        full_routes: spec.full_routes,
         variants,
         saturation,
     })

@@ -318,11 +318,18 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
                 .join(", ")
         }
     };
+    let search = if sweep.full_routes {
+        "every variant searched routes as long as <code>plan</code> does (<code>--full-routes</code>)"
+    } else {
+        "the 1× variant searched routes as long as <code>plan</code> does, the others for a \
+         shorter time (their routes are not printed; <code>--full-routes</code> for the full \
+         search)"
+    };
     let _ = writeln!(
         h,
         "<p>Every variant is a full plan (allocation, whole vials, routes) with each facility's \
-         daily vials × the multiplier, rounded half to even. Facilities removed from every \
-         variant: {}. scenario.json overrides applied to every variant: {}.</p>",
+         daily vials × the multiplier, rounded half to even; {search}. Facilities removed from \
+         every variant: {}. scenario.json overrides applied to every variant: {}.</p>",
         list(&sweep.without),
         list(&sweep.settings)
     );
@@ -444,6 +451,7 @@ mod tests {
             week_start: chrono::NaiveDate::from_ymd_opt(2027, 3, 1).unwrap(),
             without: vec!["F2".into()],
             settings: vec!["policy.dooryard_share_min=0.3".into()],
+            full_routes: false,
             variants,
             saturation,
         }
