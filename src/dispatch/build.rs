@@ -168,6 +168,7 @@ pub fn dispatch_cached(
     for part in parts {
         out.routes.extend(part.routes);
         out.undeliverable.extend(part.undeliverable);
+        out.notes.extend(part.notes);
     }
     dispatch_parcels(scenario, allocation, &parcels, &mut out);
     out.routes.sort_by(|a, b| {
@@ -291,6 +292,14 @@ fn route_depot_day(
         },
     );
     let depot_id = &scenario.facilities[facility].id;
+    if sol.time_limited {
+        out.notes.push(format!(
+            "route search for {depot_id} on {date} stopped at its time limit of {} s \
+             (dispatch.time_limit_seconds) before its round limits: another run may give other \
+             routes; raise the limit for repeatable routes",
+            opts.time_limit.map(|t| t.as_secs_f64()).unwrap_or(0.0)
+        ));
+    }
     let pack_time = scenario.agent.pack_time;
     let wasps_per_vial = f64::from(scenario.facilities[facility].wasps_per_vial);
     for (n, plan) in sol.routes.iter().enumerate() {
@@ -468,6 +477,32 @@ mod tests {
         assert_eq!(b1[0].service_start, b1[1].service_start);
         // The older vial has aged a day more, so fewer wasps per vial are alive.
         assert!(b1[1].wasps_expected_alive / 2.0 < b1[0].wasps_expected_alive / 3.0);
+    }
+
+    #[test]
+    fn a_binding_time_limit_is_noted_and_round_limits_are_not() {
+        let s = tiny();
+        let alloc = allocation(vec![
+            ship(&s, 0, 0, "B1", Mode::Route, 3),
+            ship(&s, 0, 0, "B2", Mode::Route, 4),
+        ]);
+        let travel = TravelModel::new(&s);
+        let by_rounds = dispatch_with(&s, &alloc, &travel, &opts());
+        assert!(by_rounds.notes.is_empty(), "{:?}", by_rounds.notes);
+        // A zero limit stops the perturbation rounds before the first one.
+        let limited = DispatchOptions {
+            time_limit: Some(Duration::ZERO),
+            ..opts()
+        };
+        let by_time = dispatch_with(&s, &alloc, &travel, &limited);
+        assert_eq!(by_time.notes.len(), 1, "{:?}", by_time.notes);
+        let note = &by_time.notes[0];
+        assert!(
+            note.contains("F1 on 2027-03-01") && note.contains("dispatch.time_limit_seconds"),
+            "{note}"
+        );
+        // The first local optimum is still a complete plan.
+        assert_eq!(by_time.routes.len(), by_rounds.routes.len());
     }
 
     #[test]

@@ -88,6 +88,9 @@ pub struct Dispatch {
     pub parcels: Vec<ParcelShipment>,
     /// Shipments that could not be placed on any route or parcel.
     pub undeliverable: Vec<Undeliverable>,
+    /// Notes on the route search, one line each in (facility, date) order: a depot-day whose
+    /// search stopped at `dispatch.time_limit_seconds` rather than at its round limits.
+    pub notes: Vec<String>,
 }
 
 mod build;

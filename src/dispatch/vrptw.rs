@@ -173,6 +173,9 @@ pub struct Solution {
     pub unserved: Vec<(usize, Infeasibility)>,
     /// Sum of the routes' drive minutes.
     pub total_drive_minutes: f64,
+    /// Whether `time_limit` stopped the search before its round limits: then another run may
+    /// give other routes.
+    pub time_limited: bool,
 }
 
 impl Solution {
@@ -221,15 +224,17 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
     let mut best = cur.clone();
     let mut rng = fastrand::Rng::with_seed(opts.seed);
     let served = data.n - 1;
+    let mut time_limited = false;
     if served > 1 {
         let mut last_best = 0u32;
         for it in 0..opts.max_iterations {
+            if it - last_best >= opts.stall_rounds {
+                break;
+            }
             if let Some(limit) = opts.time_limit
                 && started.elapsed() >= limit
             {
-                break;
-            }
-            if it - last_best >= opts.stall_rounds {
+                time_limited = true;
                 break;
             }
             let mut cand = cur.clone();
@@ -247,7 +252,10 @@ pub fn solve(inst: &Instance, opts: &SolveOptions) -> Solution {
             }
         }
     }
-    best.into_solution()
+    Solution {
+        time_limited,
+        ..best.into_solution()
+    }
 }
 
 /// Instance data in solver-friendly form.
@@ -1081,6 +1089,7 @@ impl<'a> State<'a> {
             routes,
             unserved,
             total_drive_minutes,
+            time_limited: false,
         }
     }
 }

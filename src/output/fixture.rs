@@ -199,6 +199,7 @@ pub fn tiny_plan() -> TinyPlan {
             shipment: 3,
             reason: "capacity",
         }],
+        notes: Vec::new(),
     };
     TinyPlan {
         scenario: sc,

@@ -159,8 +159,14 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     }
     h.push_str("</div></section>\n");
 
+    let notes: Vec<String> = al
+        .notes
+        .iter()
+        .chain(&view.dispatch.notes)
+        .cloned()
+        .collect();
     for (title, lines) in [
-        ("Notes", &al.notes[..]),
+        ("Notes", &notes[..]),
         ("Moved by route feedback", view.moved),
     ] {
         let _ = write!(h, "<section><h2>{title}</h2>");

@@ -41,7 +41,8 @@ struct Summary<'a> {
     routes: usize,
     parcels: usize,
     binding_constraints: Vec<BindingOut<'a>>,
-    notes: &'a [String],
+    /// Allocation notes, then route-search notes.
+    notes: Vec<&'a str>,
     moved: &'a [String],
 }
 
@@ -88,7 +89,12 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
                 dual: round_to(b.dual, 6),
             })
             .collect(),
-        notes: &al.notes,
+        notes: al
+            .notes
+            .iter()
+            .chain(&view.dispatch.notes)
+            .map(String::as_str)
+            .collect(),
         moved: view.moved,
     };
     let mut bytes = serde_json::to_vec_pretty(&doc)?;
