@@ -6,7 +6,7 @@
 //! always runs first). Prints a Markdown table.
 use broodcast::allocate::{AllocOptions, allocate};
 use broodcast::arcs::{ArcOptions, build_arcs_with};
-use broodcast::generate::{GenParams, generate};
+use broodcast::generate::{self, GenParams};
 use broodcast::plan;
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{Multiplier, scale_supply};
@@ -60,14 +60,9 @@ fn main() {
     )];
     for n in sizes {
         let seed = if n == 180 { 11 } else { 1 };
-        let files = generate(&GenParams::sized(n, seed));
-        let refs: Vec<(&str, &[u8])> = files
-            .iter()
-            .map(|(name, b)| (name.as_str(), b.as_slice()))
-            .collect();
         cases.push((
             format!("generated {n} (seed {seed})"),
-            scenario::load_files(&refs).expect("loads"),
+            generate::load(&GenParams::sized(n, seed)).expect("generated week loads"),
         ));
     }
     for (name, s) in &cases {

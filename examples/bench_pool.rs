@@ -8,7 +8,7 @@
 use std::time::Instant;
 
 use broodcast::allocate::{AllocOptions, Allocation, allocate};
-use broodcast::generate::{GenParams, generate};
+use broodcast::generate::{self, GenParams};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{Multiplier, scale_supply};
 use broodcast::travel::TravelModel;
@@ -83,12 +83,7 @@ fn main() {
     let demo = scenario::load_embedded_demo().expect("demo loads");
     let mut cases = vec![("demo".to_string(), demo)];
     for n in sizes {
-        let files = generate(&GenParams::sized(n, 1));
-        let refs: Vec<(&str, &[u8])> = files
-            .iter()
-            .map(|(name, b)| (name.as_str(), b.as_slice()))
-            .collect();
-        let s = scenario::load_files(&refs).expect("generated week loads");
+        let s = generate::load(&GenParams::sized(n, 1)).expect("generated week loads");
         cases.push((format!("generated {n}"), s));
     }
     for (name, s) in &cases {

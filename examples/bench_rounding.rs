@@ -6,7 +6,7 @@
 use std::time::Instant;
 
 use broodcast::allocate::{AllocOptions, allocate};
-use broodcast::generate::{GenParams, generate};
+use broodcast::generate::{self, GenParams};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{Multiplier, scale_supply};
 use broodcast::travel::TravelModel;
@@ -67,12 +67,7 @@ fn main() {
         row(d, &s);
     }
     for n in sizes {
-        let files = generate(&GenParams::sized(n, 1));
-        let refs: Vec<(&str, &[u8])> = files
-            .iter()
-            .map(|(name, b)| (name.as_str(), b.as_slice()))
-            .collect();
-        let s = scenario::load_files(&refs).expect("generated week loads");
+        let s = generate::load(&GenParams::sized(n, 1)).expect("generated week loads");
         row(&format!("generated {n}"), &s);
     }
 }

@@ -229,6 +229,20 @@ pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
     ]
 }
 
+/// The week [`generate`] writes for `p`, loaded and validated as `broodcast plan` would load
+/// the folder (for benchmarks and tests that plan a generated week without writing it).
+///
+/// # Errors
+/// The loader's error, which would be a bug in the generator.
+pub fn load(p: &GenParams) -> Result<crate::scenario::Scenario, crate::scenario::InputError> {
+    let files = generate(p);
+    let view: Vec<(&str, &[u8])> = files
+        .iter()
+        .map(|(n, b)| (n.as_str(), b.as_slice()))
+        .collect();
+    crate::scenario::load_files(&view)
+}
+
 /// A grove cluster: centre and number of blocks.
 struct Cluster {
     centre: LonLat,

@@ -36,8 +36,8 @@ pub struct PlanOptions {
     /// Allocation options.
     pub alloc: AllocOptions,
     /// Divides the scenario's route-search rounds per depot-day (most rounds and rounds
-    /// without a new best); 0 and 1 mean the full search. `sweep` uses it for variants with
-    /// several times the supply, whose routes nobody prints.
+    /// without a new best); 0 and 1 mean the full search. `sweep` uses it for every variant
+    /// but 1×, whose routes nobody prints.
     pub route_rounds_divisor: u32,
 }
 
@@ -184,10 +184,6 @@ fn drop_undeliverable(
     }
     allocation.objective =
         allocate::plan_objective(scenario, priority, arcs, opts, &allocation.shipments)?;
-    allocation.gap = if allocation.bound > 0.0 {
-        1.0 - allocation.objective / allocation.bound
-    } else {
-        0.0
-    };
+    allocation.gap = allocate::gap(allocation.objective, allocation.bound);
     Ok(allocation)
 }

@@ -548,8 +548,6 @@ pub(crate) struct Relaxation {
     pub res_dual: Vec<f64>,
     pub share_dual: f64,
     pub rounds: usize,
-    /// Arc columns in the final working set.
-    pub columns: usize,
     /// Whether the LP was solved on a working set with pricing (else on every arc at once).
     pub priced: bool,
     /// The final working set, as indices into `Arcs::arcs`, ascending.
@@ -820,7 +818,6 @@ pub(crate) fn solve_relaxation(
                 .map(|c| c.map(|c| solution.values[c].max(0.0)).unwrap_or(0.0))
                 .collect();
             let in_set = built.site_rows.iter().map(Option::is_some).collect();
-            let columns = arc_in.iter().filter(|b| **b).count();
             let working_set = inst
                 .source
                 .iter()
@@ -837,7 +834,6 @@ pub(crate) fn solve_relaxation(
                 res_dual,
                 share_dual,
                 rounds,
-                columns,
                 priced,
             });
         }

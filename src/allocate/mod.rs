@@ -238,6 +238,17 @@ pub fn export_mps(
     Ok(mps::write_mps(&built.model))
 }
 
+/// How far a plan worth `objective` can be from the best whole-vial plan, given an upper
+/// `bound` on it: `1 − objective / bound`, at least 0, and 0 when the bound is 0 (nothing to
+/// allocate).
+pub fn gap(objective: f64, bound: f64) -> f64 {
+    if bound.abs() > 1e-12 {
+        (1.0 - objective / bound).max(0.0)
+    } else {
+        0.0
+    }
+}
+
 /// Plans the week in whole vials: LP relaxation (`opts.solver`) with working-set pricing, then
 /// rounding and repair (see `docs/model.md`).
 ///
@@ -277,7 +288,7 @@ pub fn allocate(
             notes.push(format!(
                 "LP solved on {} of {} arcs ({priced} of {} reachable sites) in {} round(s); no \
                  other arc has a positive reduced cost, so the bound holds for the whole pool",
-                relax.columns,
+                relax.working_set.len(),
                 inst.arcs.len(),
                 inst.sites.len(),
                 relax.rounds
@@ -434,11 +445,7 @@ pub fn allocate(
              limits, vehicle and parcel capacity, shelf life and the dooryard share"
         ));
     }
-    let gap = if bound.abs() > 1e-12 {
-        (1.0 - objective / bound).max(0.0)
-    } else {
-        0.0
-    };
+    let gap = gap(objective, bound);
     Ok(Allocation {
         shipments,
         sites,

@@ -53,6 +53,13 @@ pub struct PlanView<'a> {
     pub moved: &'a [String],
 }
 
+impl<'a> PlanView<'a> {
+    /// The plan's notes: the allocation's, then the route search's (plain text).
+    pub fn notes(&self) -> impl Iterator<Item = &'a String> {
+        self.allocation.notes.iter().chain(&self.dispatch.notes)
+    }
+}
+
 /// Why the outputs could not be rendered.
 #[derive(Debug, thiserror::Error)]
 pub enum OutputError {

@@ -159,12 +159,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     }
     h.push_str("</div></section>\n");
 
-    let notes: Vec<String> = al
-        .notes
-        .iter()
-        .chain(&view.dispatch.notes)
-        .cloned()
-        .collect();
+    let notes: Vec<String> = view.notes().cloned().collect();
     for (title, lines) in [
         ("Notes", &notes[..]),
         ("Moved by route feedback", view.moved),

@@ -89,12 +89,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
                 dual: round_to(b.dual, 6),
             })
             .collect(),
-        notes: al
-            .notes
-            .iter()
-            .chain(&view.dispatch.notes)
-            .map(String::as_str)
-            .collect(),
+        notes: view.notes().map(String::as_str).collect(),
         moved: view.moved,
     };
     let mut bytes = serde_json::to_vec_pretty(&doc)?;

@@ -11,17 +11,12 @@ use std::process::{Command, Output};
 
 use broodcast::allocate::Allocation;
 use broodcast::arcs::Mode;
-use broodcast::generate::{GenParams, generate};
-use broodcast::scenario::{self, Scenario, SiteKind};
+use broodcast::generate::{self, GenParams};
+use broodcast::scenario::{Scenario, SiteKind};
 
 /// The week `broodcast generate --sites SITES --seed SEED` writes, loaded.
 pub fn generated(sites: usize, seed: u64) -> Scenario {
-    let files = generate(&GenParams::sized(sites, seed));
-    let view: Vec<(&str, &[u8])> = files
-        .iter()
-        .map(|(n, b)| (n.as_str(), b.as_slice()))
-        .collect();
-    scenario::load_files(&view).expect("generated scenario is valid")
+    generate::load(&GenParams::sized(sites, seed)).expect("generated scenario is valid")
 }
 
 /// Asserts the limits every whole-vial plan keeps, recounted from its shipments: at least one
