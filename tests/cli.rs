@@ -44,13 +44,14 @@ fn plan_on_the_demo_writes_every_output_and_is_deterministic() {
 }
 
 #[test]
-fn plan_replaces_an_old_output_folder_whole() {
+fn plan_replaces_its_own_earlier_output_whole() {
     let tmp = tempfile::tempdir().unwrap();
     let out = tmp.path().join("out");
-    std::fs::create_dir(&out).unwrap();
-    std::fs::write(out.join("stale.txt"), "old").unwrap();
     plan_demo(&out);
-    assert!(!out.join("stale.txt").exists());
+    // A file broodcast wrote and nobody changed may go: the next plan replaces the folder.
+    let marker = out.join(".broodcast-output.json");
+    assert!(marker.exists());
+    plan_demo(&out);
     assert!(out.join("manifest.csv").exists());
     let leftovers: Vec<_> = std::fs::read_dir(tmp.path())
         .unwrap()
@@ -117,10 +118,15 @@ fn check_passes_on_the_demo_and_prints_json() {
 }
 
 #[test]
-fn demo_refuses_to_overwrite_a_folder() {
+fn demo_refuses_to_overwrite_a_folder_with_files() {
     let tmp = tempfile::tempdir().unwrap();
+    std::fs::write(tmp.path().join("mine.txt"), "x").unwrap();
     let out = run(&["demo", "--out", tmp.path().to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(2));
+    assert_eq!(
+        std::fs::read_to_string(tmp.path().join("mine.txt")).unwrap(),
+        "x"
+    );
 }
 
 /// A default (pure-Rust) build has no HiGHS: `--solver highs` is an input error that says how

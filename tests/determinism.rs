@@ -67,7 +67,9 @@ fn plan_writes_the_same_bytes_on_one_and_two_threads() {
         one.0.keys().collect::<Vec<_>>(),
         two.0.keys().collect::<Vec<_>>()
     );
-    assert_eq!(one.0.len(), broodcast::output::FILE_NAMES.len());
+    // The contract's files plus the marker that lets the next run replace the folder.
+    assert_eq!(one.0.len(), broodcast::output::FILE_NAMES.len() + 1);
+    assert!(one.0.contains_key(broodcast::output::target::MARKER));
     for (name, bytes) in &one.0 {
         assert!(!bytes.is_empty(), "{name} is empty");
         assert!(

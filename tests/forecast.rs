@@ -169,12 +169,15 @@ fn forecast_writes_a_supply_csv_the_planner_loads() {
         "2027-03-01",
         "--out",
         s(&demo.join("supply.csv")),
+        // The demo's own supply.csv is there: --force moves it aside, never deletes it.
+        "--force",
     ]);
     assert!(
         out.status.success(),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+    assert!(demo.join("supply.csv.replaced-1").exists());
     let supply = std::fs::read_to_string(demo.join("supply.csv")).expect("supply");
     let vials: u64 = supply
         .lines()

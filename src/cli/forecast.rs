@@ -17,9 +17,14 @@ pub(crate) struct Args {
     /// Daily mean temperatures: facility_id,date,mean_c (every day from adding to emergence).
     #[arg(long)]
     temps: PathBuf,
-    /// Where to write supply.csv (facility_id,date,vials), atomically.
+    /// Where to write supply.csv (facility_id,date,vials), atomically. An existing file is
+    /// refused (broodcast cannot tell its own CSV from yours) unless --force.
     #[arg(long)]
     out: PathBuf,
+    /// Move an existing --out file aside to `<name>.replaced-<n>` instead of refusing
+    /// (nothing is ever deleted).
+    #[arg(long)]
+    force: bool,
     /// Wasps in one vial, every facility (else read from --facilities).
     #[arg(long, conflicts_with = "facilities")]
     wasps_per_vial: Option<u32>,
@@ -65,6 +70,9 @@ pub(crate) fn run(args: Args) -> CliResult {
             w.weekday()
         )));
     }
+    let mut inputs = vec![args.rearing.as_path(), args.temps.as_path()];
+    inputs.extend(args.facilities.as_deref());
+    let target = crate::output::OutputFile::check(&args.out, &inputs, None, args.force)?;
     let params = ForecastParams {
         threshold_c: args.threshold_c,
         degree_days: args.degree_days,
@@ -88,12 +96,19 @@ pub(crate) fn run(args: Args) -> CliResult {
         rows.retain(|r| r.date >= w && r.date <= end);
     }
     let bytes = forecast::supply_csv(&rows);
-    crate::output::write_file_atomically(&args.out, &bytes)?;
+    let aside = target.write(&bytes)?;
     let vials: u64 = rows.iter().map(|r| u64::from(r.vials)).sum();
-    print_out(&format!(
+    let mut text = format!(
         "{} cages → {vials} vials over {} facility-days; wrote {}\n",
         cages.len(),
         rows.len(),
         args.out.display()
-    ))
+    );
+    if let Some(a) = aside {
+        text.push_str(&format!(
+            "moved the file that was there to {} (nothing was deleted)\n",
+            a.display()
+        ));
+    }
+    print_out(&text)
 }

@@ -2,7 +2,7 @@
 
 use std::path::PathBuf;
 
-use super::{CliResult, Failure, print_out};
+use super::{CliResult, print_out};
 use crate::{generate, output};
 
 /// Arguments of `generate`.
@@ -14,21 +14,16 @@ pub(crate) struct Args {
     /// Seed of the random stream (same seed, same files).
     #[arg(long, default_value_t = 1)]
     seed: u64,
-    /// Folder to create (must not exist yet).
+    /// Folder to create (new or empty; an unchanged earlier output of this command is replaced).
     #[arg(long)]
     out: PathBuf,
 }
 
 pub(crate) fn run(args: Args) -> CliResult {
-    if args.out.exists() {
-        return Err(Failure::Input(format!(
-            "{}: already exists; choose a new folder",
-            args.out.display()
-        )));
-    }
+    let target = output::OutputFolder::check(&args.out, &[], false)?;
     let params = generate::GenParams::sized(args.sites, args.seed);
     let files = generate::generate(&params);
-    output::write_dir_atomically(&args.out, &files)?;
+    target.write(&files)?;
     print_out(&format!(
         "wrote a {}-site scenario (seed {}) to {}\n",
         args.sites,

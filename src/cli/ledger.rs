@@ -24,8 +24,8 @@ enum Sub {
     Commit {
         /// Ledger file.
         db: PathBuf,
-        /// Plan folder written by `broodcast plan --out`.
-        out: PathBuf,
+        /// Plan folder written by `broodcast plan --out` (read, never written).
+        plan: PathBuf,
         /// Replace a different plan already committed for the same week.
         #[arg(long)]
         replace: bool,
@@ -45,9 +45,14 @@ enum Sub {
         /// Only weeks starting in this calendar year.
         #[arg(long)]
         season: Option<i32>,
-        /// Output folder, replaced as a whole once every file is ready.
+        /// Output folder, replaced as a whole once every file is ready, and only when it is
+        /// new, empty or an unchanged earlier broodcast output.
         #[arg(long, default_value = "season-report")]
         out: PathBuf,
+        /// When --out holds files broodcast did not write, move that folder aside to
+        /// `<name>.replaced-<n>` instead of refusing (nothing is ever deleted).
+        #[arg(long)]
+        force: bool,
     },
 }
 
@@ -86,9 +91,9 @@ pub(crate) fn run(args: Args) -> CliResult {
             };
             print_out(&text)
         }
-        Sub::Commit { db, out, replace } => {
+        Sub::Commit { db, plan, replace } => {
             let mut l = Ledger::open(&db)?;
-            let plan = ledger::read_plan_folder(&out)?;
+            let plan = ledger::read_plan_folder(&plan)?;
             let text = match l.commit(&plan, replace)? {
                 CommitOutcome::Recorded { shipments } => format!(
                     "committed week of {}: {shipments} shipments scheduled\n",
@@ -130,17 +135,22 @@ pub(crate) fn run(args: Args) -> CliResult {
             }
             print_out(&text)
         }
-        Sub::Report { db, season, out } => {
+        Sub::Report {
+            db,
+            season,
+            out,
+            force,
+        } => {
+            let target = output::OutputFolder::check(&out, &[db.as_path()], force)?;
             let l = Ledger::open(&db)?;
             let data = l.season(season)?;
             let files = ledger::render_report(&data);
-            output::write_dir_atomically(&out, &files)?;
+            let written = target.write(&files)?;
             print_out(&format!(
-                "{} weeks, {} shipments; wrote {} files to {}\n",
+                "{} weeks, {} shipments; {}",
                 data.weeks.len(),
                 data.shipments.len(),
-                files.len(),
-                out.display()
+                super::wrote_line(files.len(), &out, &written)
             ))
         }
     }

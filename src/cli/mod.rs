@@ -59,6 +59,42 @@ pub(crate) enum Failure {
     Input(String),
     /// broodcast failed (exit 1).
     Internal(anyhow::Error),
+    /// Writing the output failed part-way (full disk, …): exit 1, the message names the path
+    /// and the fix.
+    Write(String),
+}
+
+impl From<crate::output::TargetError> for Failure {
+    fn from(e: crate::output::TargetError) -> Self {
+        Failure::Input(e.to_string())
+    }
+}
+
+impl From<crate::output::WriteError> for Failure {
+    fn from(e: crate::output::WriteError) -> Self {
+        if e.is_input() {
+            Failure::Input(e.to_string())
+        } else {
+            Failure::Write(e.to_string())
+        }
+    }
+}
+
+/// The line a command prints after writing a folder, with where `--force` moved the old one.
+pub(crate) fn wrote_line(
+    files: usize,
+    out: &std::path::Path,
+    w: &crate::output::target::Written,
+) -> String {
+    let mut s = format!("wrote {files} files to {}\n", out.display());
+    if let Some(a) = &w.moved_aside {
+        s.push_str(&format!(
+            "moved what was in {} before to {} (nothing was deleted)\n",
+            out.display(),
+            a.display()
+        ));
+    }
+    s
 }
 
 impl From<InputError> for Failure {
@@ -124,6 +160,10 @@ pub fn main() -> ExitCode {
         }
         Err(Failure::Internal(e)) => {
             eprintln!("internal error: {e:#}");
+            ExitCode::from(1)
+        }
+        Err(Failure::Write(msg)) => {
+            eprintln!("error: {msg}");
             ExitCode::from(1)
         }
     }

@@ -14,9 +14,14 @@ use crate::scenario;
 pub(crate) struct Args {
     /// Scenario folder (default: the built-in demo).
     dir: Option<PathBuf>,
-    /// Output folder, replaced as a whole only once every file is ready.
+    /// Output folder, replaced as a whole only once every file is ready, and only when it is
+    /// new, empty or an unchanged earlier broodcast output.
     #[arg(long, default_value = "out")]
     out: PathBuf,
+    /// When --out holds files broodcast did not write, move that folder aside to
+    /// `<name>.replaced-<n>` instead of refusing (nothing is ever deleted).
+    #[arg(long)]
+    force: bool,
     /// Season ledger to read first: requests already served and blocks released within
     /// `policy.rerelease_interval_days` are not candidates.
     #[arg(long)]
@@ -62,6 +67,10 @@ impl SolverArg {
 pub(crate) fn run(args: Args) -> CliResult {
     // Checked before loading: a build without HiGHS refuses `--solver highs` at once.
     let solver = args.solver.solver()?;
+    let mut inputs: Vec<&std::path::Path> = args.dir.iter().map(PathBuf::as_path).collect();
+    inputs.extend(args.ledger.as_deref());
+    // Checked before the (possibly long) plan: a refused --out costs nothing.
+    let target = output::OutputFolder::check(&args.out, &inputs, args.force)?;
     let scenario = scenario::load(&source_of(&args.dir))?;
     let mut opts = PlanOptions::default();
     opts.alloc.solver = solver;
@@ -91,7 +100,7 @@ pub(crate) fn run(args: Args) -> CliResult {
     };
     let files =
         output::render_all_with(&view, &options).map_err(|e| Failure::Internal(e.into()))?;
-    output::write_dir_atomically(&args.out, &files)?;
+    let written = target.write(&files)?;
     let a = &p.allocation;
     let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
     let mut text = format!(
@@ -123,10 +132,6 @@ pub(crate) fn run(args: Args) -> CliResult {
     for n in &a.notes {
         text.push_str(&format!("note: {n}\n"));
     }
-    text.push_str(&format!(
-        "wrote {} files to {}\n",
-        files.len(),
-        args.out.display()
-    ));
+    text.push_str(&super::wrote_line(files.len(), &args.out, &written));
     print_out(&text)
 }

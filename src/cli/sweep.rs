@@ -36,9 +36,14 @@ pub(crate) struct Args {
     /// and a variant at m times the supply searches 1/(2⌈m⌉) of the rounds per depot-day).
     #[arg(long)]
     full_routes: bool,
-    /// Output folder, replaced as a whole only once every file is ready.
+    /// Output folder, replaced as a whole only once every file is ready, and only when it is
+    /// new, empty or an unchanged earlier broodcast output.
     #[arg(long, default_value = "sweep-out")]
     out: PathBuf,
+    /// When --out holds files broodcast did not write, move that folder aside to
+    /// `<name>.replaced-<n>` instead of refusing (nothing is ever deleted).
+    #[arg(long)]
+    force: bool,
 }
 
 fn input(e: SweepError) -> Failure {
@@ -104,6 +109,8 @@ pub(crate) fn run(args: Args) -> CliResult {
             value: args.saturation,
         }));
     }
+    let inputs: Vec<&Path> = args.dir.iter().map(PathBuf::as_path).collect();
+    let target = output::OutputFolder::check(&args.out, &inputs, args.force)?;
     let source = source_of(&args.dir);
     // The scenario as given must be valid on its own, so that a problem found after the
     // overrides is theirs.
@@ -136,7 +143,7 @@ pub(crate) fn run(args: Args) -> CliResult {
     bar.finish_and_clear();
     let s = result.map_err(input)?;
     let files = sweep_report::render(&s).map_err(|e| Failure::Internal(e.into()))?;
-    output::write_dir_atomically(&args.out, &files)?;
+    let written = target.write(&files)?;
 
     let mut text = format!(
         "swept '{}' (week of {}): {} variant(s)",
@@ -179,10 +186,6 @@ pub(crate) fn run(args: Args) -> CliResult {
     }
     text.push_str(&sweep_report::saturation_text(&s));
     text.push('\n');
-    text.push_str(&format!(
-        "wrote {} files to {}\n",
-        files.len(),
-        args.out.display()
-    ));
+    text.push_str(&super::wrote_line(files.len(), &args.out, &written));
     print_out(&text)
 }

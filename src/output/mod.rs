@@ -23,6 +23,7 @@ mod summary;
 mod svg;
 mod sweep_chart;
 pub mod sweep_report;
+pub mod target;
 
 use std::collections::BTreeMap;
 
@@ -36,6 +37,7 @@ use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
 pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
+pub use target::{OutputFile, OutputFolder, TargetError, WriteError};
 
 /// Everything the outputs are rendered from: the validated scenario and the results of the
 /// later stages. Borrowed, never modified.
