@@ -103,9 +103,12 @@ pub enum Pruning {
 pub struct ArcOptions {
     /// Which feasible arcs to keep.
     pub pruning: Pruning,
-    /// A site gets arcs only from this many facilities, the nearest by drive time (default
-    /// 2; common practice: a site is served from a nearby facility, and the next one covers
-    /// when the first runs short). `usize::MAX` keeps every facility.
+    /// A site gets arcs only from this many facilities, the nearest by drive time. The
+    /// default, `usize::MAX`, keeps every facility that can deliver live wasps before
+    /// release-by, so the LP and its bounds are those of the whole problem. A smaller value
+    /// is a speed option for experiments only: the bounds are then those of the pruned
+    /// problem, which can be far below the whole problem's (docs/model.md, "Nearest
+    /// facilities").
     pub max_facilities_per_site: usize,
 }
 
@@ -113,7 +116,7 @@ impl Default for ArcOptions {
     fn default() -> Self {
         ArcOptions {
             pruning: Pruning::default(),
-            max_facilities_per_site: 2,
+            max_facilities_per_site: usize::MAX,
         }
     }
 }

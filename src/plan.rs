@@ -142,10 +142,35 @@ pub fn plan_with(
             .iter()
             .map(|u| u.shipment)
             .collect();
-        let allocation =
+        let mut allocation =
             drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?;
-        let dispatch = route(&allocation);
-        debug_assert!(dispatch.undeliverable.is_empty());
+        let mut dispatch = route(&allocation);
+        // Routing the smaller plan can still leave a stop out (routes change when stops go).
+        // The objective must count only what is delivered, so drop those too; each pass
+        // removes at least one site, so this ends.
+        while !dispatch.undeliverable.is_empty() {
+            let dropped: Vec<usize> = dispatch.undeliverable.iter().map(|u| u.shipment).collect();
+            for u in &dispatch.undeliverable {
+                let s = &allocation.shipments[u.shipment];
+                moved.push(format!(
+                    "{} {}: {} vials dropped after re-routing ({}); they stay at {}",
+                    scenario.sites[s.arc.site].kind().as_str(),
+                    scenario.sites[s.arc.site].id,
+                    s.vials,
+                    u.reason,
+                    scenario.facilities[s.arc.facility].id
+                ));
+            }
+            allocation = drop_undeliverable(
+                &scenario,
+                &priority,
+                &arcs,
+                &alloc_opts,
+                allocation,
+                &dropped,
+            )?;
+            dispatch = route(&allocation);
+        }
         (allocation, dispatch)
     };
     Ok(Plan {

@@ -53,7 +53,7 @@ fn textbook_transportation_problem_matches_published_optimum() {
             m.add_row(&format!("demand_{j}"), &t, Sense::Eq, demand[j]);
         }
         let sol = if integer {
-            m.solve_integer(0.0, 30.0)
+            m.solve_integer(0.0, 100_000)
                 .expect("balanced transportation problem")
         } else {
             m.solve_relaxation()
@@ -199,9 +199,21 @@ fn reference_objective(s: &Scenario, p: &[f64], arcs: &Arcs, x: &[u32]) -> Optio
     let n = s.sites.len();
     let mut e = vec![0.0; n];
     let mut v = vec![0u32; n];
+    // Releases per site: each arc with vials is one shipment, hence one release.
+    let mut releases = vec![0u32; n];
     let mut used: BTreeMap<(usize, chrono::NaiveDate), u32> = BTreeMap::new();
     let mut cost = 0.0;
     for (a, &k) in arcs.arcs.iter().zip(x) {
+        if k > 0 {
+            releases[a.site] += 1;
+            // With several releases allowed, each must reach the minimum on its own.
+            if s.policy.releases_per_site_week > 1
+                && s.sites[a.site].kind() == SiteKind::Block
+                && a.wasps_alive_per_vial * f64::from(k) < ag.min_release_wasps - 1e-9
+            {
+                return None;
+            }
+        }
         e[a.site] += a.wasps_alive_per_vial * f64::from(k);
         v[a.site] += k;
         *used.entry((a.facility, a.pack_date)).or_default() += k;
@@ -218,6 +230,9 @@ fn reference_objective(s: &Scenario, p: &[f64], arcs: &Arcs, x: &[u32]) -> Optio
         total += v[i];
         if v[i] == 0 {
             continue;
+        }
+        if releases[i] > s.policy.releases_per_site_week {
+            return None;
         }
         if e[i] > ag.max_release_wasps + 1e-9 {
             return None;
@@ -285,8 +300,11 @@ fn whole_vial_plan_is_between_brute_force_and_both_bounds_on_tiny_instances() {
     let mut worst = 0.0f64;
     let mut tested = 0;
     let mut tighter = 0;
+    let mut optimal = 0;
     for seed in 0..40u64 {
-        let (s, p, arcs) = tiny_instance(seed, 3 + (seed % 3) as usize);
+        let (mut s, p, arcs) = tiny_instance(seed, 3 + (seed % 3) as usize);
+        // One release per site (the default) on most; two on every fourth instance.
+        s.policy.releases_per_site_week = if seed % 4 == 3 { 2 } else { 1 };
         let states: f64 = arcs
             .arcs
             .iter()
@@ -326,14 +344,19 @@ fn whole_vial_plan_is_between_brute_force_and_both_bounds_on_tiny_instances() {
         if best > 0.0 {
             worst = worst.max(1.0 - alloc.objective / best);
         }
+        if alloc.objective >= best - 1e-6 * best.abs().max(1.0) {
+            optimal += 1;
+        }
         tested += 1;
     }
     eprintln!(
-        "{tested} tiny instances; worst shortfall of rounding vs brute-force optimum: {:.2} %; \
-         whole-vial bound below the LP bound on {tighter}",
+        "{tested} tiny instances; plan = brute-force optimum on {optimal}; worst shortfall: \
+         {:.2} %; whole-vial bound below the LP bound on {tighter}",
         worst * 100.0
     );
     assert!(tested >= 20);
+    // Most tiny plans are optimal (measured: see docs/model.md, "Rounding").
+    assert!(optimal * 10 >= tested * 8, "{optimal} of {tested} optimal");
 }
 
 fn plan_x(alloc: &Allocation, arcs: &Arcs) -> Vec<u32> {

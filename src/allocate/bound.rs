@@ -91,7 +91,7 @@ fn site_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)]) -> f64 {
         sp,
         arcs,
         (cap, most),
-        (0, 0.0, 0, 0.0),
+        (0, 0.0, 0, 0.0, inst.releases_per_site),
         &mut best,
         &mut nodes,
     );
@@ -103,14 +103,15 @@ fn site_max(inst: &Instance, sp: usize, arcs: &[(f64, f64)]) -> f64 {
 }
 
 /// Depth-first over vials per arc from arc `i` on, with `n` vials, `e` wasps and `cost` so
-/// far; updates `best`. Returns false when the node budget ran out (then `best` covers only
-/// part of the releases).
+/// far and `left` releases still allowed (an arc with vials is one release; with several,
+/// each must be a valid release on its own); updates `best`. Returns false when the node
+/// budget ran out (then `best` covers only part of the releases).
 fn enumerate(
     inst: &Instance,
     sp: usize,
     arcs: &[(f64, f64)],
     (cap, most): (f64, u32),
-    (i, e, n, cost): (usize, f64, u32, f64),
+    (i, e, n, cost, left): (usize, f64, u32, f64, u32),
     best: &mut f64,
     nodes: &mut usize,
 ) -> bool {
@@ -128,18 +129,23 @@ fn enumerate(
     let mut k = 0u32;
     loop {
         let e2 = e + f64::from(k) * alive;
-        if e2 > cap || n + k > most {
+        if e2 > cap || n + k > most || (k > 0 && left == 0) {
             return true;
         }
-        if !enumerate(
-            inst,
-            sp,
-            arcs,
-            (cap, most),
-            (i + 1, e2, n + k, cost + f64::from(k) * price),
-            best,
-            nodes,
-        ) {
+        let several = inst.releases_per_site > 1;
+        let this_ok = k == 0 || !several || inst.release_ok(sp, f64::from(k) * alive, k);
+        let left2 = if k > 0 { left - 1 } else { left };
+        if this_ok
+            && !enumerate(
+                inst,
+                sp,
+                arcs,
+                (cap, most),
+                (i + 1, e2, n + k, cost + f64::from(k) * price, left2),
+                best,
+                nodes,
+            )
+        {
             return false;
         }
         if alive <= 0.0 && price >= 0.0 {

@@ -77,6 +77,9 @@ pub(crate) struct Instance<'a> {
     pub min: f64,
     pub weight2: f64,
     pub per_request: u32,
+    /// Releases (arcs with vials) a site may get this week, ≥ 1
+    /// (`policy.releases_per_site_week`).
+    pub releases_per_site: u32,
     pub notes: Vec<String>,
 }
 
@@ -323,6 +326,7 @@ impl<'a> Instance<'a> {
             min: agent.min_release_wasps,
             weight2: agent.above_target_weight,
             per_request: policy.dooryard_vials_per_request,
+            releases_per_site: policy.releases_per_site_week.max(1),
             notes,
         })
     }

@@ -188,6 +188,50 @@ pub enum AllocError {
         /// Solver error.
         source: model::ModelError,
     },
+    /// The bounds do not order as they must (objective ≤ bound ≤ lp_bound beyond solver
+    /// tolerance): a defect or numerical failure, never printed as a gap.
+    #[error(
+        "scenario `{scenario}`: the plan's objective {objective} and bounds {bound} ≤ {lp_bound} \
+         do not order (objective ≤ whole-vial bound ≤ LP bound); this is a defect, please report it"
+    )]
+    BoundOrder {
+        /// Scenario name.
+        scenario: String,
+        /// Whole-vial objective.
+        objective: f64,
+        /// Whole-vial bound.
+        bound: f64,
+        /// LP bound.
+        lp_bound: f64,
+    },
+}
+
+/// Checks objective ≤ bound ≤ lp_bound up to a relative 1e-6 (interior-point tolerance).
+///
+/// # Errors
+/// [`AllocError::BoundOrder`] when they do not order, or any of them is not finite.
+pub fn check_bound_order(
+    scenario: &str,
+    objective: f64,
+    bound: f64,
+    lp_bound: f64,
+) -> Result<(), AllocError> {
+    let tol = |x: f64| 1e-6 * x.abs().max(1.0);
+    let ok = objective.is_finite()
+        && bound.is_finite()
+        && lp_bound.is_finite()
+        && objective <= bound + tol(bound)
+        && bound <= lp_bound + tol(lp_bound);
+    if ok {
+        Ok(())
+    } else {
+        Err(AllocError::BoundOrder {
+            scenario: scenario.to_string(),
+            objective,
+            bound,
+            lp_bound,
+        })
+    }
 }
 
 /// The objective of a whole-vial plan, recomputed from its shipments alone: Σ_s priority_s ·
@@ -445,6 +489,7 @@ pub fn allocate(
              limits, vehicle and parcel capacity, shelf life and the dooryard share"
         ));
     }
+    check_bound_order(&scenario.name, objective, bound, lp_bound)?;
     let gap = gap(objective, bound);
     Ok(Allocation {
         shipments,

@@ -9,10 +9,9 @@
 use std::collections::BTreeMap;
 
 use good_lp::solvers::clarabel::clarabel;
-use good_lp::solvers::microlp::microlp;
 use good_lp::{
     DualValues, Expression, ProblemVariables, Solution, SolutionWithDual, SolverModel, Variable,
-    WithMipGap, WithTimeLimit, variable,
+    variable,
 };
 
 /// Errors from building or solving a [`LinearModel`].
@@ -344,31 +343,66 @@ impl LinearModel {
         Ok((values, duals))
     }
 
-    /// Solves with microlp, honouring integer columns (branch and bound stops at relative
-    /// `mip_gap`, or at `time_limit_seconds` with the best plan found). No duals. Use only on
-    /// small models: microlp's simplex is dense-ish and slows past a few thousand columns.
+    /// Solves with microlp, honouring integer columns. Branch and bound stops at relative
+    /// `mip_gap`, or after `node_limit` nodes with the best plan found: a work limit, so the
+    /// same model gives the same answer on any machine and under any load. No duals. Use only
+    /// on small models: microlp's simplex is dense-ish and slows past a few thousand columns.
+    ///
+    /// # Errors
+    /// [`ModelError::Solver`] when microlp fails or the node limit is reached before any
+    /// integer plan is found.
     pub fn solve_integer(
         &self,
-        mip_gap: f32,
-        time_limit_seconds: f64,
+        mip_gap: f64,
+        node_limit: u64,
     ) -> Result<ModelSolution, ModelError> {
-        let (vars, cols, objective) = self.to_good_lp(true);
-        let mut problem = vars
-            .maximise(objective)
-            .using(microlp)
-            .with_time_limit(time_limit_seconds);
-        problem = problem
-            .with_mip_gap(mip_gap.max(0.0))
-            .map_err(|e| ModelError::Solver {
-                solver: "microlp",
-                model: self.name.clone(),
-                message: e.to_string(),
-            })?;
-        for r in &self.rows {
-            problem.add_constraint(self.constraint(r, &cols));
+        let fail = |message: String| ModelError::Solver {
+            solver: "microlp",
+            model: self.name.clone(),
+            message,
+        };
+        let mut p = ::microlp::Problem::new(::microlp::OptimizationDirection::Maximize);
+        let mut vars = Vec::with_capacity(self.columns.len());
+        for c in &self.columns {
+            let v = if c.integer {
+                // microlp's integer columns take i32 bounds.
+                let lo = c.lower.max(f64::from(i32::MIN)).ceil() as i32;
+                let hi = c.upper.min(f64::from(i32::MAX)).floor() as i32;
+                p.add_integer_var(c.objective, (lo, hi))
+            } else {
+                p.add_var(c.objective, (c.lower, c.upper))
+            };
+            vars.push(v);
         }
-        let sol = problem.solve().map_err(|e| self.map_err("microlp", e))?;
-        let values: Vec<f64> = cols.iter().map(|&v| sol.value(v)).collect();
+        for r in &self.rows {
+            let mut e = ::microlp::LinearExpr::empty();
+            for &(c, a) in &r.terms {
+                e.add(vars[c], a);
+            }
+            let op = match r.sense {
+                Sense::Le => ::microlp::ComparisonOp::Le,
+                Sense::Ge => ::microlp::ComparisonOp::Ge,
+                Sense::Eq => ::microlp::ComparisonOp::Eq,
+            };
+            p.add_constraint(e, op, r.rhs);
+        }
+        let mut opts = ::microlp::SolveOptions::default();
+        opts.mip_gap = mip_gap.max(0.0);
+        opts.node_limit = Some(node_limit);
+        let sol = p
+            .solve_with(opts)
+            .map_err(|e| match e {
+                ::microlp::Error::Infeasible => ModelError::Infeasible {
+                    model: self.name.clone(),
+                },
+                ::microlp::Error::Unbounded => ModelError::Unbounded {
+                    model: self.name.clone(),
+                },
+                other => fail(other.to_string()),
+            })?
+            .into_solution()
+            .map_err(|_| fail(format!("no integer plan within {node_limit} nodes")))?;
+        let values: Vec<f64> = vars.iter().map(|&v| sol.var_value(v)).collect();
         let objective = self.objective_of(&values);
         Ok(ModelSolution {
             values,
@@ -412,7 +446,7 @@ mod tests {
         assert!((s.values[x] - 3.0).abs() < 1e-6);
         assert!((s.duals[r1] - 2.0).abs() < 1e-5, "{:?}", s.duals);
         assert!(s.duals[r2].abs() < 1e-5);
-        let i = m.solve_integer(0.0, 10.0).expect("feasible");
+        let i = m.solve_integer(0.0, 100_000).expect("feasible");
         assert!((i.objective - 11.0).abs() < 1e-9);
     }
 
@@ -488,7 +522,7 @@ mod tests {
         let x = m.add_column("x", 0.0, 1.0, 1.0, false);
         m.add_row("r", &[(x, 1.0)], Sense::Ge, 5.0);
         assert!(matches!(
-            m.solve_integer(0.0, 5.0),
+            m.solve_integer(0.0, 100_000),
             Err(ModelError::Infeasible { .. })
         ));
     }

@@ -44,6 +44,8 @@ pub(crate) struct State<'i, 'a> {
     used: Vec<f64>,
     site_e: Vec<f64>,
     site_v: Vec<u32>,
+    /// Releases at each site: its arcs with vials.
+    site_n: Vec<u32>,
     door: f64,
     total: f64,
     /// Moves evaluated so far (the work budget's unit).
@@ -68,6 +70,7 @@ impl<'i, 'a> State<'i, 'a> {
             used: vec![0.0; inst.resources.len()],
             site_e: vec![0.0; inst.sites.len()],
             site_v: vec![0; inst.sites.len()],
+            site_n: vec![0; inst.sites.len()],
             door: 0.0,
             total: 0.0,
             work: 0,
@@ -89,8 +92,29 @@ impl<'i, 'a> State<'i, 'a> {
         self.inst.release_ok(sp, e, v)
     }
 
+    /// Whether site position `sp` holds a valid week: at most `releases_per_site` releases,
+    /// each within the release rules when there may be several (with one release the site's
+    /// total is that release).
     fn site_ok(&self, sp: usize) -> bool {
+        let inst = self.inst;
+        if self.site_n[sp] > inst.releases_per_site {
+            return false;
+        }
+        if self.site_n[sp] > 1 {
+            let each_ok = inst.sites[sp].arcs.iter().all(|&a| {
+                let x = self.x[a];
+                x == 0 || self.release_ok(sp, f64::from(x) * inst.arcs[a].wasps_alive_per_vial, x)
+            });
+            if !each_ok {
+                return false;
+            }
+        }
         self.release_ok(sp, self.site_e[sp], self.site_v[sp])
+    }
+
+    /// Whether one more vial on arc `a` of a served site keeps its count of releases allowed.
+    fn release_room(&self, a: usize) -> bool {
+        self.x[a] > 0 || self.site_n[self.inst.arc_site[a]] < self.inst.releases_per_site
     }
 
     fn share_ok(&self) -> bool {
@@ -110,7 +134,13 @@ impl<'i, 'a> State<'i, 'a> {
         let inst = self.inst;
         let sp = inst.arc_site[a];
         let df = d as f64;
+        let was = self.x[a];
         self.x[a] = (i64::from(self.x[a]) + d) as u32;
+        match (was, self.x[a]) {
+            (0, x) if x > 0 => self.site_n[sp] += 1,
+            (w, 0) if w > 0 => self.site_n[sp] -= 1,
+            _ => {}
+        }
         for &r in &inst.arc_res[a] {
             self.used[r] += df;
         }
@@ -157,9 +187,9 @@ impl<'i, 'a> State<'i, 'a> {
         let mut sites: Vec<usize> = moves.iter().map(|&(a, _)| inst.arc_site[a]).collect();
         sites.sort_unstable();
         sites.dedup();
-        let saved_sites: Vec<(f64, u32)> = sites
+        let saved_sites: Vec<(f64, u32, u32)> = sites
             .iter()
-            .map(|&s| (self.site_e[s], self.site_v[s]))
+            .map(|&s| (self.site_e[s], self.site_v[s], self.site_n[s]))
             .collect();
         let saved_res: Vec<(usize, f64)> = moves
             .iter()
@@ -191,9 +221,10 @@ impl<'i, 'a> State<'i, 'a> {
         for &(a, d) in moves {
             self.x[a] = (i64::from(self.x[a]) - d) as u32;
         }
-        for (&s, &(e, v)) in sites.iter().zip(&saved_sites) {
+        for (&s, &(e, v, n)) in sites.iter().zip(&saved_sites) {
             self.site_e[s] = e;
             self.site_v[s] = v;
+            self.site_n[s] = n;
         }
         for &(r, u) in saved_res.iter().rev() {
             self.used[r] = u;
@@ -273,8 +304,15 @@ impl<'i, 'a> State<'i, 'a> {
             let here = self.site_value(sp, e, v);
             let mut moves: Vec<Growth> = Vec::new();
             for &a in &site.arcs {
+                if v > 0 && !self.release_room(a) {
+                    continue;
+                }
                 let alive = inst.arcs[a].wasps_alive_per_vial;
                 let n: u32 = match (site.kind, v > 0) {
+                    (SiteKind::Block, true) if self.x[a] == 0 => {
+                        // A further release on a new arc: at least the minimum on its own.
+                        ((inst.min * (1.0 - EPS) / alive).ceil() as u32).max(1)
+                    }
                     (SiteKind::Dooryard, true) => break,
                     (SiteKind::Dooryard, false) => inst.per_request,
                     (SiteKind::Block, true) => 1,
@@ -346,7 +384,9 @@ impl<'i, 'a> State<'i, 'a> {
         let inst = self.inst;
         let sb = inst.arc_site[b];
         let (e, v) = (self.site_e[sb], self.site_v[sb]);
-        if v == 0 {
+        if v == 0 || self.x[b] == 0 {
+            // One vial on an unused arc would be a release of its own, below any minimum
+            // worth having; whole-release moves handle a change of arc.
             return None;
         }
         let e2 = e + inst.arcs[b].wasps_alive_per_vial;
@@ -365,9 +405,17 @@ impl<'i, 'a> State<'i, 'a> {
         } else {
             e - inst.arcs[a].wasps_alive_per_vial
         };
+        let left = self.x[a] - 1;
+        let arc_ok = self.site_n[sa] <= 1
+            || left == 0
+            || self.release_ok(
+                sa,
+                f64::from(left) * inst.arcs[a].wasps_alive_per_vial,
+                left,
+            );
         (
             self.site_value(sa, e2, v2) - self.site_value(sa, e, v) + inst.cost[a],
-            self.release_ok(sa, e2, v2),
+            arc_ok && self.release_ok(sa, e2, v2),
         )
     }
 }
@@ -418,16 +466,25 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
         arcs.sort_by(|&a, &b| lp_x[b].total_cmp(&lp_x[a]).then(a.cmp(&b)));
         let mut placed: Vec<(usize, i64)> = Vec::new();
         let mut left = want;
-        for &a in &arcs {
-            if left == 0 {
+        // At most `releases_per_site` arcs: each release goes on the arc of largest LP flow
+        // that takes all that is left, else on the one with the most room.
+        while left > 0 && (placed.len() as u32) < inst.releases_per_site {
+            let unused = arcs
+                .iter()
+                .copied()
+                .filter(|a| !placed.iter().any(|p| p.0 == *a));
+            let pick = unused
+                .clone()
+                .find(|&a| st.free(a) >= left)
+                .or_else(|| unused.max_by_key(|&a| (st.free(a), std::cmp::Reverse(a))));
+            let Some(a) = pick else { break };
+            let take = left.min(st.free(a));
+            if take == 0 {
                 break;
             }
-            let take = left.min(st.free(a));
-            if take > 0 {
-                st.commit(&[(a, i64::from(take))]);
-                placed.push((a, i64::from(take)));
-                left -= take;
-            }
+            st.commit(&[(a, i64::from(take))]);
+            placed.push((a, i64::from(take)));
+            left -= take;
         }
         // Trim while above the maximum release.
         while st.site_e[sp] > inst.max * (1.0 + EPS) + EPS {
@@ -622,6 +679,54 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 }
             }
         }
+        // Move a whole release to another arc of its site (another facility, pack day,
+        // dispatch day or mode), with the same vials or the count that keeps its live wasps.
+        let served: Vec<usize> = cand_list
+            .iter()
+            .copied()
+            .filter(|&sp| st.site_v[sp] > 0)
+            .collect();
+        for sp in served {
+            if st.work >= budget {
+                break;
+            }
+            let arcs = &inst.sites[sp].arcs;
+            let mut best: Option<(f64, [(usize, i64); 2])> = None;
+            let used: Vec<usize> = arcs.iter().copied().filter(|&a| st.x[a] > 0).collect();
+            let unused: Vec<usize> = arcs.iter().copied().filter(|&a| st.x[a] == 0).collect();
+            for &a in &used {
+                let xa = st.x[a];
+                let ea = f64::from(xa) * inst.arcs[a].wasps_alive_per_vial;
+                for &b in &unused {
+                    let alive_b = inst.arcs[b].wasps_alive_per_vial;
+                    let same_wasps = if alive_b > 0.0 {
+                        (ea / alive_b).round().max(1.0) as u32
+                    } else {
+                        xa
+                    };
+                    let mut counts =
+                        vec![xa, same_wasps, same_wasps + 1, same_wasps.saturating_sub(1)];
+                    if inst.sites[sp].kind == SiteKind::Dooryard {
+                        counts = vec![xa];
+                    }
+                    counts.sort_unstable();
+                    counts.dedup();
+                    for n in counts.into_iter().filter(|&n| n > 0) {
+                        let mv = [(a, -i64::from(xa)), (b, i64::from(n))];
+                        if let Some(g) = st.try_moves(&mv)
+                            && g > 1e-9
+                            && best.is_none_or(|x| g > x.0)
+                        {
+                            best = Some((g, mv));
+                        }
+                    }
+                }
+            }
+            if let Some((_, mv)) = best {
+                st.commit(&mv);
+                improved = true;
+            }
+        }
         // Open an unserved site on one arc, push out the cheapest vials that share its
         // resources, refill greedily; keep it if the plan gains.
         let unserved: Vec<usize> = cand_list
@@ -744,9 +849,14 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
     st.x
 }
 
-/// Largest candidate arc count for the microlp polish (DESIGN.md: microlp's branch and bound
-/// is only reliable on small models).
-const MIP_POLISH_MAX_ARCS: usize = 60;
+/// Largest candidate arc count for the microlp polish (microlp's branch and bound is only
+/// quick on small models: measured, 32–56 arcs could take over 5 s on two busy cores).
+const MIP_POLISH_MAX_ARCS: usize = 40;
+
+/// Branch-and-bound nodes the polish may use: a work limit, so the plan never depends on the
+/// machine's speed or load; the best plan found within it is kept only if it beats the local
+/// search.
+const MIP_POLISH_NODES: u64 = 2_000;
 
 /// Blocked recipients per donor for which the single-vial search tries an ejection chain.
 const MAX_CHAINS_PER_DONOR: usize = 8;
@@ -755,7 +865,8 @@ const MAX_CHAINS_PER_DONOR: usize = 8;
 const MAX_REROUTES_PER_CHAIN: usize = 16;
 
 /// The whole-vial problem over `cand` sites as a MIP (integer vials, a 0/1 serve flag per
-/// site), solved by microlp with a 1e-4 relative gap and a 5 s safety limit. Returns vials
+/// site, a 0/1 release flag per arc), solved by microlp with a 1e-4 relative gap within
+/// [`MIP_POLISH_NODES`] nodes. Returns vials
 /// per usable arc, or None when microlp fails.
 fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Vec<u32>> {
     use super::model::{LinearModel, Sense};
@@ -791,6 +902,35 @@ fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Ve
             .iter()
             .map(|&a| (col[a], inst.arcs[a].wasps_alive_per_vial))
             .collect();
+        // One 0/1 release flag per arc: vials only on a flagged arc, at most
+        // `releases_per_site` flags, and for a block each release at least the minimum.
+        let mut flags = Vec::with_capacity(site.arcs.len());
+        for &a in &site.arcs {
+            let z = m.add_column(&format!("z{a}"), 0.0, 1.0, 0.0, true);
+            let ub = inst.arc_res[a]
+                .iter()
+                .map(|&r| inst.res_rhs[r].floor())
+                .fold(f64::INFINITY, f64::min)
+                .min(f64::from(i32::MAX));
+            m.add_row(
+                &format!("use{a}"),
+                &[(col[a], 1.0), (z, -ub)],
+                Sense::Le,
+                0.0,
+            );
+            if site.kind == SiteKind::Block {
+                let alive_a = inst.arcs[a].wasps_alive_per_vial;
+                m.add_row(
+                    &format!("min{a}"),
+                    &[(col[a], alive_a), (z, -inst.min)],
+                    Sense::Ge,
+                    0.0,
+                );
+            }
+            flags.push((z, 1.0));
+        }
+        flags.push((y, -f64::from(inst.releases_per_site)));
+        m.add_row(&format!("releases{sp}"), &flags, Sense::Le, 0.0);
         let vials: Vec<(usize, f64)> = site.arcs.iter().map(|&a| (col[a], 1.0)).collect();
         let mut b: Vec<(usize, f64)> = alive.iter().map(|&(c, v)| (c, -v)).collect();
         b.extend([(u1, 1.0), (u2, 1.0)]);
@@ -843,7 +983,7 @@ fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Ve
     if !share_terms.is_empty() {
         m.add_row("share", &share_terms, Sense::Ge, 0.0);
     }
-    let sol = m.solve_integer(1e-4, 5.0).ok()?;
+    let sol = m.solve_integer(1e-4, MIP_POLISH_NODES).ok()?;
     let mut x = vec![0u32; inst.arcs.len()];
     for &a in cand_arcs {
         x[a] = sol.values[col[a]].round().max(0.0) as u32;

@@ -237,6 +237,7 @@ pub fn tiny() -> Scenario {
             pressure_bandwidth_km: 2.0,
             travel_cost_per_hour: 1.0,
             rerelease_interval_days: 28,
+            releases_per_site_week: 1,
         },
         travel: Travel {
             circuity: 1.3,

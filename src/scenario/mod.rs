@@ -237,6 +237,11 @@ pub struct Policy {
     /// block is revisited about once a month, roughly one flush cycle and more than one wasp
     /// generation; no published value). 0: no interval.
     pub rerelease_interval_days: u32,
+    /// Releases a site may get in one week (`policy.releases_per_site_week`, 1–7, default 1).
+    /// A release is one shipment: one facility, pack day, dispatch day and mode; the minimum
+    /// release applies to each. Common practice: one release per site per visit cycle; a
+    /// one-vial top-up days later is a second, too-small release, not part of the first.
+    pub releases_per_site_week: u32,
 }
 
 /// Travel settings (`scenario.json` `travel`).

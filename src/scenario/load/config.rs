@@ -330,6 +330,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         travel_cost_per_hour: p.number(sink, "travel_cost_per_hour", Some(1.0), non_negative),
         rerelease_interval_days: p.integer(sink, "rerelease_interval_days", Some(28), 0, 3660)
             as u32,
+        releases_per_site_week: p.integer(sink, "releases_per_site_week", Some(1), 1, 7) as u32,
     };
 
     let tr = top.object(sink, "travel", true);
