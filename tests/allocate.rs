@@ -474,22 +474,20 @@ fn a_warm_started_resolve_reaches_the_same_optimum() {
     assert!(b.gap <= 0.01, "gap {}", b.gap);
 }
 
-fn check_invariants(s: &Scenario, arcs: &Arcs, a: &Allocation) {
+fn check_invariants(s: &Scenario, p: &[f64], arcs: &Arcs, a: &Allocation) {
     let (door, total) = util::check_whole_vial_limits(s, a);
-    // The floor is dropped (with a note) when no request has a usable arc; that case is
-    // pinned by `share_floor_with_no_reachable_request_is_dropped_with_a_note`.
-    let dropped = a.notes.iter().any(|n| n.contains("dropped"));
-    let share = if dropped {
-        0.0
-    } else {
-        s.policy.dooryard_share_min
-    };
-    assert!(dropped || effective_share(s, arcs) > 0.0 || share == 0.0 || total == 0);
+    // The floor as the model keeps it (typed, not read from a note): dropped when no request
+    // is reachable, lowered to what reachable requests can absorb.
+    let floor = broodcast::allocate::share_floor(s, p, arcs, &AllocOptions::default())
+        .expect("valid")
+        .unwrap_or(0.0);
+    assert!(floor <= s.policy.dooryard_share_min + 1e-12);
     assert!(
-        f64::from(door) >= share * f64::from(total) - 1e-9,
-        "share floor"
+        f64::from(door) >= floor * f64::from(total) - 1e-9,
+        "share floor {floor}: {door} of {total}"
     );
-    assert!(a.objective <= a.lp_bound + 1e-6 * a.lp_bound.abs().max(1.0));
+    assert!(a.objective <= a.bound + 1e-6 * a.bound.abs().max(1.0));
+    assert!(a.bound <= a.lp_bound + 1e-6 * a.lp_bound.abs().max(1.0));
 }
 
 proptest! {
@@ -503,7 +501,7 @@ proptest! {
             a.eta = a.release_by + chrono::Duration::hours(1);
         }
         let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("never an error on valid inputs");
-        check_invariants(&s, &arcs, &a);
+        check_invariants(&s, &p, &arcs, &a);
     }
 }
 
@@ -539,7 +537,7 @@ fn no_eligible_site_gives_an_empty_plan() {
 fn supply_far_above_demand_stops_at_max_release() {
     let (s, p, arcs) = synthetic::generate(5, 20, 5000);
     let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
-    check_invariants(&s, &arcs, &a);
+    check_invariants(&s, &p, &arcs, &a);
     let shipped: u32 = a.shipments.iter().map(|x| x.vials).sum();
     assert!(shipped < 5000);
     assert!(
@@ -555,19 +553,25 @@ fn supply_far_above_demand_stops_at_max_release() {
 }
 
 #[test]
-fn unmeetable_share_floor_is_kept_and_explained() {
+fn a_share_floor_requests_cannot_absorb_is_lowered_so_no_vial_stays_home() {
     let (mut s, p, arcs) = synthetic::generate(8, 200, 400);
     s.policy.dooryard_share_min = 0.9;
-    let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
-    check_invariants(&s, &arcs, &a);
-    assert!(
-        a.notes
-            .iter()
-            .any(|n| n.contains("dooryard share 0.90 binds")),
-        "{:?}",
-        a.notes
-    );
+    let opts = AllocOptions::default();
+    let a = allocate(&s, &p, &arcs, &opts).expect("valid");
+    check_invariants(&s, &p, &arcs, &a);
+    // 0.9 of the week's vials is more than the reachable requests can take: the floor is
+    // lowered to exactly what they can (k vials each over the usable supply), still binds,
+    // and more vials ship than 0.9 would allow.
+    let floor = broodcast::allocate::share_floor(&s, &p, &arcs, &opts)
+        .expect("valid")
+        .expect("kept");
+    assert!(floor < 0.9, "{floor}");
     assert!(a.binding.iter().any(|b| b.name == "dooryard_share"));
+    let (door, total) = util::check_whole_vial_limits(&s, &a);
+    assert!(
+        f64::from(total) > f64::from(door) / 0.9 + 1.0,
+        "{door} dooryard vials of {total}: the 0.9 floor would have held the rest back"
+    );
 }
 
 #[test]
@@ -599,7 +603,7 @@ fn facility_with_no_reachable_site_gets_zero_marginal_value() {
     let (s, p, mut arcs) = synthetic::generate(9, 100, 300);
     arcs.arcs.retain(|a| a.facility == 0);
     let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
-    check_invariants(&s, &arcs, &a);
+    check_invariants(&s, &p, &arcs, &a);
     assert!(a.shipments.iter().all(|x| x.arc.facility == 0));
     assert_eq!(a.marginal_value_per_vial[1], 0.0);
 }
@@ -634,7 +638,7 @@ fn force_forbid_and_exclusions_are_honoured() {
         },
     ];
     let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
-    check_invariants(&s, &arcs, &a);
+    check_invariants(&s, &p, &arcs, &a);
     assert_eq!(a.sites[served].vials, 0);
     assert_eq!(a.sites[served].reason, Some(Reason::Forbidden));
     assert!(a.sites[unserved].wasps_expected_alive >= s.agent.min_release_wasps);
@@ -667,7 +671,7 @@ fn unmeetable_force_is_relaxed_and_explained() {
         action: OverrideAction::Force { vials: Some(500) },
     }];
     let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
-    check_invariants(&s, &arcs, &a);
+    check_invariants(&s, &p, &arcs, &a);
     assert!(
         a.notes.iter().any(|n| n.contains("cannot be met in full")),
         "{:?}",

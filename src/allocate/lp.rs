@@ -286,7 +286,33 @@ impl<'a> Instance<'a> {
         let has_door = sites.iter().any(|s| s.kind == SiteKind::Dooryard);
         let share = if policy.dooryard_share_min > 0.0 {
             if has_door {
-                Some(policy.dooryard_share_min.min(1.0))
+                // The floor never makes vials stay home: when the reachable requests cannot
+                // absorb the share of the week's supply, it is lowered to what they can take
+                // (docs/model.md, "Dooryard share").
+                let share = policy.dooryard_share_min.min(1.0);
+                let requests = sites
+                    .iter()
+                    .filter(|s| s.kind == SiteKind::Dooryard)
+                    .count() as f64;
+                let absorb = requests * f64::from(policy.dooryard_vials_per_request);
+                let supply: f64 = resources
+                    .iter()
+                    .zip(&res_rhs)
+                    .filter(|(r, _)| matches!(r, Resource::Supply(..)))
+                    .map(|(_, v)| *v)
+                    .sum();
+                if supply > 0.0 && share * supply > absorb {
+                    let lowered = absorb / supply;
+                    notes.push(format!(
+                        "dooryard share lowered from {share:.2} to {lowered:.4}: the {requests} \
+                         reachable request(s) can take at most {absorb} vials, less than {share:.2} \
+                         of the week's {supply} vials; the rest may go to blocks rather than \
+                         stay at the facilities"
+                    ));
+                    Some(lowered)
+                } else {
+                    Some(share)
+                }
             } else {
                 notes.push(format!(
                     "dooryard share {:.2} dropped: no dooryard request can be reached this week, \

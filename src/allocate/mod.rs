@@ -206,6 +206,22 @@ pub enum AllocError {
     },
 }
 
+/// The dooryard share floor the allocation keeps for these inputs: `None` when the policy
+/// sets none or no request can be reached (the row is dropped), else the policy's share,
+/// lowered to what the reachable requests can absorb of the week's usable supply
+/// (`docs/model.md`, "Dooryard share"). Dooryard vials ≥ floor × vials shipped in every plan.
+///
+/// # Errors
+/// As [`allocate`] for inputs that do not belong together.
+pub fn share_floor(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+) -> Result<Option<f64>, AllocError> {
+    Ok(lp::Instance::new(scenario, priority, arcs, opts)?.share)
+}
+
 /// Checks objective ≤ bound ≤ lp_bound up to a relative 1e-6 (interior-point tolerance).
 ///
 /// # Errors
@@ -396,8 +412,8 @@ pub fn allocate(
                 .filter(|s| s.kind == crate::scenario::SiteKind::Dooryard)
                 .count() as u64;
             notes.push(format!(
-                "dooryard share {s:.2} binds: {requests} reachable request(s) × {} vials allow \
-                 at most {} dooryard vials, so block vials are held back to keep the share; \
+                "dooryard share {s:.2} binds: the plan serves more requests than value alone \
+                 would ({requests} reachable request(s) × {} vials could take up to {} vials); \
                  each vial the floor demands costs {:.1} objective units",
                 inst.per_request,
                 requests * u64::from(inst.per_request),
