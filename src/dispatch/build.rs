@@ -21,8 +21,9 @@ use crate::travel::{Place, TravelTimes};
 pub struct DispatchOptions {
     /// Base seed; each depot-day mixes in its depot and date.
     pub seed: u64,
-    /// Wall-clock budget per depot-day; `None` for the iteration cap only. A binding limit
-    /// makes routes depend on the machine's speed.
+    /// Wall-clock budget per depot-day; `None` (the default) for the round limits only. Set
+    /// only on the user's request: a binding limit makes routes depend on the machine's speed,
+    /// and its use is reported in [`Dispatch::notes`].
     pub time_limit: Option<Duration>,
     /// Most perturbation rounds per depot-day.
     pub max_iterations: u32,
@@ -31,13 +32,16 @@ pub struct DispatchOptions {
 }
 
 impl DispatchOptions {
-    /// `dispatch.seed` and `dispatch.time_limit_seconds` from the scenario, 3,000 rounds.
+    /// `dispatch.seed` and, only when the scenario sets it, `dispatch.time_limit_seconds`;
+    /// 3,000 rounds, stop after 1,000 without a new best.
     pub fn from_scenario(scenario: &Scenario) -> Self {
-        let secs = scenario.dispatch.time_limit_seconds;
         DispatchOptions {
             seed: scenario.dispatch.seed,
-            time_limit: (secs.is_finite() && secs > 0.0)
-                .then(|| Duration::from_secs_f64(secs.min(86_400.0))),
+            time_limit: scenario
+                .dispatch
+                .time_limit_seconds
+                .filter(|s| s.is_finite() && *s > 0.0)
+                .map(|s| Duration::from_secs_f64(s.min(86_400.0))),
             max_iterations: SolveOptions::default().max_iterations,
             stall_rounds: SolveOptions::default().stall_rounds,
         }
@@ -170,6 +174,17 @@ pub fn dispatch_cached(
         out.undeliverable.extend(part.undeliverable);
         out.notes.extend(part.notes);
     }
+    if let Some(limit) = opts.time_limit
+        && out.notes.is_empty()
+        && !groups.is_empty()
+    {
+        out.notes.push(format!(
+            "route search ran with a wall-clock limit of {} s per depot-day \
+             (dispatch.time_limit_seconds); it stopped none this time, but under load it may: \
+             leave it unset for routes that repeat on any machine",
+            limit.as_secs_f64()
+        ));
+    }
     dispatch_parcels(scenario, allocation, &parcels, &mut out);
     out.routes.sort_by(|a, b| {
         (a.date, a.depot, route_number(&a.id)).cmp(&(b.date, b.depot, route_number(&b.id)))
@@ -296,7 +311,7 @@ fn route_depot_day(
         out.notes.push(format!(
             "route search for {depot_id} on {date} stopped at its time limit of {} s \
              (dispatch.time_limit_seconds) before its round limits: another run may give other \
-             routes; raise the limit for repeatable routes",
+             routes; leave the limit unset for routes that repeat on any machine",
             opts.time_limit.map(|t| t.as_secs_f64()).unwrap_or(0.0)
         ));
     }
@@ -480,7 +495,7 @@ mod tests {
     }
 
     #[test]
-    fn a_binding_time_limit_is_noted_and_round_limits_are_not() {
+    fn a_time_limit_is_noted_and_round_limits_are_not() {
         let s = tiny();
         let alloc = allocation(vec![
             ship(&s, 0, 0, "B1", Mode::Route, 3),
@@ -503,6 +518,18 @@ mod tests {
         );
         // The first local optimum is still a complete plan.
         assert_eq!(by_time.routes.len(), by_rounds.routes.len());
+        // A limit that is set but stops nothing is still reported, once.
+        let loose = DispatchOptions {
+            time_limit: Some(Duration::from_secs(3_600)),
+            ..opts()
+        };
+        let by_loose = dispatch_with(&s, &alloc, &travel, &loose);
+        assert_eq!(by_loose.notes.len(), 1, "{:?}", by_loose.notes);
+        assert!(by_loose.notes[0].contains("wall-clock limit of 3600 s"));
+        assert_eq!(
+            format!("{:?}", by_loose.routes),
+            format!("{:?}", by_rounds.routes)
+        );
     }
 
     #[test]
