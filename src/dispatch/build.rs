@@ -232,67 +232,9 @@ fn route_depot_day(
     out: &mut Dispatch,
 ) {
     let base = date.and_time(NaiveTime::MIN);
-    let settings = &scenario.dispatch;
     let visit_list: Vec<(SiteIdx, &Vec<usize>)> = visits.iter().map(|(s, v)| (*s, v)).collect();
-    let customers: Vec<Customer> = visit_list
-        .iter()
-        .map(|(site, ships)| {
-            let s = &scenario.sites[*site];
-            let (service, open, close) = match s.as_block() {
-                Some(b) => (settings.service_minutes_block, b.access_start, b.access_end),
-                None => (
-                    settings.service_minutes_dooryard,
-                    settings.dooryard_window_start,
-                    settings.dooryard_window_end,
-                ),
-            };
-            let deadline = ships
-                .iter()
-                .map(|&i| minutes_since(base, allocation.shipments[i].arc.release_by))
-                .fold(f64::INFINITY, f64::min);
-            Customer {
-                demand_vials: ships
-                    .iter()
-                    .map(|&i| allocation.shipments[i].vials)
-                    .fold(0u32, u32::saturating_add),
-                service_minutes: service,
-                earliest: minutes_since(base, date.and_time(open)),
-                latest: minutes_since(base, date.and_time(close)),
-                deadline,
-            }
-        })
-        .collect();
-    let fleet: Vec<usize> = scenario
-        .fleet
-        .iter()
-        .enumerate()
-        .filter(|(_, v)| v.depot == facility && v.runs_on(date))
-        .map(|(i, _)| i)
-        .collect();
-    let vehicles: Vec<VehicleSpec> = fleet
-        .iter()
-        .map(|&i| {
-            let v = &scenario.fleet[i];
-            let (start, end) = v.shift_on(date);
-            VehicleSpec {
-                capacity_vials: v.capacity_vials,
-                start: minutes_since(base, start),
-                latest_return: minutes_since(base, end),
-            }
-        })
-        .collect();
-    let places: Vec<Place> = std::iter::once(Place::Facility(facility))
-        .chain(visit_list.iter().map(|(s, _)| Place::Site(*s)))
-        .collect();
-    let minutes: Vec<Vec<f64>> = places
-        .iter()
-        .map(|&a| places.iter().map(|&b| travel.minutes(a, b)).collect())
-        .collect();
-    let inst = Instance {
-        customers,
-        minutes,
-        vehicles,
-    };
+    let (inst, fleet) =
+        depot_day_instance(scenario, allocation, travel, facility, date, &visit_list);
     let seed = opts.seed
         ^ (facility as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
         ^ (date.num_days_from_ce() as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -359,6 +301,113 @@ fn route_depot_day(
             });
         }
     }
+}
+
+/// The VRPTW of one depot-day: node 0 the depot, node k the k-th of `visits` (one visit per
+/// site, vials added up, the earliest release-by as deadline), minutes from midnight of
+/// `date`; and the fleet indices of the instance's vehicles (the depot's vehicles running that
+/// day, in fleet order).
+fn depot_day_instance(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+    facility: FacilityIdx,
+    date: NaiveDate,
+    visit_list: &[(SiteIdx, &Vec<usize>)],
+) -> (Instance, Vec<usize>) {
+    let base = date.and_time(NaiveTime::MIN);
+    let settings = &scenario.dispatch;
+    let customers: Vec<Customer> = visit_list
+        .iter()
+        .map(|(site, ships)| {
+            let s = &scenario.sites[*site];
+            let (service, open, close) = match s.as_block() {
+                Some(b) => (settings.service_minutes_block, b.access_start, b.access_end),
+                None => (
+                    settings.service_minutes_dooryard,
+                    settings.dooryard_window_start,
+                    settings.dooryard_window_end,
+                ),
+            };
+            let deadline = ships
+                .iter()
+                .map(|&i| minutes_since(base, allocation.shipments[i].arc.release_by))
+                .fold(f64::INFINITY, f64::min);
+            Customer {
+                demand_vials: ships
+                    .iter()
+                    .map(|&i| allocation.shipments[i].vials)
+                    .fold(0u32, u32::saturating_add),
+                service_minutes: service,
+                earliest: minutes_since(base, date.and_time(open)),
+                latest: minutes_since(base, date.and_time(close)),
+                deadline,
+            }
+        })
+        .collect();
+    let fleet: Vec<usize> = scenario
+        .fleet
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.depot == facility && v.runs_on(date))
+        .map(|(i, _)| i)
+        .collect();
+    let vehicles: Vec<VehicleSpec> = fleet
+        .iter()
+        .map(|&i| {
+            let v = &scenario.fleet[i];
+            let (start, end) = v.shift_on(date);
+            VehicleSpec {
+                capacity_vials: v.capacity_vials,
+                start: minutes_since(base, start),
+                latest_return: minutes_since(base, end),
+            }
+        })
+        .collect();
+    let places: Vec<Place> = std::iter::once(Place::Facility(facility))
+        .chain(visit_list.iter().map(|(s, _)| Place::Site(*s)))
+        .collect();
+    let minutes: Vec<Vec<f64>> = places
+        .iter()
+        .map(|&a| places.iter().map(|&b| travel.minutes(a, b)).collect())
+        .collect();
+    (
+        Instance {
+            customers,
+            minutes,
+            vehicles,
+        },
+        fleet,
+    )
+}
+
+/// Every route depot-day of `allocation` as the VRPTW [`dispatch`] solves for it, keyed by
+/// (depot, date), in key order: for benchmarks against other solvers on the same instances.
+pub fn depot_day_instances(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+) -> Vec<(FacilityIdx, NaiveDate, Instance)> {
+    let mut groups: BTreeMap<(FacilityIdx, NaiveDate), BTreeMap<SiteIdx, Vec<usize>>> =
+        BTreeMap::new();
+    for (i, sh) in allocation.shipments.iter().enumerate() {
+        if sh.arc.mode == Mode::Route {
+            groups
+                .entry((sh.arc.facility, sh.arc.dispatch_date))
+                .or_default()
+                .entry(sh.arc.site)
+                .or_default()
+                .push(i);
+        }
+    }
+    groups
+        .into_iter()
+        .map(|((f, date), visits)| {
+            let list: Vec<(SiteIdx, &Vec<usize>)> = visits.iter().map(|(s, v)| (*s, v)).collect();
+            let (inst, _) = depot_day_instance(scenario, allocation, travel, f, date, &list);
+            (f, date, inst)
+        })
+        .collect()
 }
 
 fn dispatch_parcels(

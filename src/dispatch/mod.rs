@@ -98,4 +98,6 @@ mod build;
 pub mod tsp;
 pub mod vrptw;
 
-pub use build::{DispatchOptions, RouteCache, dispatch, dispatch_cached, dispatch_with};
+pub use build::{
+    DispatchOptions, RouteCache, depot_day_instances, dispatch, dispatch_cached, dispatch_with,
+};
