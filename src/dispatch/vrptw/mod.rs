@@ -11,7 +11,7 @@
 //! minutes, then the number of vehicles used.
 //!
 //! One file per concern:
-//! * [`segment`](self) (`segment.rs`) — **feasibility in O(1)**: every route keeps, for each
+//! * `segment.rs` — **feasibility in O(1)**: every route keeps, for each
 //!   prefix and suffix, the segment summary of Vidal et al. (2013, "A hybrid genetic algorithm
 //!   with adaptive diversity management for a large class of vehicle routing problems with
 //!   time-windows", Computers & OR 40) — duration, earliest and latest feasible start of the
@@ -23,6 +23,8 @@
 //! * `construct.rs` — Solomon's (1987) I1 sequential insertion (α1 = 1, μ = 1, λ = 1), once
 //!   per distinct opening order of vehicle kinds (fleet order, longest shift first, most
 //!   capacity first); O(n² · (n + V)) each.
+//! * `state.rs` — the solution under search: one route slot per vehicle, cheapest insertion
+//!   (with a choice of vehicle), the reason a customer fits nowhere.
 //! * `moves_within.rs`, `moves_between.rs`, `moves_vehicle.rs` — first-improvement local
 //!   search over each customer's `neighbours` nearest (ranked by drive both ways plus the
 //!   waiting the pair forces): relocate of 1–3 consecutive customers (both orientations,
