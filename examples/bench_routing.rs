@@ -395,6 +395,12 @@ fn main() -> Result<()> {
     );
     let out = Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/performance-routing.md");
     std::fs::create_dir_all(out.parent().context("docs dir")?)?;
+    // Keep the side-by-side section `scripts/bench_routing_peers.py` writes.
+    let old = std::fs::read_to_string(&out).unwrap_or_default();
+    let doc = match old.find("## Side by side") {
+        Some(at) => format!("{doc}\n{}", &old[at..]),
+        None => doc,
+    };
     std::fs::write(&out, doc).with_context(|| format!("writing {}", out.display()))?;
     Ok(())
 }

@@ -729,7 +729,6 @@ impl Gen<'_> {
                 service_minutes_dooryard: 5.0,
                 dooryard_window_start: "08:00",
                 dooryard_window_end: "18:00",
-                time_limit_seconds: 2.0,
                 seed: self.p.seed,
             },
         };
@@ -836,7 +835,6 @@ struct DispatchDoc {
     service_minutes_dooryard: f64,
     dooryard_window_start: &'static str,
     dooryard_window_end: &'static str,
-    time_limit_seconds: f64,
     seed: u64,
 }
 

@@ -54,17 +54,6 @@ fn scenario(root: &Path, name: &str, sites: u32, seed: u32) -> PathBuf {
         .output()
         .expect("run generate");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    let cfg = dir.join("scenario.json");
-    let text = fs::read_to_string(&cfg).expect("scenario.json");
-    assert!(text.contains("\"time_limit_seconds\": 2.0"), "{text}");
-    fs::write(
-        &cfg,
-        text.replace(
-            "\"time_limit_seconds\": 2.0",
-            "\"time_limit_seconds\": 600.0",
-        ),
-    )
-    .expect("write scenario.json");
     dir
 }
 

@@ -33,20 +33,10 @@ fn plan_writes_the_same_bytes_on_one_and_two_threads() {
         .output()
         .expect("run demo");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    // The routing stops at a round cap or a wall-clock limit, whichever comes first; on a
-    // loaded machine the clock could bind and make runs differ for a reason that has nothing
-    // to do with threads, so the limit is lifted and the round cap decides.
-    let cfg = scen.join("scenario.json");
-    let text = fs::read_to_string(&cfg).expect("scenario.json");
-    assert!(text.contains("\"time_limit_seconds\": 2.0"), "{text}");
-    fs::write(
-        &cfg,
-        text.replace(
-            "\"time_limit_seconds\": 2.0",
-            "\"time_limit_seconds\": 600.0",
-        ),
-    )
-    .expect("write scenario.json");
+    // The route search stops at round limits only (no wall-clock limit unless the scenario
+    // sets one), so the number of threads is the only thing that differs between the runs.
+    let text = fs::read_to_string(scen.join("scenario.json")).expect("scenario.json");
+    assert!(!text.contains("time_limit_seconds"), "{text}");
 
     let mut runs = Vec::new();
     for threads in ["1", "2"] {

@@ -60,7 +60,7 @@ fn minimal_folder_loads_cleanly() {
         s.dispatch.dooryard_window_end,
         NaiveTime::from_hms_opt(18, 0, 0).unwrap()
     );
-    assert_eq!(s.dispatch.time_limit_seconds, 2.0);
+    assert_eq!(s.dispatch.time_limit_seconds, None);
     assert_eq!(s.dispatch.seed, 1);
     assert_eq!(
         s.agent.survival,
@@ -350,7 +350,7 @@ fn optional_keys_override_defaults() {
         NaiveTime::from_hms_opt(5, 30, 0).unwrap()
     );
     assert_eq!(s.dispatch.seed, 7);
-    assert_eq!(s.dispatch.time_limit_seconds, 0.5);
+    assert_eq!(s.dispatch.time_limit_seconds, Some(0.5));
     assert_eq!(s.dispatch.service_minutes_block, 20.0);
 }
 

@@ -21,8 +21,9 @@ use crate::travel::{Place, TravelTimes};
 pub struct DispatchOptions {
     /// Base seed; each depot-day mixes in its depot and date.
     pub seed: u64,
-    /// Wall-clock budget per depot-day; `None` for the iteration cap only. A binding limit
-    /// makes routes depend on the machine's speed.
+    /// Wall-clock budget per depot-day; `None` (the default) for the round limits only. Set
+    /// only on the user's request: a binding limit makes routes depend on the machine's speed,
+    /// and its use is reported in [`Dispatch::notes`].
     pub time_limit: Option<Duration>,
     /// Most perturbation rounds per depot-day.
     pub max_iterations: u32,
@@ -31,13 +32,16 @@ pub struct DispatchOptions {
 }
 
 impl DispatchOptions {
-    /// `dispatch.seed` and `dispatch.time_limit_seconds` from the scenario, 3,000 rounds.
+    /// `dispatch.seed` and, only when the scenario sets it, `dispatch.time_limit_seconds`;
+    /// 3,000 rounds, stop after 1,000 without a new best.
     pub fn from_scenario(scenario: &Scenario) -> Self {
-        let secs = scenario.dispatch.time_limit_seconds;
         DispatchOptions {
             seed: scenario.dispatch.seed,
-            time_limit: (secs.is_finite() && secs > 0.0)
-                .then(|| Duration::from_secs_f64(secs.min(86_400.0))),
+            time_limit: scenario
+                .dispatch
+                .time_limit_seconds
+                .filter(|s| s.is_finite() && *s > 0.0)
+                .map(|s| Duration::from_secs_f64(s.min(86_400.0))),
             max_iterations: SolveOptions::default().max_iterations,
             stall_rounds: SolveOptions::default().stall_rounds,
         }
@@ -170,6 +174,17 @@ pub fn dispatch_cached(
         out.undeliverable.extend(part.undeliverable);
         out.notes.extend(part.notes);
     }
+    if let Some(limit) = opts.time_limit
+        && out.notes.is_empty()
+        && !groups.is_empty()
+    {
+        out.notes.push(format!(
+            "route search ran with a wall-clock limit of {} s per depot-day \
+             (dispatch.time_limit_seconds); it stopped none this time, but under load it may: \
+             leave it unset for routes that repeat on any machine",
+            limit.as_secs_f64()
+        ));
+    }
     dispatch_parcels(scenario, allocation, &parcels, &mut out);
     out.routes.sort_by(|a, b| {
         (a.date, a.depot, route_number(&a.id)).cmp(&(b.date, b.depot, route_number(&b.id)))
@@ -217,8 +232,91 @@ fn route_depot_day(
     out: &mut Dispatch,
 ) {
     let base = date.and_time(NaiveTime::MIN);
-    let settings = &scenario.dispatch;
     let visit_list: Vec<(SiteIdx, &Vec<usize>)> = visits.iter().map(|(s, v)| (*s, v)).collect();
+    let (inst, fleet) =
+        depot_day_instance(scenario, allocation, travel, facility, date, &visit_list);
+    let seed = opts.seed
+        ^ (facility as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        ^ (date.num_days_from_ce() as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    let sol = cache.solve(
+        &inst,
+        &SolveOptions {
+            seed,
+            time_limit: opts.time_limit,
+            max_iterations: opts.max_iterations,
+            stall_rounds: opts.stall_rounds,
+            ..SolveOptions::default()
+        },
+    );
+    let depot_id = &scenario.facilities[facility].id;
+    if sol.time_limited {
+        out.notes.push(format!(
+            "route search for {depot_id} on {date} stopped at its time limit of {} s \
+             (dispatch.time_limit_seconds) before its round limits: another run may give other \
+             routes; leave the limit unset for routes that repeat on any machine",
+            opts.time_limit.map(|t| t.as_secs_f64()).unwrap_or(0.0)
+        ));
+    }
+    let pack_time = scenario.agent.pack_time;
+    let wasps_per_vial = f64::from(scenario.facilities[facility].wasps_per_vial);
+    for (n, plan) in sol.routes.iter().enumerate() {
+        let mut stops = Vec::new();
+        for (k, &node) in plan.customers.iter().enumerate() {
+            let (site, ships) = visit_list[node - 1];
+            let arrival = at_minutes(base, plan.arrival[k]);
+            let service_start = at_minutes(base, plan.service_start[k]);
+            for &i in ships {
+                let sh = &allocation.shipments[i];
+                let packed = sh.arc.pack_date.and_time(pack_time);
+                let alive = scenario
+                    .agent
+                    .survival_at(hours_between(packed, service_start));
+                stops.push(Stop {
+                    shipment: i,
+                    site,
+                    arrival,
+                    service_start,
+                    vials: sh.vials,
+                    wasps_expected_alive: wasps_per_vial * alive * f64::from(sh.vials),
+                    release_by: sh.arc.release_by,
+                });
+            }
+        }
+        out.routes.push(Route {
+            id: format!("R-{}-{}-{}", depot_id, date.format("%Y%m%d"), n + 1),
+            vehicle: fleet[plan.vehicle],
+            depot: facility,
+            date,
+            depart: at_minutes(base, plan.depart),
+            return_at: at_minutes(base, plan.return_at),
+            stops,
+            drive_minutes: plan.drive_minutes,
+        });
+    }
+    for &(node, why) in &sol.unserved {
+        for &i in visit_list[node - 1].1 {
+            out.undeliverable.push(Undeliverable {
+                shipment: i,
+                reason: why.as_str(),
+            });
+        }
+    }
+}
+
+/// The VRPTW of one depot-day: node 0 the depot, node k the k-th of `visits` (one visit per
+/// site, vials added up, the earliest release-by as deadline), minutes from midnight of
+/// `date`; and the fleet indices of the instance's vehicles (the depot's vehicles running that
+/// day, in fleet order).
+fn depot_day_instance(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+    facility: FacilityIdx,
+    date: NaiveDate,
+    visit_list: &[(SiteIdx, &Vec<usize>)],
+) -> (Instance, Vec<usize>) {
+    let base = date.and_time(NaiveTime::MIN);
+    let settings = &scenario.dispatch;
     let customers: Vec<Customer> = visit_list
         .iter()
         .map(|(site, ships)| {
@@ -273,77 +371,43 @@ fn route_depot_day(
         .iter()
         .map(|&a| places.iter().map(|&b| travel.minutes(a, b)).collect())
         .collect();
-    let inst = Instance {
-        customers,
-        minutes,
-        vehicles,
-    };
-    let seed = opts.seed
-        ^ (facility as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
-        ^ (date.num_days_from_ce() as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    let sol = cache.solve(
-        &inst,
-        &SolveOptions {
-            seed,
-            time_limit: opts.time_limit,
-            max_iterations: opts.max_iterations,
-            stall_rounds: opts.stall_rounds,
-            ..SolveOptions::default()
+    (
+        Instance {
+            customers,
+            minutes,
+            vehicles,
         },
-    );
-    let depot_id = &scenario.facilities[facility].id;
-    if sol.time_limited {
-        out.notes.push(format!(
-            "route search for {depot_id} on {date} stopped at its time limit of {} s \
-             (dispatch.time_limit_seconds) before its round limits: another run may give other \
-             routes; raise the limit for repeatable routes",
-            opts.time_limit.map(|t| t.as_secs_f64()).unwrap_or(0.0)
-        ));
-    }
-    let pack_time = scenario.agent.pack_time;
-    let wasps_per_vial = f64::from(scenario.facilities[facility].wasps_per_vial);
-    for (n, plan) in sol.routes.iter().enumerate() {
-        let mut stops = Vec::new();
-        for (k, &node) in plan.customers.iter().enumerate() {
-            let (site, ships) = visit_list[node - 1];
-            let arrival = at_minutes(base, plan.arrival[k]);
-            let service_start = at_minutes(base, plan.service_start[k]);
-            for &i in ships {
-                let sh = &allocation.shipments[i];
-                let packed = sh.arc.pack_date.and_time(pack_time);
-                let alive = scenario
-                    .agent
-                    .survival_at(hours_between(packed, service_start));
-                stops.push(Stop {
-                    shipment: i,
-                    site,
-                    arrival,
-                    service_start,
-                    vials: sh.vials,
-                    wasps_expected_alive: wasps_per_vial * alive * f64::from(sh.vials),
-                    release_by: sh.arc.release_by,
-                });
-            }
-        }
-        out.routes.push(Route {
-            id: format!("R-{}-{}-{}", depot_id, date.format("%Y%m%d"), n + 1),
-            vehicle: fleet[plan.vehicle],
-            depot: facility,
-            date,
-            depart: at_minutes(base, plan.depart),
-            return_at: at_minutes(base, plan.return_at),
-            stops,
-            drive_minutes: plan.drive_minutes,
-        });
-    }
-    for &(node, why) in &sol.unserved {
-        for &i in visit_list[node - 1].1 {
-            out.undeliverable.push(Undeliverable {
-                shipment: i,
-                reason: why.as_str(),
-            });
+        fleet,
+    )
+}
+
+/// Every route depot-day of `allocation` as the VRPTW [`dispatch`] solves for it, keyed by
+/// (depot, date), in key order: for benchmarks against other solvers on the same instances.
+pub fn depot_day_instances(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &impl TravelTimes,
+) -> Vec<(FacilityIdx, NaiveDate, Instance)> {
+    let mut groups: BTreeMap<(FacilityIdx, NaiveDate), BTreeMap<SiteIdx, Vec<usize>>> =
+        BTreeMap::new();
+    for (i, sh) in allocation.shipments.iter().enumerate() {
+        if sh.arc.mode == Mode::Route {
+            groups
+                .entry((sh.arc.facility, sh.arc.dispatch_date))
+                .or_default()
+                .entry(sh.arc.site)
+                .or_default()
+                .push(i);
         }
     }
+    groups
+        .into_iter()
+        .map(|((f, date), visits)| {
+            let list: Vec<(SiteIdx, &Vec<usize>)> = visits.iter().map(|(s, v)| (*s, v)).collect();
+            let (inst, _) = depot_day_instance(scenario, allocation, travel, f, date, &list);
+            (f, date, inst)
+        })
+        .collect()
 }
 
 fn dispatch_parcels(
@@ -480,7 +544,7 @@ mod tests {
     }
 
     #[test]
-    fn a_binding_time_limit_is_noted_and_round_limits_are_not() {
+    fn a_time_limit_is_noted_and_round_limits_are_not() {
         let s = tiny();
         let alloc = allocation(vec![
             ship(&s, 0, 0, "B1", Mode::Route, 3),
@@ -503,6 +567,18 @@ mod tests {
         );
         // The first local optimum is still a complete plan.
         assert_eq!(by_time.routes.len(), by_rounds.routes.len());
+        // A limit that is set but stops nothing is still reported, once.
+        let loose = DispatchOptions {
+            time_limit: Some(Duration::from_secs(3_600)),
+            ..opts()
+        };
+        let by_loose = dispatch_with(&s, &alloc, &travel, &loose);
+        assert_eq!(by_loose.notes.len(), 1, "{:?}", by_loose.notes);
+        assert!(by_loose.notes[0].contains("wall-clock limit of 3600 s"));
+        assert_eq!(
+            format!("{:?}", by_loose.routes),
+            format!("{:?}", by_rounds.routes)
+        );
     }
 
     #[test]

@@ -89,7 +89,8 @@ pub struct Dispatch {
     /// Shipments that could not be placed on any route or parcel.
     pub undeliverable: Vec<Undeliverable>,
     /// Notes on the route search, one line each in (facility, date) order: a depot-day whose
-    /// search stopped at `dispatch.time_limit_seconds` rather than at its round limits.
+    /// search stopped at `dispatch.time_limit_seconds` rather than at its round limits, or,
+    /// when that optional limit is set and stopped none, one line saying it was in effect.
     pub notes: Vec<String>,
 }
 
@@ -97,4 +98,6 @@ mod build;
 pub mod tsp;
 pub mod vrptw;
 
-pub use build::{DispatchOptions, RouteCache, dispatch, dispatch_cached, dispatch_with};
+pub use build::{
+    DispatchOptions, RouteCache, depot_day_instances, dispatch, dispatch_cached, dispatch_with,
+};

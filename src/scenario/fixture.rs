@@ -255,7 +255,7 @@ pub fn tiny() -> Scenario {
             service_minutes_dooryard: 5.0,
             dooryard_window_start: t(8, 0),
             dooryard_window_end: t(18, 0),
-            time_limit_seconds: 2.0,
+            time_limit_seconds: None,
             seed: 1,
         },
         facilities,

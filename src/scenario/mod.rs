@@ -290,9 +290,10 @@ pub struct DispatchSettings {
     pub dooryard_window_start: NaiveTime,
     /// Latest arrival at a dooryard (`dispatch.dooryard_window_end`, default 18:00).
     pub dooryard_window_end: NaiveTime,
-    /// Wall-clock budget for local search per depot-day, seconds
-    /// (`dispatch.time_limit_seconds`, default 2).
-    pub time_limit_seconds: f64,
+    /// Optional wall-clock budget for the route search per depot-day, seconds
+    /// (`dispatch.time_limit_seconds`; default none: the search stops at its round limits, so
+    /// the same inputs give the same routes on any machine).
+    pub time_limit_seconds: Option<f64>,
     /// Seed for any randomised choice in route search (`dispatch.seed`, default 1).
     pub seed: u64,
 }

@@ -364,7 +364,10 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         ),
         dooryard_window_start: d.time(sink, "dooryard_window_start", t(8, 0)),
         dooryard_window_end: d.time(sink, "dooryard_window_end", t(18, 0)),
-        time_limit_seconds: d.number(sink, "time_limit_seconds", Some(2.0), positive),
+        time_limit_seconds: d
+            .get(sink, "time_limit_seconds", false)
+            .is_some()
+            .then(|| d.number(sink, "time_limit_seconds", None, positive)),
         seed: d.integer(sink, "seed", Some(1), 0, u64::MAX),
     };
     if dispatch.dooryard_window_start >= dispatch.dooryard_window_end {

@@ -1,0 +1,230 @@
+//! Writes VRPTW instances for the peer benchmark (`scripts/bench_routing_peers.py`) and
+//! broodcast's own result on each, as JSON lines.
+//!
+//! `cargo run --release --example bench_routing_peers -- [--out FILE] [--weeks 0:1,1500:2]
+//! [--solomon C101,R101] [--seeds 1,2] [--iterations N]`
+//!
+//! Instances: the route depot-days of planned generated weeks (`SITES:SEED`; SITES 0 is the
+//! demo's shape with that seed; mixed fleets from the generator; `dispatch::depot_day_instances` of the final allocation) and the 100-customer
+//! Solomon files in `tests/data/solomon/`. Every time, distance and window is scaled by 100
+//! and rounded to an integer *before* any solver sees it (PyVRP and VROOM take integers), so
+//! all solvers solve the same numbers. broodcast runs with its default work limits (no time
+//! limit), one seed per `--seeds` entry, one thread.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use broodcast::dispatch::depot_day_instances;
+use broodcast::dispatch::vrptw::{Customer, Instance, SolveOptions, VehicleSpec, solve};
+use broodcast::generate::{self, GenParams};
+use broodcast::plan::{self, PlanOptions};
+use broodcast::travel::TravelModel;
+use serde_json::json;
+
+/// Scale applied to every time before rounding to integers.
+const SCALE: f64 = 100.0;
+
+fn scaled(inst: &Instance) -> Instance {
+    let r = |x: f64| {
+        if x.is_finite() {
+            (x * SCALE).round()
+        } else {
+            // Open ends become a large finite bound every solver accepts.
+            x.signum() * 1e9
+        }
+    };
+    Instance {
+        customers: inst
+            .customers
+            .iter()
+            .map(|c| Customer {
+                demand_vials: c.demand_vials,
+                service_minutes: r(c.service_minutes),
+                earliest: r(c.earliest),
+                latest: r(c.latest.min(c.deadline)),
+                deadline: r(c.latest.min(c.deadline)),
+            })
+            .collect(),
+        minutes: inst
+            .minutes
+            .iter()
+            .map(|row| row.iter().map(|&m| r(m)).collect())
+            .collect(),
+        vehicles: inst
+            .vehicles
+            .iter()
+            .map(|v| VehicleSpec {
+                capacity_vials: v.capacity_vials,
+                start: r(v.start),
+                latest_return: r(v.latest_return),
+            })
+            .collect(),
+    }
+}
+
+/// A 100-customer Solomon file: distance = travel time = Euclidean.
+fn solomon(path: &Path) -> Instance {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{path:?}: {e}"));
+    let mut nums: Vec<Vec<f64>> = Vec::new();
+    for line in text.lines() {
+        let f: Vec<f64> = line
+            .split_whitespace()
+            .filter_map(|t| t.parse().ok())
+            .collect();
+        if !f.is_empty() {
+            nums.push(f);
+        }
+    }
+    let (vehicles, capacity) = (nums[0][0] as usize, nums[0][1] as u32);
+    let rows = &nums[1..];
+    let depot = &rows[0];
+    Instance {
+        customers: rows[1..]
+            .iter()
+            .map(|r| Customer {
+                demand_vials: r[3] as u32,
+                service_minutes: r[6],
+                earliest: r[4],
+                latest: r[5],
+                deadline: f64::INFINITY,
+            })
+            .collect(),
+        minutes: rows
+            .iter()
+            .map(|a| {
+                rows.iter()
+                    .map(|b| (a[1] - b[1]).hypot(a[2] - b[2]))
+                    .collect()
+            })
+            .collect(),
+        vehicles: (0..vehicles)
+            .map(|_| VehicleSpec {
+                capacity_vials: capacity,
+                start: depot[4],
+                latest_return: depot[5],
+            })
+            .collect(),
+    }
+}
+
+fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], iterations: u32) -> String {
+    let inst = scaled(inst);
+    let runs: Vec<serde_json::Value> = seeds
+        .iter()
+        .map(|&seed| {
+            let t = Instant::now();
+            let sol = solve(
+                &inst,
+                &SolveOptions {
+                    seed,
+                    max_iterations: iterations,
+                    ..SolveOptions::default()
+                },
+            );
+            let secs = t.elapsed().as_secs_f64();
+            json!({
+                "seed": seed,
+                "seconds": secs,
+                "routes": sol.routes.iter().map(|r| json!({
+                    "vehicle": r.vehicle,
+                    "customers": r.customers,
+                })).collect::<Vec<_>>(),
+            })
+        })
+        .collect();
+    json!({
+        "name": name,
+        "kind": kind,
+        "customers": inst.customers.iter().map(|c| json!({
+            "demand": c.demand_vials,
+            "service": c.service_minutes,
+            "earliest": c.earliest,
+            "latest": c.latest,
+        })).collect::<Vec<_>>(),
+        "vehicles": inst.vehicles.iter().map(|v| json!({
+            "capacity": v.capacity_vials,
+            "start": v.start,
+            "end": v.latest_return,
+        })).collect::<Vec<_>>(),
+        "matrix": inst.minutes,
+        "broodcast": runs,
+    })
+    .to_string()
+}
+
+fn main() -> Result<(), Box<dyn std::error::Error>> {
+    let mut args = std::env::args().skip(1);
+    let mut out = PathBuf::from("target/bench_routing_peers.jsonl");
+    // SITES:SEED, SITES 0 for the demo's shape (GenParams::demo with that seed).
+    let mut weeks = vec![(0usize, 20_270_301u64), (0, 1), (0, 2), (1500, 1)];
+    let mut names: Vec<String> = ["C101", "C201", "R101", "R201", "RC101", "RC201"]
+        .map(String::from)
+        .to_vec();
+    let mut seeds = vec![1u64];
+    let mut iterations = SolveOptions::default().max_iterations;
+    while let Some(a) = args.next() {
+        let v = args.next().ok_or(format!("{a} needs a value"))?;
+        match a.as_str() {
+            "--out" => out = PathBuf::from(v),
+            "--weeks" => {
+                weeks = v
+                    .split(',')
+                    .filter(|s| !s.is_empty())
+                    .map(|w| {
+                        let (a, b) = w.split_once(':').ok_or("weeks as SITES:SEED")?;
+                        Ok((a.parse()?, b.parse()?))
+                    })
+                    .collect::<Result<_, Box<dyn std::error::Error>>>()?
+            }
+            "--solomon" => {
+                names = v
+                    .split(',')
+                    .filter(|s| !s.is_empty())
+                    .map(String::from)
+                    .collect()
+            }
+            "--seeds" => seeds = v.split(',').map(str::parse).collect::<Result<_, _>>()?,
+            "--iterations" => iterations = v.parse()?,
+            other => return Err(format!("unknown argument {other}; see the file's doc").into()),
+        }
+    }
+    let mut f = std::io::BufWriter::new(std::fs::File::create(&out)?);
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/solomon");
+    for name in &names {
+        let inst = solomon(&data.join(format!("{name}.txt")));
+        writeln!(f, "{}", record(name, "solomon", &inst, &seeds, iterations))?;
+        eprintln!("{name}");
+    }
+    for (sites, seed) in weeks {
+        let params = if sites == 0 {
+            GenParams {
+                seed,
+                ..GenParams::demo()
+            }
+        } else {
+            GenParams::sized(sites, seed)
+        };
+        let s = generate::load(&params)?;
+        let p = plan::plan(s, &PlanOptions::default())?;
+        let travel = TravelModel::new(&p.scenario);
+        for (depot, date, inst) in depot_day_instances(&p.scenario, &p.allocation, &travel) {
+            if inst.customers.is_empty() {
+                continue;
+            }
+            let name = format!(
+                "week {sites}/{seed} {} {date}",
+                p.scenario.facilities[depot].id.0
+            );
+            writeln!(
+                f,
+                "{}",
+                record(&name, "depot-day", &inst, &seeds, iterations)
+            )?;
+        }
+        eprintln!("week {sites}/{seed}");
+    }
+    f.flush()?;
+    eprintln!("wrote {}", out.display());
+    Ok(())
+}

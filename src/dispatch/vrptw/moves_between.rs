@@ -1,0 +1,93 @@
+//! Moves between two routes: relocate 1–3 consecutive customers (Or-opt, either
+//! orientation), exchange two customers, and 2-opt* (tail exchange). Each new route is judged
+//! with the vehicle that will drive it ([`State::assign2`]): its own, the other route's, or an
+//! unused vehicle of another kind.
+
+use super::segment::{EPS, Seg};
+use super::state::{Move, State};
+
+/// Whether a change with drive delta `delta` that leaves a route empty improves.
+pub(super) fn improves(delta: f64, emptied: bool) -> bool {
+    delta < -EPS || (delta <= EPS && emptied)
+}
+
+impl State<'_> {
+    /// First improving move of customer u (route ru, position pu) against customer v on
+    /// another route, if any. O(1) per candidate.
+    pub(super) fn between(
+        &self,
+        ru: usize,
+        pu: usize,
+        cut: &[(Seg, Seg, Seg); 3],
+        v: usize,
+    ) -> Option<Move> {
+        let d = self.data;
+        let (rv, pv) = self.at[v]?;
+        let a = &self.routes[ru];
+        let b = &self.routes[rv];
+        let (la, lb) = (a.nodes.len(), b.nodes.len());
+        let base = self.route_dist(ru) + self.route_dist(rv);
+        let u = a.nodes[pu];
+        // Relocate 1–3 customers starting at u, either orientation, before or after v.
+        for len in 1..=3 {
+            if pu + len > la {
+                break;
+            }
+            let (fwd, rev, new_a) = &cut[len - 1];
+            let emptied = la == len;
+            let dist_new_a = d.drive(new_a);
+            for k in [pv, pv + 1] {
+                for (s, reversed) in [(fwd, false), (rev, true)] {
+                    let new_b = d.cat_all(&[&b.pre[k], s, &b.suf[k]]);
+                    if !improves(dist_new_a + d.drive(&new_b) - base, emptied) {
+                        continue;
+                    }
+                    let Some(who) = self.assign2(ru, new_a, rv, &new_b) else {
+                        continue;
+                    };
+                    let mut an = a.nodes.clone();
+                    let mut ins: Vec<usize> = an.drain(pu..pu + len).collect();
+                    if reversed {
+                        ins.reverse();
+                    }
+                    let mut bn = b.nodes.clone();
+                    bn.splice(k..k, ins);
+                    return Some(Self::move2(ru, rv, who, an, bn));
+                }
+            }
+        }
+        // Exchange u and v.
+        {
+            let new_a = d.cat_all(&[&a.pre[pu], &d.node_seg(v), &a.suf[pu + 1]]);
+            let new_b = d.cat_all(&[&b.pre[pv], &d.node_seg(u), &b.suf[pv + 1]]);
+            if improves(d.drive(&new_a) + d.drive(&new_b) - base, false)
+                && let Some(who) = self.assign2(ru, &new_a, rv, &new_b)
+            {
+                let mut an = a.nodes.clone();
+                let mut bn = b.nodes.clone();
+                an[pu] = v;
+                bn[pv] = u;
+                return Some(Self::move2(ru, rv, who, an, bn));
+            }
+        }
+        // 2-opt*: a's head to u then v's tail, and v's head then u's tail; or a's head before
+        // u then v onwards. Each new route keeps or changes vehicle through `assign2`.
+        for (ka, kb) in [(pu + 1, pv), (pu, pv + 1)] {
+            let new_a = d.cat(&a.pre[ka], &b.suf[kb]);
+            let new_b = d.cat(&b.pre[kb], &a.suf[ka]);
+            let emptied = new_a.empty || new_b.empty;
+            if !improves(d.drive(&new_a) + d.drive(&new_b) - base, emptied) {
+                continue;
+            }
+            if let Some(who) = self.assign2(ru, &new_a, rv, &new_b) {
+                let mut an = a.nodes[..ka].to_vec();
+                an.extend_from_slice(&b.nodes[kb..]);
+                let mut bn = b.nodes[..kb].to_vec();
+                bn.extend_from_slice(&a.nodes[ka..]);
+                debug_assert_eq!((an.len(), bn.len()), (ka + lb - kb, kb + la - ka));
+                return Some(Self::move2(ru, rv, who, an, bn));
+            }
+        }
+        None
+    }
+}

@@ -1,0 +1,152 @@
+//! Moves inside one route: Or-opt of 1–3 customers (either orientation), exchange, 2-opt.
+//! The drive change is priced first from the few edges that change (O(1), O(stretch) for a
+//! reversal); only improving candidates get the O(stretch) time-window check.
+
+use super::segment::EPS;
+use super::state::{Move, State};
+
+impl State<'_> {
+    /// Improving move inside route r between positions pu and pv: Or-opt of 1–3 from pu to
+    /// next to pv, exchange, 2-opt. The drive change is priced first from the few edges that
+    /// change (O(1), O(stretch) for a reversal); only improving candidates get the O(stretch)
+    /// time-window check.
+    pub(super) fn intra(&self, r: usize, pu: usize, pv: usize) -> Option<Move> {
+        let d = self.data;
+        let route = &self.routes[r];
+        let nodes = &route.nodes;
+        let len_r = nodes.len();
+        // Node at position k, the depot just outside either end.
+        let x = |k: isize| -> usize {
+            if k < 0 || k as usize >= len_r {
+                0
+            } else {
+                nodes[k as usize]
+            }
+        };
+        let c = |i: usize, j: usize| d.c(i, j);
+        // Feasibility of a candidate that differs from `nodes` only inside lo..hi: on r's own
+        // vehicle, else on an unused vehicle of another kind (the route moves to it).
+        let check = |cand: &[usize], lo: usize, hi: usize| -> Option<Move> {
+            let mut s = route.pre[lo];
+            for &v in &cand[lo..hi] {
+                s = d.cat(&s, &d.node_seg(v));
+            }
+            let s = d.cat(&s, &route.suf[hi]);
+            if d.fits(r, &s) {
+                return Some(Move(vec![(r, cand.to_vec())]));
+            }
+            let w = self
+                .empty_kinds(&[r])
+                .into_iter()
+                .find(|&w| d.fits(w, &s))?;
+            Some(Move(vec![(r, Vec::new()), (w, cand.to_vec())]))
+        };
+        let mut cand: Vec<usize> = Vec::with_capacity(len_r);
+        let (pu_i, pv_i) = (pu as isize, pv as isize);
+        // Or-opt: cut nodes[pu..pu+len] and put it before or after v, either way round.
+        for len in 1..=3usize {
+            if pu + len > len_r || (pv >= pu && pv < pu + len) {
+                break;
+            }
+            let seg = &nodes[pu..pu + len];
+            let (s0, sl) = (seg[0], seg[len - 1]);
+            let (before, after) = (x(pu_i - 1), x(pu_i + len as isize));
+            let removed = c(before, s0) + c(sl, after) - c(before, after);
+            let inner_fwd: f64 = seg.windows(2).map(|w| c(w[0], w[1])).sum();
+            let inner_rev: f64 = seg.windows(2).map(|w| c(w[1], w[0])).sum();
+            // Insert between (a, b) = (pred v, v) or (v, succ v) in the route without the cut.
+            let skip = |k: isize| -> isize {
+                if k >= pu_i && k < pu_i + len as isize {
+                    if k < pv_i {
+                        pu_i - 1
+                    } else {
+                        pu_i + len as isize
+                    }
+                } else {
+                    k
+                }
+            };
+            for (ka, kb) in [(skip(pv_i - 1), pv_i), (pv_i, skip(pv_i + 1))] {
+                let (na, nb) = (x(ka), x(kb));
+                for reversed in [false, true] {
+                    let (f, l, inner) = if reversed {
+                        (sl, s0, inner_rev - inner_fwd)
+                    } else {
+                        (s0, sl, 0.0)
+                    };
+                    let delta = c(na, f) + c(l, nb) - c(na, nb) + inner - removed;
+                    if delta >= -EPS {
+                        continue;
+                    }
+                    // Insert index in the list without the cut: after position ka.
+                    let k = if ka < pu_i {
+                        ka + 1
+                    } else {
+                        ka + 1 - len as isize
+                    } as usize;
+                    cand.clear();
+                    let mut rest = nodes[..pu].iter().chain(&nodes[pu + len..]).copied();
+                    cand.extend(rest.by_ref().take(k));
+                    if reversed {
+                        cand.extend(seg.iter().rev());
+                    } else {
+                        cand.extend(seg.iter());
+                    }
+                    cand.extend(rest);
+                    let lo = pu.min(k);
+                    let hi = (pu + len).max(k + len);
+                    if let Some(m) = check(&cand, lo, hi.min(len_r)) {
+                        return Some(m);
+                    }
+                }
+            }
+        }
+        let (i, j) = if pu < pv { (pu, pv) } else { (pv, pu) };
+        let (ii, ji) = (i as isize, j as isize);
+        // Exchange.
+        {
+            let (u, v) = (nodes[i], nodes[j]);
+            let delta = if j == i + 1 {
+                let (p, n) = (x(ii - 1), x(ji + 1));
+                c(p, v) + c(v, u) + c(u, n) - c(p, u) - c(u, v) - c(v, n)
+            } else {
+                let (pi, ni, pj, nj) = (x(ii - 1), x(ii + 1), x(ji - 1), x(ji + 1));
+                c(pi, v) + c(v, ni) + c(pj, u) + c(u, nj)
+                    - c(pi, u)
+                    - c(u, ni)
+                    - c(pj, v)
+                    - c(v, nj)
+            };
+            if delta < -EPS {
+                cand.clear();
+                cand.extend_from_slice(nodes);
+                cand.swap(i, j);
+                if let Some(m) = check(&cand, i, j + 1) {
+                    return Some(m);
+                }
+            }
+        }
+        // 2-opt: make u and v adjacent by reversing the stretch between.
+        for (p, q) in [(i + 1, j), (i, j.saturating_sub(1))] {
+            if p < q {
+                let stretch = &nodes[p..=q];
+                let inner: f64 = stretch
+                    .windows(2)
+                    .map(|w| c(w[1], w[0]) - c(w[0], w[1]))
+                    .sum();
+                let (a, b) = (x(p as isize - 1), x(q as isize + 1));
+                let delta =
+                    c(a, nodes[q]) + c(nodes[p], b) - c(a, nodes[p]) - c(nodes[q], b) + inner;
+                if delta < -EPS {
+                    cand.clear();
+                    cand.extend_from_slice(nodes);
+                    cand[p..=q].reverse();
+                    if let Some(m) = check(&cand, p, q + 1) {
+                        return Some(m);
+                    }
+                }
+            }
+        }
+        None
+    }
+}

@@ -1,0 +1,295 @@
+//! A solution under search: one route slot per vehicle with cached head and tail summaries,
+//! the objective, applying a move, cheapest insertion with a choice of vehicle, and the
+//! conversion to a [`Solution`].
+
+use super::segment::{Data, EPS, FEAS_EPS, Seg};
+use super::{Infeasibility, RoutePlan, Solution};
+
+/// One vehicle's route.
+#[derive(Clone)]
+pub(super) struct Route {
+    /// Customer nodes in visiting order.
+    pub(super) nodes: Vec<usize>,
+    /// `pre[k]`: nodes[..k], no depot.
+    pub(super) pre: Vec<Seg>,
+    /// `suf[k]`: nodes[k..], no depot.
+    pub(super) suf: Vec<Seg>,
+}
+
+impl Route {
+    /// The whole run, no depot.
+    pub(super) fn body(&self) -> &Seg {
+        &self.suf[0]
+    }
+}
+
+/// A change to some routes: each listed vehicle gets the listed nodes (empty: unused).
+pub(super) struct Move(pub(super) Vec<(usize, Vec<usize>)>);
+
+#[derive(Clone)]
+pub(super) struct State<'a> {
+    pub(super) data: &'a Data<'a>,
+    /// One route per vehicle, index = vehicle.
+    pub(super) routes: Vec<Route>,
+    /// Per node: (vehicle, position) when routed.
+    pub(super) at: Vec<Option<(usize, usize)>>,
+    pub(super) unserved: Vec<usize>,
+}
+
+impl<'a> State<'a> {
+    pub(super) fn empty(data: &'a Data<'a>) -> Self {
+        let mut s = State {
+            data,
+            routes: (0..data.inst.vehicles.len())
+                .map(|_| Route {
+                    nodes: Vec::new(),
+                    pre: Vec::new(),
+                    suf: Vec::new(),
+                })
+                .collect(),
+            at: vec![None; data.n],
+            unserved: Vec::new(),
+        };
+        for r in 0..s.routes.len() {
+            s.refresh(r);
+        }
+        s
+    }
+
+    /// Recomputes route r's summaries and the positions of its nodes, O(len).
+    pub(super) fn refresh(&mut self, r: usize) {
+        let d = self.data;
+        let route = &mut self.routes[r];
+        let len = route.nodes.len();
+        route.pre.clear();
+        route.pre.push(Seg::EMPTY);
+        for k in 0..len {
+            let next = d.cat(&route.pre[k], &d.node_seg(route.nodes[k]));
+            route.pre.push(next);
+        }
+        route.suf.clear();
+        route.suf.resize(len + 1, Seg::EMPTY);
+        for k in (0..len).rev() {
+            route.suf[k] = d.cat(&d.node_seg(route.nodes[k]), &route.suf[k + 1]);
+        }
+        for (p, &node) in route.nodes.iter().enumerate() {
+            self.at[node] = Some((r, p));
+        }
+    }
+
+    /// Drive minutes of route r.
+    pub(super) fn route_dist(&self, r: usize) -> f64 {
+        self.data.drive(self.routes[r].body())
+    }
+
+    pub(super) fn total_dist(&self) -> f64 {
+        (0..self.routes.len()).map(|r| self.route_dist(r)).sum()
+    }
+
+    pub(super) fn used(&self) -> usize {
+        self.routes.iter().filter(|r| !r.nodes.is_empty()).count()
+    }
+
+    /// (unserved, drive, vehicles): smaller is better, lexicographically.
+    pub(super) fn key(&self) -> (usize, f64, usize) {
+        (self.unserved.len(), self.total_dist(), self.used())
+    }
+
+    pub(super) fn key_lt(&self, other: &Self) -> bool {
+        let (a, b) = (self.key(), other.key());
+        a.0 < b.0 || (a.0 == b.0 && (a.1 < b.1 - EPS || (a.1 <= b.1 + EPS && a.2 < b.2)))
+    }
+
+    pub(super) fn apply(&mut self, m: Move) {
+        for (v, _) in &m.0 {
+            for &node in &self.routes[*v].nodes {
+                self.at[node] = None;
+            }
+        }
+        for (v, nodes) in m.0 {
+            self.routes[v].nodes = nodes;
+            self.refresh(v);
+        }
+    }
+
+    /// Cheapest feasible insertion of `u` into route r: (added drive, position, vehicle). The
+    /// vehicle is r's own or, where it cannot take the longer route, an unused vehicle of
+    /// another kind that can (the route then moves to it). O(len · kinds).
+    pub(super) fn best_insert(&self, r: usize, u: usize) -> Option<(f64, usize, usize)> {
+        let others = if self.routes[r].nodes.is_empty() {
+            Vec::new()
+        } else {
+            self.empty_kinds(&[r])
+        };
+        self.best_insert_among(r, u, &others)
+    }
+
+    /// As [`State::best_insert`] with the unused vehicles to fall back on given.
+    pub(super) fn best_insert_among(
+        &self,
+        r: usize,
+        u: usize,
+        others: &[usize],
+    ) -> Option<(f64, usize, usize)> {
+        let d = self.data;
+        let route = &self.routes[r];
+        let us = d.node_seg(u);
+        let before = self.route_dist(r);
+        let mut best: Option<(f64, usize, usize)> = None;
+        for k in 0..=route.nodes.len() {
+            let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);
+            let add = d.drive(&s) - before;
+            if best.is_some_and(|(b, _, _)| add >= b - EPS) {
+                continue;
+            }
+            let v = if d.fits(r, &s) {
+                Some(r)
+            } else {
+                others.iter().copied().find(|&w| d.fits(w, &s))
+            };
+            if let Some(v) = v {
+                best = Some((add, k, v));
+            }
+        }
+        best
+    }
+
+    /// Puts `u` at position k of route r and moves the route to vehicle v.
+    pub(super) fn insert(&mut self, r: usize, k: usize, u: usize, v: usize) {
+        let mut nodes = self.routes[r].nodes.clone();
+        nodes.insert(k, u);
+        if v == r {
+            self.apply(Move(vec![(r, nodes)]));
+        } else {
+            self.apply(Move(vec![(r, Vec::new()), (v, nodes)]));
+        }
+    }
+
+    /// Cheapest place for `u` over every route and one unused vehicle of each kind:
+    /// (added drive, route, position, vehicle).
+    pub(super) fn cheapest_place(&self, u: usize) -> Option<(f64, usize, usize, usize)> {
+        let mut best: Option<(f64, usize, usize, usize)> = None;
+        let fresh = self.empty_kinds(&[]);
+        for r in 0..self.routes.len() {
+            if self.routes[r].nodes.is_empty() && !fresh.contains(&r) {
+                continue;
+            }
+            if let Some((add, k, v)) = self.best_insert(r, u)
+                && best.is_none_or(|(b, ..)| add < b - EPS)
+            {
+                best = Some((add, r, k, v));
+            }
+        }
+        best
+    }
+
+    /// Most telling reason `u` fits nowhere.
+    pub(super) fn reason(&self, u: usize) -> Infeasibility {
+        let d = self.data;
+        let cu = d.customer(u);
+        let vehicles = &d.inst.vehicles;
+        if vehicles.is_empty() {
+            return Infeasibility::Shift;
+        }
+        if vehicles
+            .iter()
+            .all(|v| u64::from(cu.demand_vials) > u64::from(v.capacity_vials))
+        {
+            return Infeasibility::Capacity;
+        }
+        // Alone with each vehicle that could carry it: which constraint breaks first?
+        let mut alone_reason: Option<Infeasibility> = None;
+        for (vi, v) in vehicles.iter().enumerate() {
+            if cu.demand_vials > v.capacity_vials {
+                continue;
+            }
+            let arrive = v.start + d.c(0, u);
+            let start = arrive.max(cu.earliest);
+            let why = if !arrive.is_finite() || start > cu.deadline + FEAS_EPS {
+                Some(if cu.deadline < cu.latest {
+                    Infeasibility::Deadline
+                } else {
+                    Infeasibility::Window
+                })
+            } else if start > cu.latest + FEAS_EPS {
+                Some(Infeasibility::Window)
+            } else if !d.fits(vi, &d.node_seg(u)) {
+                Some(Infeasibility::Shift)
+            } else {
+                None
+            };
+            match why {
+                None => {
+                    alone_reason = None;
+                    break;
+                }
+                Some(w) => {
+                    alone_reason = Some(alone_reason.map_or(w, |a: Infeasibility| a.min(w)));
+                }
+            }
+        }
+        if let Some(w) = alone_reason {
+            return w;
+        }
+        // Servable alone: the fleet is full. Capacity if no route has room, else shift.
+        let room = self.routes.iter().enumerate().any(|(v, r)| {
+            r.body().load + u64::from(cu.demand_vials) <= u64::from(vehicles[v].capacity_vials)
+        });
+        if room {
+            Infeasibility::Shift
+        } else {
+            Infeasibility::Capacity
+        }
+    }
+
+    pub(super) fn into_solution(self) -> Solution {
+        let d = self.data;
+        let mut routes = Vec::new();
+        for (vehicle, route) in self.routes.iter().enumerate() {
+            if route.nodes.is_empty() {
+                continue;
+            }
+            let veh = &d.inst.vehicles[vehicle];
+            let mut t = veh.start;
+            let mut prev = 0;
+            let mut arrival = Vec::with_capacity(route.nodes.len());
+            let mut service_start = Vec::with_capacity(route.nodes.len());
+            let mut drive = 0.0;
+            for &v in &route.nodes {
+                let c = d.customer(v);
+                let a = t + d.c(prev, v);
+                drive += d.c(prev, v);
+                let s = a.max(c.earliest);
+                arrival.push(a);
+                service_start.push(s);
+                t = s + c.service_minutes;
+                prev = v;
+            }
+            drive += d.c(prev, 0);
+            routes.push(RoutePlan {
+                vehicle,
+                customers: route.nodes.clone(),
+                arrival,
+                service_start,
+                depart: veh.start,
+                return_at: t + d.c(prev, 0),
+                drive_minutes: drive,
+                load_vials: route
+                    .nodes
+                    .iter()
+                    .map(|&v| d.customer(v).demand_vials)
+                    .sum(),
+            });
+        }
+        let mut unserved: Vec<(usize, Infeasibility)> =
+            self.unserved.iter().map(|&u| (u, self.reason(u))).collect();
+        unserved.sort_unstable();
+        let total_drive_minutes = routes.iter().map(|r| r.drive_minutes).sum();
+        Solution {
+            routes,
+            unserved,
+            total_drive_minutes,
+            time_limited: false,
+        }
+    }
+}

@@ -1,0 +1,212 @@
+//! Unit tests of the engine.
+
+use super::segment::{Data, FEAS_EPS};
+use super::*;
+
+fn grid_instance(n: usize, seed: u64, vehicles: usize, cap: u32) -> Instance {
+    let mut rng = fastrand::Rng::with_seed(seed);
+    let pts: Vec<(f64, f64)> = (0..=n)
+        .map(|i| {
+            if i == 0 {
+                (50.0, 50.0)
+            } else {
+                (rng.f64() * 100.0, rng.f64() * 100.0)
+            }
+        })
+        .collect();
+    let minutes = pts
+        .iter()
+        .map(|a| {
+            pts.iter()
+                .map(|b| ((a.0 - b.0).powi(2) + (a.1 - b.1).powi(2)).sqrt())
+                .collect()
+        })
+        .collect();
+    let customers = (0..n)
+        .map(|_| {
+            let e = rng.f64() * 300.0;
+            Customer {
+                demand_vials: rng.u32(1..=5),
+                service_minutes: 10.0,
+                earliest: e,
+                latest: e + 60.0 + rng.f64() * 200.0,
+                deadline: 10_000.0,
+            }
+        })
+        .collect();
+    Instance {
+        customers,
+        minutes,
+        vehicles: (0..vehicles)
+            .map(|_| VehicleSpec {
+                capacity_vials: cap,
+                start: 0.0,
+                latest_return: 800.0,
+            })
+            .collect(),
+    }
+}
+
+fn opts() -> SolveOptions {
+    SolveOptions {
+        time_limit: None,
+        max_iterations: 200,
+        ..SolveOptions::default()
+    }
+}
+
+/// Independent forward check of a route: arrival, wait, window, deadline, return, load.
+fn check(inst: &Instance, sol: &Solution) {
+    for r in &sol.routes {
+        let v = &inst.vehicles[r.vehicle];
+        let mut t = v.start;
+        let mut prev = 0;
+        let mut load = 0;
+        for &c in &r.customers {
+            let cu = &inst.customers[c - 1];
+            t += inst.minutes[prev][c];
+            t = t.max(cu.earliest);
+            assert!(t <= cu.latest + 1e-6 && t <= cu.deadline + 1e-6);
+            t += cu.service_minutes;
+            load += cu.demand_vials;
+            prev = c;
+        }
+        t += inst.minutes[prev][0];
+        assert!(t <= v.latest_return + 1e-6);
+        assert!(load <= v.capacity_vials);
+        assert!((t - r.return_at).abs() < 1e-6);
+    }
+}
+
+fn brute_force_single(inst: &Instance) -> f64 {
+    fn rec(inst: &Instance, order: &mut Vec<usize>, left: &mut Vec<usize>, best: &mut f64) {
+        if left.is_empty() {
+            let d = Data::new(inst, 1);
+            let s = d.seq(order.iter().copied());
+            if d.fits(0, &s) {
+                *best = best.min(d.drive(&s));
+            }
+            return;
+        }
+        for k in 0..left.len() {
+            let v = left.remove(k);
+            order.push(v);
+            rec(inst, order, left, best);
+            order.pop();
+            left.insert(k, v);
+        }
+    }
+    let mut best = f64::INFINITY;
+    rec(
+        inst,
+        &mut Vec::new(),
+        &mut (1..=inst.customers.len()).collect(),
+        &mut best,
+    );
+    best
+}
+
+#[test]
+fn routes_are_feasible_and_everyone_served_when_fleet_is_ample() {
+    for seed in 0..5 {
+        let inst = grid_instance(40, seed, 10, 30);
+        let sol = solve(&inst, &opts());
+        check(&inst, &sol);
+        let served: usize = sol.routes.iter().map(|r| r.customers.len()).sum();
+        assert_eq!(served + sol.unserved.len(), 40);
+        assert!(sol.unserved.is_empty(), "seed {seed}: {:?}", sol.unserved);
+    }
+}
+
+#[test]
+fn single_vehicle_matches_brute_force() {
+    for seed in 0..6 {
+        let mut inst = grid_instance(7, seed, 1, 100);
+        for c in &mut inst.customers {
+            c.earliest = 0.0;
+            c.latest = 1000.0;
+        }
+        inst.vehicles[0].latest_return = 10_000.0;
+        let sol = solve(&inst, &opts());
+        let opt = brute_force_single(&inst);
+        assert!(
+            sol.total_drive_minutes <= opt + 1e-6,
+            "{} vs {opt}",
+            sol.total_drive_minutes
+        );
+    }
+}
+
+#[test]
+fn impossible_customers_are_reported_with_reasons() {
+    let mut inst = grid_instance(6, 3, 1, 10);
+    for c in &mut inst.customers {
+        c.earliest = 0.0;
+        c.latest = 1000.0;
+        c.demand_vials = 1;
+    }
+    inst.customers[0].demand_vials = 50; // more than the vehicle holds
+    inst.customers[1].deadline = -1.0; // deadline before departure
+    inst.customers[2].earliest = 2000.0; // opens after the shift ends
+    inst.customers[2].latest = 2100.0;
+    let sol = solve(&inst, &opts());
+    check(&inst, &sol);
+    assert_eq!(
+        sol.unserved,
+        vec![
+            (1, Infeasibility::Capacity),
+            (2, Infeasibility::Deadline),
+            (3, Infeasibility::Shift)
+        ]
+    );
+}
+
+#[test]
+fn no_vehicles_and_no_customers() {
+    let mut inst = grid_instance(3, 1, 0, 10);
+    let sol = solve(&inst, &opts());
+    assert_eq!(sol.unserved.len(), 3);
+    assert!(sol.unserved.iter().all(|&(_, r)| r == Infeasibility::Shift));
+    inst.customers.clear();
+    inst.minutes = vec![vec![0.0]];
+    inst.vehicles = vec![VehicleSpec {
+        capacity_vials: 1,
+        start: 0.0,
+        latest_return: 1.0,
+    }];
+    let sol = solve(&inst, &opts());
+    assert!(sol.routes.is_empty() && sol.unserved.is_empty());
+}
+
+#[test]
+fn deterministic_for_a_seed() {
+    let inst = grid_instance(60, 9, 8, 25);
+    assert_eq!(solve(&inst, &opts()), solve(&inst, &opts()));
+}
+
+#[test]
+fn segment_concatenation_matches_forward_simulation() {
+    let inst = grid_instance(12, 4, 1, 100);
+    let d = Data::new(&inst, 3);
+    let mut rng = fastrand::Rng::with_seed(5);
+    for _ in 0..200 {
+        let mut order: Vec<usize> = (1..=12).collect();
+        rng.shuffle(&mut order);
+        order.truncate(rng.usize(1..=12));
+        let s = d.with_depot(0, &d.seq(order.iter().copied()));
+        // Forward: depart at start, wait when early; feasible iff no lateness.
+        let mut t = 0.0;
+        let mut prev = 0;
+        let mut ok = true;
+        for &c in &order {
+            let cu = &inst.customers[c - 1];
+            t = (t + inst.minutes[prev][c]).max(cu.earliest);
+            ok &= t <= cu.latest + 1e-9;
+            t += cu.service_minutes;
+            prev = c;
+        }
+        t += inst.minutes[prev][0];
+        ok &= t <= 800.0 + 1e-9;
+        assert_eq!(ok, s.tw <= FEAS_EPS, "{order:?}");
+    }
+}
