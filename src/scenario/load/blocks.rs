@@ -15,7 +15,7 @@ use serde_json::Value;
 
 use super::fields::{check_lat, check_lon, parse_date, parse_enum, parse_time};
 use super::limits::{MAX_FEATURES, MAX_POLYGON_VERTICES, MAX_TOTAL_VERTICES};
-use super::text::Sink;
+use super::text::{Sink, duplicate_keys};
 use crate::scenario::problems::Location;
 use crate::scenario::{Block, Flush, LonLat, Management};
 
@@ -106,6 +106,16 @@ fn parse_capped(
             return (Vec::new(), None);
         }
     };
+    for path in duplicate_keys(text) {
+        sink.problem(
+            file,
+            Location::Key(path),
+            None,
+            None,
+            "the key is written twice in the same object; a reader would silently keep one of \
+             the two values. Keep the one you mean and delete the other",
+        );
+    }
     if root.get("type").and_then(Value::as_str) != Some("FeatureCollection") {
         sink.problem(
             file,
