@@ -212,6 +212,8 @@ fn table(file: &Path, bytes: &[u8], needed: &[&str]) -> Result<Table, CompareErr
     let text = bytes
         .strip_prefix(b"\xEF\xBB\xBF".as_slice())
         .unwrap_or(bytes);
+    // csv's own line count lags one per CRLF; the loader's counter is right on both.
+    let lines = crate::scenario::CsvLines::from_bytes(text);
     let mut r = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
         .from_reader(text);
@@ -244,9 +246,9 @@ fn table(file: &Path, bytes: &[u8], needed: &[&str]) -> Result<Table, CompareErr
     let mut rows = Vec::new();
     for rec in r.records() {
         match rec {
-            Ok(rec) => rows.push((rec.position().map_or(0, |p| p.line()), rec)),
+            Ok(rec) => rows.push((lines.line(rec.position()), rec)),
             Err(e) => {
-                let line = e.position().map(|p| p.line());
+                let line = Some(lines.line(e.position())).filter(|&l| l > 0);
                 return Err(err(
                     file,
                     line,

@@ -91,10 +91,26 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         || path.display().to_string(),
         |n| n.to_string_lossy().into_owned(),
     );
-    let text = std::fs::read_to_string(path).map_err(|source| LedgerError::Io {
+    let bytes = std::fs::read(path).map_err(|source| LedgerError::Io {
         path: path.display().to_string(),
         source,
     })?;
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    let text = match std::str::from_utf8(bytes) {
+        Ok(t) => t,
+        Err(e) => {
+            let good = &bytes[..e.valid_up_to()];
+            let line = 1 + good.iter().filter(|&&b| b == b'\n').count() as u64;
+            return Err(LedgerError::input(vec![line_problem(
+                &file,
+                line,
+                None,
+                None,
+                "the line is not valid UTF-8 text; save the file as 'CSV UTF-8'",
+            )]));
+        }
+    };
+    let lines = crate::scenario::CsvLines::new(text);
     let mut problems = Vec::new();
     let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
     let headers = match rdr.headers() {
@@ -123,12 +139,22 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         let rec = match rec {
             Ok(r) => r,
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
+                let line = lines.line(e.position());
                 problems.push(line_problem(&file, line, None, None, e.to_string()));
                 continue;
             }
         };
-        let line = rec.position().map_or(0, |p| p.line());
+        let line = lines.line(rec.position());
+        if let Some(sw) = crate::scenario::swallowed_row(&rec, headers.len()) {
+            problems.push(line_problem(
+                &file,
+                line,
+                headers.get(sw.column).map(str::trim),
+                None,
+                sw.message(line),
+            ));
+            continue;
+        }
         let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
         let before = problems.len();
         let id = get(0).to_string();
@@ -202,6 +228,10 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         }
     }
     if !problems.is_empty() {
+        for p in &mut problems {
+            // An invisible character in a value is shown escaped (`\u{feff}`).
+            p.value = p.value.as_deref().map(crate::scenario::show_value);
+        }
         return Err(LedgerError::input(problems));
     }
     Ok(out)

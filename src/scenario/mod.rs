@@ -22,7 +22,7 @@ use serde::Serialize;
 
 pub use load::{
     CsvLines, Source, SwallowedRow, limits, load, load_dir, load_embedded_demo, load_files,
-    parse_travel_matrix, swallowed_row,
+    parse_travel_matrix, show_value, swallowed_row,
 };
 pub use problems::{InputError, Location, MAX_LISTED, Problem, Warning};
 

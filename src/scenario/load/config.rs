@@ -3,8 +3,8 @@
 use chrono::{Datelike, NaiveDate, NaiveTime, Weekday};
 use serde_json::{Map, Value};
 
-use super::limits;
 use super::fields::{check_days, parse_date, parse_day, parse_days, parse_time};
+use super::limits;
 use super::text::{Sink, duplicate_keys};
 use crate::scenario::problems::Location;
 use crate::scenario::{Agent, DispatchSettings, Parcel, Policy, Survival};
@@ -388,8 +388,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             Some(28),
             0,
             limits::MAX_INTERVAL_DAYS,
-        )
-            as u32,
+        ) as u32,
     };
 
     let tr = top.object(sink, "travel", true);
@@ -428,8 +427,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             None,
             0,
             limits::MAX_VIALS_PER_DAY,
-        )
-            as u32,
+        ) as u32,
         ship_time: pa.time(sink, "ship_time", t(15, 0)),
     };
 

@@ -16,10 +16,22 @@ pub const MAX_CSV_ROWS: usize = 1_000_000;
 /// Most features in `blocks.geojson`.
 pub const MAX_FEATURES: usize = 200_000;
 
-/// Most positions in one polygon (all its rings), counted before geometry validation, whose
-/// cost grows faster than linearly in vertices. A surveyed grove block has tens to a few
-/// thousand vertices; 100,000 means an unsimplified trace.
-pub const MAX_POLYGON_VERTICES: usize = 100_000;
+/// Most positions in one polygon (all its rings), counted before geometry validation. geo's
+/// OGC validity check grows with the square of the vertex count; measured on the release
+/// binary (`broodcast check` on one regular polygon, one run on a shared 2-core machine):
+/// 5,000 positions 0.18 s, 10,000 0.67 s, 14,000 1.26 s, 20,000 2.35 s, 40,000 8.4 s. The limit
+/// keeps one polygon under about a second. A surveyed grove block has tens to a few thousand
+/// vertices; more means an unsimplified trace.
+pub const MAX_POLYGON_VERTICES: usize = 10_000;
+
+/// Smallest block area, m²: below it the outline is a line or a point (a zero-area ring
+/// passes the ring rules and OGC validity).
+pub const MIN_BLOCK_M2: f64 = 1.0;
+
+/// Block area above which a warning asks for a look, hectares (common practice: a citrus
+/// block, the unit a crew treats as one, is a few to a few hundred hectares; 2,000 ha is a
+/// whole large grove or more).
+pub const LARGE_BLOCK_HA: f64 = 2_000.0;
 
 /// Most positions over all polygons of `blocks.geojson`.
 pub const MAX_TOTAL_VERTICES: usize = 5_000_000;

@@ -23,8 +23,7 @@ use crate::scenario::problems::Location;
 pub(super) fn id_like(s: &str) -> bool {
     !s.is_empty()
         && s.chars().count() <= 32
-        && s
-            .chars()
+        && s.chars()
             .all(|c| c.is_ascii_alphanumeric() || "-_./".contains(c))
         && s.chars().filter(char::is_ascii_digit).count() < 7
 }
@@ -32,8 +31,7 @@ pub(super) fn id_like(s: &str) -> bool {
 /// A cell as it may be quoted: a number-like text of at most 24 characters, else nothing.
 fn number_like(s: &str) -> Option<&str> {
     (s.len() <= 24
-        && s
-            .chars()
+        && s.chars()
             .all(|c| c.is_ascii_digit() || ".+-eE, ".contains(c) || "NaNinfINF".contains(c)))
     .then_some(s)
 }

@@ -24,6 +24,16 @@ use super::{
     InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel, TravelMatrix,
 };
 pub use text::{CsvLines, SwallowedRow, swallowed_row};
+
+/// A value as problems show it: at most 60 characters, control and invisible characters
+/// escaped (`\u{feff}`).
+///
+/// ```
+/// assert_eq!(broodcast::scenario::show_value("\u{feff}F1"), "\\u{feff}F1");
+/// ```
+pub fn show_value(s: &str) -> String {
+    fields::show(s)
+}
 use text::{Sink, decode};
 
 /// Where a scenario comes from.
@@ -488,10 +498,12 @@ fn load_matrix<'a>(
     // A scenario is one folder: it can be copied, archived and re-planned as a whole, and a
     // path that climbs out of it could make the planner read (and quote) any file, e.g. a
     // system file. `\\` is a separator on Windows, so it is treated as one everywhere.
-    let leaves = Path::new(&name.replace('\\', "/"))
-        .components()
-        .any(|c| matches!(c, Component::ParentDir | Component::RootDir | Component::Prefix(_)))
-        || name.contains(':');
+    let leaves = Path::new(&name.replace('\\', "/")).components().any(|c| {
+        matches!(
+            c,
+            Component::ParentDir | Component::RootDir | Component::Prefix(_)
+        )
+    }) || name.contains(':');
     if leaves || !inside(name) {
         sink.problem(
             "scenario.json",

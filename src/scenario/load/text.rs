@@ -93,8 +93,11 @@ pub(super) fn decode<'a>(file: &str, bytes: &'a [u8], sink: &mut Sink) -> Option
 /// record's byte offset. That offset may point at the `\n` of the previous CRLF; terminator
 /// bytes are skipped first. O(log lines) with `newlines` the sorted offsets of every `\n`.
 pub(super) fn line_of(text: &str, newlines: &[usize], pos: Option<&csv::Position>) -> u64 {
+    line_of_bytes(text.as_bytes(), newlines, pos)
+}
+
+fn line_of_bytes(bytes: &[u8], newlines: &[usize], pos: Option<&csv::Position>) -> u64 {
     let Some(pos) = pos else { return 0 };
-    let bytes = text.as_bytes();
     let mut b = usize::try_from(pos.byte())
         .unwrap_or(usize::MAX)
         .min(bytes.len());
@@ -106,11 +109,7 @@ pub(super) fn line_of(text: &str, newlines: &[usize], pos: Option<&csv::Position
 
 /// Byte offsets of every `\n` in `text`.
 pub(super) fn newline_offsets(text: &str) -> Vec<usize> {
-    text.bytes()
-        .enumerate()
-        .filter(|&(_, c)| c == b'\n')
-        .map(|(i, _)| i)
-        .collect()
+    memchr_newlines(text.as_bytes())
 }
 
 /// Physical line numbers of CSV records in one text, right on LF and CRLF files alike. csv's
@@ -127,24 +126,38 @@ pub(super) fn newline_offsets(text: &str) -> Vec<usize> {
 /// assert_eq!(got, vec![2, 3]);
 /// ```
 pub struct CsvLines<'t> {
-    text: &'t str,
+    bytes: &'t [u8],
     newlines: Vec<usize>,
 }
 
 impl<'t> CsvLines<'t> {
     /// Indexes the line breaks of `text`. O(bytes).
     pub fn new(text: &'t str) -> Self {
+        CsvLines::from_bytes(text.as_bytes())
+    }
+
+    /// Indexes the line breaks of `bytes` (text not yet checked to be UTF-8). O(bytes).
+    pub fn from_bytes(bytes: &'t [u8]) -> Self {
         CsvLines {
-            text,
-            newlines: newline_offsets(text),
+            bytes,
+            newlines: memchr_newlines(bytes),
         }
     }
 
     /// The 1-based physical line where the record or error at `pos` starts (0 when unknown).
     /// O(log lines).
     pub fn line(&self, pos: Option<&csv::Position>) -> u64 {
-        line_of(self.text, &self.newlines, pos)
+        line_of_bytes(self.bytes, &self.newlines, pos)
     }
+}
+
+fn memchr_newlines(bytes: &[u8]) -> Vec<usize> {
+    bytes
+        .iter()
+        .enumerate()
+        .filter(|&(_, &c)| c == b'\n')
+        .map(|(i, _)| i)
+        .collect()
 }
 
 /// A quoted cell that runs over several lines and holds what reads as a whole row of `width`
@@ -191,7 +204,11 @@ pub fn swallowed_row(rec: &StringRecord, width: usize) -> Option<SwallowedRow> {
                     .has_headers(false)
                     .flexible(true)
                     .from_reader(part.trim_end_matches('\r').as_bytes());
-                let mut fields = r.records().next().and_then(Result::ok).map_or(0, |x| x.len());
+                let mut fields = r
+                    .records()
+                    .next()
+                    .and_then(Result::ok)
+                    .map_or(0, |x| x.len());
                 if k as u64 == breaks {
                     fields += after;
                 }
@@ -333,11 +350,10 @@ pub(super) fn read_table<'f>(
                     );
                     continue;
                 }
-                if let Some((i, c)) = r
-                    .iter()
-                    .enumerate()
-                    .find(|(_, c)| c.chars().any(|ch| ch.is_control() && !"\t\r\n".contains(ch)))
-                {
+                if let Some((i, c)) = r.iter().enumerate().find(|(_, c)| {
+                    c.chars()
+                        .any(|ch| ch.is_control() && !"\t\r\n".contains(ch))
+                }) {
                     sink.problem(
                         file,
                         Location::Line(line),
