@@ -244,6 +244,15 @@ fn parse_feature(
     };
     let text_prop = |key: &str, sink: &mut Sink| -> Option<String> {
         match props.get(key) {
+            Some(Value::String(s)) if s.chars().any(char::is_control) => {
+                f.bad(
+                    sink,
+                    Some(key),
+                    Some(s),
+                    "the text holds a control character (shown escaped, e.g. \\u{0}); retype it",
+                );
+                None
+            }
             Some(Value::String(s)) => Some(s.trim().to_string()),
             Some(v) => {
                 f.bad(sink, Some(key), Some(&shown(v)), "expected a string");
@@ -535,6 +544,9 @@ fn geometry(
         }
         return None;
     }
+    // Outlines counter-clockwise first: the geodesic area of a clockwise ring is the rest of
+    // the Earth.
+    let shape = shape.orient(Direction::Default);
     let area_ha = crate::geodesy::area_ha(&shape);
     // Geodesic edges between points on one parallel bulge poleward, so a flat ring still has
     // a few m² of geodesic area; the planar area in degrees (scaled to m² at the block's
@@ -572,7 +584,7 @@ fn geometry(
             ),
         );
     }
-    Some(shape.orient(Direction::Default))
+    Some(shape)
 }
 
 /// RFC 7946 ring rules and coordinate ranges.

@@ -117,6 +117,15 @@ impl<'a> Obj<'a> {
 
     fn string(&self, sink: &mut Sink, key: &str, required: bool) -> Option<String> {
         match self.get(sink, key, required)? {
+            Value::String(s) if s.chars().any(char::is_control) => {
+                self.bad(
+                    sink,
+                    key,
+                    Some(&Value::String(s.clone())),
+                    "the text holds a control character (shown escaped, e.g. \\u{0}); retype it",
+                );
+                None
+            }
             Value::String(s) => Some(s.clone()),
             v => {
                 self.bad(

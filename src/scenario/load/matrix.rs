@@ -120,6 +120,27 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
         );
         return None;
     }
+    let odd = ids.iter().filter(|id| !id_like(id)).count();
+    if 2 * odd > ids.len() {
+        sink.problem(
+            file,
+            Location::Line(1),
+            None,
+            None,
+            format!(
+                "this does not look like a travel matrix: {odd} of {} header cells are not \
+                 location ids (values not shown); check that travel.matrix in scenario.json \
+                 names the matrix file (first header cell a label, then one id per column)",
+                ids.len()
+            ),
+        );
+        return None;
+    }
+    // How a column is named in problems: its id when it looks like one, else its number.
+    let col_name = |j: usize| match ids.get(j) {
+        Some(id) if id_like(id) => id.clone(),
+        _ => format!("column {}", j + 2),
+    };
     let mut seen = BTreeMap::new();
     for (j, id) in ids.iter().enumerate() {
         if id.is_empty() {
@@ -175,7 +196,7 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
                 .skip(1)
                 .filter(|c| parse_f64(c.trim()).is_err())
                 .count();
-            if rec.len() > 2 && 2 * words > rec.len() - 1 {
+            if rec.len() >= 2 && 2 * words > rec.len() - 1 {
                 sink.problem(
                     file,
                     Location::Line(line),
@@ -218,7 +239,7 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
                     "row {} must start with '{}', the id of header column {}; rows follow the \
                      header order",
                     i + 1,
-                    ids[i],
+                    col_name(i),
                     i + 2
                 ),
             );
@@ -240,7 +261,8 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
         let mut row = Vec::with_capacity(n);
         for (j, cell) in rec.iter().skip(1).enumerate() {
             let cell = cell.trim();
-            let col = ids.get(j).map_or("", String::as_str);
+            let col = col_name(j);
+            let col = col.as_str();
             match parse_f64(cell) {
                 Ok(v) if v < 0.0 => sink.problem(
                     file,
