@@ -645,6 +645,16 @@ mod tests {
     }
 
     #[test]
+    fn a_bad_row_of_a_crlf_manifest_names_its_physical_line() {
+        let p = Path::new("plan-a/manifest.csv");
+        let good = "S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,3,510,500,x,y";
+        let text =
+            format!("{HEADER}{good}\n{}\n", good.replace(",3,", ",three,")).replace('\n', "\r\n");
+        let e = parse_manifest(p, text.as_bytes()).unwrap_err();
+        assert_eq!(e.line, Some(3), "{e}");
+    }
+
+    #[test]
     fn bad_files_name_file_line_field_and_fix() {
         let p = Path::new("plan-a/manifest.csv");
         let e = parse_manifest(

@@ -327,6 +327,56 @@ mod tests {
     use super::super::read_plan_folder;
     use super::*;
 
+    /// Problems of `read_confirmations` on a file holding `bytes`, as printed.
+    fn problems(bytes: &[u8]) -> Vec<String> {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("c.csv");
+        std::fs::write(&path, bytes).expect("write");
+        match read_confirmations(&path) {
+            Ok(c) => panic!("read {} lines", c.len()),
+            Err(LedgerError::Input { problems, .. }) => {
+                problems.iter().map(ToString::to_string).collect()
+            }
+            Err(e) => panic!("not an input error: {e}"),
+        }
+    }
+
+    #[test]
+    fn crlf_files_name_the_physical_line() {
+        let p =
+            problems(b"shipment_id,status,released_at,note\r\nS-A,released,,\r\nS-B,lost,,\r\n");
+        assert_eq!(p.len(), 1);
+        assert!(p[0].starts_with("c.csv:3: field 'status'"), "{p:?}");
+    }
+
+    #[test]
+    fn invalid_utf8_names_its_line() {
+        let p = problems(
+            b"shipment_id,status,released_at,note\nS-A,released,,ok\nS-B,released,,caf\xe9\n",
+        );
+        assert_eq!(p.len(), 1);
+        assert!(p[0].starts_with("c.csv:3:"), "{p:?}");
+        assert!(p[0].contains("UTF-8"), "{p:?}");
+    }
+
+    #[test]
+    fn an_open_quote_that_swallows_a_line_is_named_and_not_quoted() {
+        let p = problems(
+            b"shipment_id,status,released_at,note\nS-A,released,,\"gate code 555-0100\nS-B,not_released,,away\" ok\n",
+        );
+        assert_eq!(p.len(), 1, "{p:?}");
+        assert!(p[0].starts_with("c.csv:2: field 'note'"), "{p:?}");
+        assert!(p[0].contains("line 3"), "{p:?}");
+        assert!(!p[0].contains("555-0100"), "{p:?}");
+    }
+
+    #[test]
+    fn an_invisible_character_in_a_value_is_shown_escaped() {
+        let p =
+            problems("shipment_id,status,released_at,note\nS-A,\u{feff}released,,\n".as_bytes());
+        assert!(p[0].contains("value '\\u{feff}released'"), "{p:?}");
+    }
+
     fn setup() -> (tempfile::TempDir, Ledger) {
         let dir = tempfile::tempdir().expect("temp dir");
         let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
