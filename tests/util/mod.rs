@@ -42,7 +42,10 @@ pub fn check_whole_vial_limits(s: &Scenario, a: &Allocation) -> (u32, u32) {
             "arc dispatched before its pack day"
         );
         assert!(x.eta <= release_by, "arc past its release-by used");
-        assert_eq!(x.release_by, release_by, "arc's release-by is not pack + shelf life");
+        assert_eq!(
+            x.release_by, release_by,
+            "arc's release-by is not pack + shelf life"
+        );
         *supply.entry((x.facility, x.pack_date)).or_default() += sh.vials;
         match x.mode {
             Mode::Route => *depot.entry((x.facility, x.dispatch_date)).or_default() += sh.vials,
