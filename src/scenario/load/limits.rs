@@ -19,8 +19,9 @@ pub const MAX_FEATURES: usize = 200_000;
 /// Most positions in one polygon (all its rings), counted before geometry validation. geo's
 /// OGC validity check grows with the square of the vertex count; measured on the release
 /// binary (`broodcast check` on one regular polygon, one run on a shared 2-core machine):
-/// 5,000 positions 0.18 s, 10,000 0.67 s, 14,000 1.26 s, 20,000 2.35 s, 40,000 8.4 s. The limit
-/// keeps one polygon under about a second. A surveyed grove block has tens to a few thousand
+/// 5,000 positions 0.18 s, 10,000 0.67 s, 14,000 1.26 s, 20,000 2.35 s, 40,000 8.4 s; in a
+/// later run of `examples/bench_polygon` (median of 3, machine busier) 10,000 took 1.09 s, 2.8×
+/// the 5,000 time. The limit keeps one polygon at about a second. A surveyed grove block has tens to a few thousand
 /// vertices; more means an unsimplified trace.
 pub const MAX_POLYGON_VERTICES: usize = 10_000;
 
