@@ -212,6 +212,8 @@ fn table(file: &Path, bytes: &[u8], needed: &[&str]) -> Result<Table, CompareErr
     let text = bytes
         .strip_prefix(b"\xEF\xBB\xBF".as_slice())
         .unwrap_or(bytes);
+    // csv's own line count lags one per CRLF; the loader's counter is right on both.
+    let lines = crate::scenario::CsvLines::from_bytes(text);
     let mut r = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
         .from_reader(text);
@@ -244,9 +246,9 @@ fn table(file: &Path, bytes: &[u8], needed: &[&str]) -> Result<Table, CompareErr
     let mut rows = Vec::new();
     for rec in r.records() {
         match rec {
-            Ok(rec) => rows.push((rec.position().map_or(0, |p| p.line()), rec)),
+            Ok(rec) => rows.push((lines.line(rec.position()), rec)),
             Err(e) => {
-                let line = e.position().map(|p| p.line());
+                let line = Some(lines.line(e.position())).filter(|&l| l > 0);
                 return Err(err(
                     file,
                     line,
@@ -640,6 +642,16 @@ mod tests {
         let a = outputs("a", ROWS, 7);
         let c = compare(&a, &a.clone());
         assert!(c.notes[0].contains("manifest.csv serves 2 sites but summary.json says 7"));
+    }
+
+    #[test]
+    fn a_bad_row_of_a_crlf_manifest_names_its_physical_line() {
+        let p = Path::new("plan-a/manifest.csv");
+        let good = "S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,3,510,500,x,y";
+        let text =
+            format!("{HEADER}{good}\n{}\n", good.replace(",3,", ",three,")).replace('\n', "\r\n");
+        let e = parse_manifest(p, text.as_bytes()).unwrap_err();
+        assert_eq!(e.line, Some(3), "{e}");
     }
 
     #[test]

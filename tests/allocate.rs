@@ -81,8 +81,9 @@ fn python_has(module: &str) -> bool {
 #[test]
 fn lp_bound_matches_highs_on_exported_mps() {
     if !python_has("highspy") {
-        eprintln!(
-            "skipping lp_bound_matches_highs_on_exported_mps: python3 cannot import highspy (pip install highspy)"
+        util::skip(
+            "lp_bound_matches_highs_on_exported_mps",
+            "python3 cannot import highspy (pip install highspy)",
         );
         return;
     }

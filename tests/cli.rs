@@ -220,7 +220,10 @@ fn highspy_available() -> bool {
 #[test]
 fn lp_bound_matches_highs_on_the_exported_demo_and_generated_models() {
     if !highspy_available() {
-        eprintln!("skipped: python3 cannot import highspy (pip install highspy)");
+        util::skip(
+            "lp_bound_matches_highs_on_the_exported_demo_and_generated_models",
+            "python3 cannot import highspy (pip install highspy)",
+        );
         return;
     }
     let tmp = tempfile::tempdir().unwrap();

@@ -6,7 +6,6 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::PathBuf;
-use std::time::Instant;
 
 use broodcast::demo::FILES;
 use broodcast::generate::{GenParams, generate};
@@ -417,15 +416,12 @@ fn demo_keeps_the_rules_and_supply_is_scarce() {
     }
 }
 
+/// How long generating takes is measured by `cargo run --release --example bench_generate`,
+/// not here: a test's verdict must not depend on the machine's speed.
 #[test]
-fn state_scale_week_keeps_the_rules_and_generates_quickly() {
+fn state_scale_week_keeps_the_rules() {
     let p = GenParams::sized(35_000, 3);
-    let started = Instant::now();
     let files = generate(&p);
-    let secs = started.elapsed().as_secs_f64();
-    eprintln!("generate(sized(35_000)): {secs:.2} s (test profile)");
-    // "A few seconds" in a release build; the test profile is slower, hence the margin.
-    assert!(secs < 30.0, "{secs} s");
     let t = check(&files);
     assert_eq!((t.blocks, t.requests), (20_000, 15_000));
     // ~1,000 releases at the target size, give or take the survival factor.

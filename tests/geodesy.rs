@@ -7,6 +7,8 @@
 //! message. Published check value: Vincenty's inverse worked example, Flinders Peak to
 //! Buninyong.
 
+mod util;
+
 use std::io::Write;
 use std::path::PathBuf;
 use std::process::{Command, Stdio};
@@ -27,9 +29,10 @@ fn have_geographiclib(test: &str) -> bool {
         .status()
         .is_ok_and(|s| s.success());
     if !ok {
-        eprintln!(
-            "SKIPPED {test}: python3 -c 'import geographiclib' failed; \
-             install it with `python3 -m pip install geographiclib`"
+        util::skip(
+            test,
+            "python3 -c 'import geographiclib' failed; install it with `python3 -m pip install \
+             geographiclib`",
         );
     }
     ok

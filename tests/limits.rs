@@ -106,7 +106,8 @@ fn a_polygon_with_too_many_vertices_is_named_with_the_limit_and_the_fix() {
     let (stderr, _) = rejected(dir.path());
     let l = line_with(&stderr, &format!("feature 0 (id '{id}'): field 'geometry'"));
     assert!(
-        l.contains("100001 positions") && l.contains("limit of 100000"),
+        l.contains(&format!("{n} positions"))
+            && l.contains(&format!("limit of {}", limits::MAX_POLYGON_VERTICES)),
         "{l}"
     );
     assert!(l.contains("simplify"), "{l}");

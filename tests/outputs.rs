@@ -3,6 +3,8 @@
 //! deterministic, hostile ids are escaped, and route sheets print one page per route in
 //! Chromium (skipped when Chromium or poppler's `pdfinfo` is absent).
 
+mod util;
+
 use std::collections::BTreeMap;
 use std::path::Path;
 use std::process::Command;
@@ -439,8 +441,9 @@ fn pdf_pages(pdf: &Path) -> u32 {
 #[test]
 fn route_sheets_print_at_least_one_page_per_route() {
     if !have("chromium") || !have("pdfinfo") {
-        eprintln!(
-            "skipped: chromium or pdfinfo not on PATH (apt-get install chromium poppler-utils)"
+        util::skip(
+            "route_sheets_print_at_least_one_page_per_route",
+            "chromium or pdfinfo not on PATH (apt-get install chromium poppler-utils)",
         );
         return;
     }

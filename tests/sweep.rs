@@ -533,9 +533,9 @@ fn ink_share(ppm: &[u8]) -> f64 {
 #[test]
 fn sweep_report_prints_with_its_charts_in_chromium() {
     if !have("chromium") || !have("pdftotext") || !have("pdftoppm") {
-        eprintln!(
-            "skipped: chromium, pdftotext or pdftoppm not on PATH (apt-get install chromium \
-             poppler-utils)"
+        util::skip(
+            "sweep_report_prints_with_its_charts_in_chromium",
+            "chromium, pdftotext or pdftoppm not on PATH (apt-get install chromium poppler-utils)",
         );
         return;
     }

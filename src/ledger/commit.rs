@@ -209,6 +209,7 @@ pub(super) fn parse_datetime(s: &str) -> Option<NaiveDateTime> {
 }
 
 fn parse_manifest(text: &str, problems: &mut Vec<Problem>) -> Vec<ShipmentRecord> {
+    let lines = crate::scenario::CsvLines::new(text);
     let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
     let headers = match rdr.headers() {
         Ok(h) => h.clone(),
@@ -226,12 +227,12 @@ fn parse_manifest(text: &str, problems: &mut Vec<Problem>) -> Vec<ShipmentRecord
         let rec = match rec {
             Ok(r) => r,
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
+                let line = lines.line(e.position());
                 problems.push(line_problem(MANIFEST, line, None, None, e.to_string()));
                 continue;
             }
         };
-        let line = rec.position().map_or(0, |p| p.line());
+        let line = lines.line(rec.position());
         let before = problems.len();
         let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
         let mut bad = |field: &str, value: &str, rule: &str| {
@@ -401,6 +402,7 @@ fn read_candidates(
         return Ok(Vec::new());
     }
     let text = read_text(&path)?;
+    let lines = crate::scenario::CsvLines::new(&text);
     let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
     let headers = match rdr.headers() {
         Ok(h) => h.clone(),
@@ -421,7 +423,7 @@ fn read_candidates(
                 if r.get(kind).map(str::trim) == Some("dooryard") {
                     let site = r.get(id).unwrap_or("").trim().to_string();
                     if site.is_empty() {
-                        let line = r.position().map_or(0, |p| p.line());
+                        let line = lines.line(r.position());
                         problems.push(line_problem(
                             FILE,
                             line,
@@ -435,7 +437,7 @@ fn read_candidates(
                 }
             }
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
+                let line = lines.line(e.position());
                 problems.push(line_problem(FILE, line, None, None, e.to_string()));
             }
         }

@@ -91,10 +91,26 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         || path.display().to_string(),
         |n| n.to_string_lossy().into_owned(),
     );
-    let text = std::fs::read_to_string(path).map_err(|source| LedgerError::Io {
+    let bytes = std::fs::read(path).map_err(|source| LedgerError::Io {
         path: path.display().to_string(),
         source,
     })?;
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    let text = match std::str::from_utf8(bytes) {
+        Ok(t) => t,
+        Err(e) => {
+            let good = &bytes[..e.valid_up_to()];
+            let line = 1 + good.iter().filter(|&&b| b == b'\n').count() as u64;
+            return Err(LedgerError::input(vec![line_problem(
+                &file,
+                line,
+                None,
+                None,
+                "the line is not valid UTF-8 text; save the file as 'CSV UTF-8'",
+            )]));
+        }
+    };
+    let lines = crate::scenario::CsvLines::new(text);
     let mut problems = Vec::new();
     let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
     let headers = match rdr.headers() {
@@ -123,12 +139,22 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         let rec = match rec {
             Ok(r) => r,
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
+                let line = lines.line(e.position());
                 problems.push(line_problem(&file, line, None, None, e.to_string()));
                 continue;
             }
         };
-        let line = rec.position().map_or(0, |p| p.line());
+        let line = lines.line(rec.position());
+        if let Some(sw) = crate::scenario::swallowed_row(&rec, headers.len()) {
+            problems.push(line_problem(
+                &file,
+                line,
+                headers.get(sw.column).map(str::trim),
+                None,
+                sw.message(line),
+            ));
+            continue;
+        }
         let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
         let before = problems.len();
         let id = get(0).to_string();
@@ -202,6 +228,10 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         }
     }
     if !problems.is_empty() {
+        for p in &mut problems {
+            // An invisible character in a value is shown escaped (`\u{feff}`).
+            p.value = p.value.as_deref().map(crate::scenario::show_value);
+        }
         return Err(LedgerError::input(problems));
     }
     Ok(out)
@@ -296,6 +326,56 @@ mod tests {
     use super::super::commit::tests::{folder, row};
     use super::super::read_plan_folder;
     use super::*;
+
+    /// Problems of `read_confirmations` on a file holding `bytes`, as printed.
+    fn problems(bytes: &[u8]) -> Vec<String> {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("c.csv");
+        std::fs::write(&path, bytes).expect("write");
+        match read_confirmations(&path) {
+            Ok(c) => panic!("read {} lines", c.len()),
+            Err(LedgerError::Input { problems, .. }) => {
+                problems.iter().map(ToString::to_string).collect()
+            }
+            Err(e) => panic!("not an input error: {e}"),
+        }
+    }
+
+    #[test]
+    fn crlf_files_name_the_physical_line() {
+        let p =
+            problems(b"shipment_id,status,released_at,note\r\nS-A,released,,\r\nS-B,lost,,\r\n");
+        assert_eq!(p.len(), 1);
+        assert!(p[0].starts_with("c.csv:3: field 'status'"), "{p:?}");
+    }
+
+    #[test]
+    fn invalid_utf8_names_its_line() {
+        let p = problems(
+            b"shipment_id,status,released_at,note\nS-A,released,,ok\nS-B,released,,caf\xe9\n",
+        );
+        assert_eq!(p.len(), 1);
+        assert!(p[0].starts_with("c.csv:3:"), "{p:?}");
+        assert!(p[0].contains("UTF-8"), "{p:?}");
+    }
+
+    #[test]
+    fn an_open_quote_that_swallows_a_line_is_named_and_not_quoted() {
+        let p = problems(
+            b"shipment_id,status,released_at,note\nS-A,released,,\"gate code 555-0100\nS-B,not_released,,away\" ok\n",
+        );
+        assert_eq!(p.len(), 1, "{p:?}");
+        assert!(p[0].starts_with("c.csv:2: field 'note'"), "{p:?}");
+        assert!(p[0].contains("line 3"), "{p:?}");
+        assert!(!p[0].contains("555-0100"), "{p:?}");
+    }
+
+    #[test]
+    fn an_invisible_character_in_a_value_is_shown_escaped() {
+        let p =
+            problems("shipment_id,status,released_at,note\nS-A,\u{feff}released,,\n".as_bytes());
+        assert!(p[0].contains("value '\\u{feff}released'"), "{p:?}");
+    }
 
     fn setup() -> (tempfile::TempDir, Ledger) {
         let dir = tempfile::tempdir().expect("temp dir");

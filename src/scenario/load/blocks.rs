@@ -10,12 +10,14 @@ use std::collections::{BTreeMap, BTreeSet};
 
 use geo::algorithm::Validation;
 use geo::orient::Direction;
-use geo::{Coord, LineString, MultiPolygon, Orient, Polygon};
+use geo::{Area, Coord, LineString, MultiPolygon, Orient, Polygon};
 use serde_json::Value;
 
 use super::fields::{check_lat, check_lon, parse_date, parse_enum, parse_time};
-use super::limits::{MAX_FEATURES, MAX_POLYGON_VERTICES, MAX_TOTAL_VERTICES};
-use super::text::Sink;
+use super::limits::{
+    LARGE_BLOCK_HA, MAX_FEATURES, MAX_POLYGON_VERTICES, MAX_TOTAL_VERTICES, MIN_BLOCK_M2,
+};
+use super::text::{Sink, duplicate_keys};
 use crate::scenario::problems::Location;
 use crate::scenario::{Block, Flush, LonLat, Management};
 
@@ -106,6 +108,16 @@ fn parse_capped(
             return (Vec::new(), None);
         }
     };
+    for path in duplicate_keys(text) {
+        sink.problem(
+            file,
+            Location::Key(path),
+            None,
+            None,
+            "the key is written twice in the same object; a reader would silently keep one of \
+             the two values. Keep the one you mean and delete the other",
+        );
+    }
     if root.get("type").and_then(Value::as_str) != Some("FeatureCollection") {
         sink.problem(
             file,
@@ -232,6 +244,15 @@ fn parse_feature(
     };
     let text_prop = |key: &str, sink: &mut Sink| -> Option<String> {
         match props.get(key) {
+            Some(Value::String(s)) if s.chars().any(char::is_control) => {
+                f.bad(
+                    sink,
+                    Some(key),
+                    Some(s),
+                    "the text holds a control character (shown escaped, e.g. \\u{0}); retype it",
+                );
+                None
+            }
             Some(Value::String(s)) => Some(s.trim().to_string()),
             Some(v) => {
                 f.bad(sink, Some(key), Some(&shown(v)), "expected a string");
@@ -523,7 +544,47 @@ fn geometry(
         }
         return None;
     }
-    Some(shape.orient(Direction::Default))
+    // Outlines counter-clockwise first: the geodesic area of a clockwise ring is the rest of
+    // the Earth.
+    let shape = shape.orient(Direction::Default);
+    let area_ha = crate::geodesy::area_ha(&shape);
+    // Geodesic edges between points on one parallel bulge poleward, so a flat ring still has
+    // a few m² of geodesic area; the planar area in degrees (scaled to m² at the block's
+    // latitude, about 111.32 km a degree) is 0 for it.
+    let lat = shape
+        .iter()
+        .flat_map(|p| p.exterior().coords())
+        .map(|c| c.y)
+        .next()
+        .unwrap_or(0.0);
+    let planar_m2 = shape.unsigned_area() * 111_320.0 * 111_320.0 * lat.to_radians().cos();
+    if !(area_ha.is_finite() && area_ha * 10_000.0 >= MIN_BLOCK_M2 && planar_m2 >= MIN_BLOCK_M2) {
+        f.bad(
+            sink,
+            Some("geometry"),
+            None,
+            format!(
+                "the outline encloses no area (under {MIN_BLOCK_M2} m²: its points lie on one \
+                 line or on one spot); redraw the block's outline"
+            ),
+        );
+        return None;
+    }
+    if area_ha > LARGE_BLOCK_HA {
+        sink.warning(
+            f.file,
+            Location::Feature {
+                index: f.index,
+                id: f.id.clone(),
+            },
+            format!(
+                "the block covers {area_ha:.0} ha, more than {LARGE_BLOCK_HA:.0} ha; check the \
+                 outline (a whole farm or county drawn as one block, or a coordinate typed \
+                 wrong?)"
+            ),
+        );
+    }
+    Some(shape)
 }
 
 /// RFC 7946 ring rules and coordinate ranges.
@@ -534,7 +595,7 @@ fn ring_coords(ring: &[geojson::Position]) -> Result<Vec<Coord<f64>>, String> {
             ring.len()
         ));
     }
-    let mut coords = Vec::with_capacity(ring.len());
+    let mut coords: Vec<Coord<f64>> = Vec::with_capacity(ring.len());
     for (i, p) in ring.iter().enumerate() {
         let s = p.as_slice();
         let (Some(&x), Some(&y)) = (s.first(), s.get(1)) else {
@@ -545,6 +606,16 @@ fn ring_coords(ring: &[geojson::Position]) -> Result<Vec<Coord<f64>>, String> {
         }
         check_lon(x).map_err(|m| format!("position {i}: {m}"))?;
         check_lat(y).map_err(|m| format!("position {i}: {m}"))?;
+        if let Some(prev) = coords.last()
+            && (x - prev.x).abs() > 180.0
+        {
+            // Read as written, the edge would go the long way round the Earth.
+            return Err(format!(
+                "the edge from position {} to {i} crosses the antimeridian (180° longitude); \
+                 split the block into two polygons at 180° (RFC 7946 §3.1.9)",
+                i - 1
+            ));
+        }
         coords.push(Coord { x, y });
     }
     if coords.first() != coords.last() {

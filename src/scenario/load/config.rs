@@ -4,7 +4,8 @@ use chrono::{Datelike, NaiveDate, NaiveTime, Weekday};
 use serde_json::{Map, Value};
 
 use super::fields::{check_days, parse_date, parse_day, parse_days, parse_time};
-use super::text::Sink;
+use super::limits;
+use super::text::{Sink, duplicate_keys};
 use crate::scenario::problems::Location;
 use crate::scenario::{Agent, DispatchSettings, Parcel, Policy, Survival};
 
@@ -116,6 +117,15 @@ impl<'a> Obj<'a> {
 
     fn string(&self, sink: &mut Sink, key: &str, required: bool) -> Option<String> {
         match self.get(sink, key, required)? {
+            Value::String(s) if s.chars().any(char::is_control) => {
+                self.bad(
+                    sink,
+                    key,
+                    Some(&Value::String(s.clone())),
+                    "the text holds a control character (shown escaped, e.g. \\u{0}); retype it",
+                );
+                None
+            }
             Value::String(s) => Some(s.clone()),
             v => {
                 self.bad(
@@ -228,19 +238,34 @@ impl<'a> Obj<'a> {
     }
 }
 
-fn positive(x: f64) -> Result<(), String> {
-    if x > 0.0 {
-        Ok(())
-    } else {
-        Err("must be greater than 0".into())
+/// A number in `(0, max]`, `unit` naming what `max` counts (the limits and their reasons are in
+/// docs/formats.md, "Limits").
+fn positive_up_to(max: f64, unit: &'static str) -> impl Fn(f64) -> Result<(), String> {
+    move |x| {
+        if x > 0.0 && x <= max {
+            Ok(())
+        } else if x <= 0.0 {
+            Err("must be greater than 0".into())
+        } else {
+            Err(format!(
+                "must be at most {max} {unit}; a larger value is a typing or unit mistake"
+            ))
+        }
     }
 }
 
-fn non_negative(x: f64) -> Result<(), String> {
-    if x >= 0.0 {
-        Ok(())
-    } else {
-        Err("must be 0 or more".into())
+/// A number in `[0, max]`.
+fn up_to(max: f64, unit: &'static str) -> impl Fn(f64) -> Result<(), String> {
+    move |x| {
+        if (0.0..=max).contains(&x) {
+            Ok(())
+        } else if x < 0.0 {
+            Err("must be 0 or more".into())
+        } else {
+            Err(format!(
+                "must be at most {max} {unit}; a larger value is a typing or unit mistake"
+            ))
+        }
     }
 }
 
@@ -267,6 +292,16 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             return None;
         }
     };
+    for path in duplicate_keys(text) {
+        sink.problem(
+            file,
+            Location::Key(path),
+            None,
+            None,
+            "the key is written twice in the same object; a reader would silently keep one of \
+             the two values. Keep the one you mean and delete the other",
+        );
+    }
     let Value::Object(map) = &root else {
         sink.problem(
             file,
@@ -286,6 +321,19 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
     let week_start = top
         .string(sink, "week_start", true)
         .and_then(|s| match parse_date(&s) {
+            Ok(d) if !(limits::WEEK_YEARS).contains(&d.year()) => {
+                top.bad(
+                    sink,
+                    "week_start",
+                    Some(&Value::String(s.clone())),
+                    format!(
+                        "the year must be from {} to {}; check the date",
+                        limits::WEEK_YEARS.start(),
+                        limits::WEEK_YEARS.end()
+                    ),
+                );
+                None
+            }
             Ok(d) if d.weekday() == Weekday::Mon => Some(d),
             Ok(d) => {
                 top.bad(
@@ -315,59 +363,111 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             "dooryard_vials_per_request",
             None,
             1,
-            u64::from(u32::MAX),
+            limits::MAX_VIALS_PER_REQUEST,
         ) as u32,
         pesticide_exclusion_days: p.integer(
             sink,
             "pesticide_exclusion_days",
             None,
             0,
-            u64::from(u32::MAX),
+            limits::MAX_INTERVAL_DAYS,
         ) as u32,
         require_flush: p.boolean(sink, "require_flush"),
-        pressure_radius_km: p.number(sink, "pressure_radius_km", None, positive),
-        pressure_bandwidth_km: p.number(sink, "pressure_bandwidth_km", None, positive),
-        travel_cost_per_hour: p.number(sink, "travel_cost_per_hour", Some(1.0), non_negative),
-        rerelease_interval_days: p.integer(sink, "rerelease_interval_days", Some(28), 0, 3660)
-            as u32,
+        pressure_radius_km: p.number(
+            sink,
+            "pressure_radius_km",
+            None,
+            positive_up_to(limits::MAX_KM, "km"),
+        ),
+        pressure_bandwidth_km: p.number(
+            sink,
+            "pressure_bandwidth_km",
+            None,
+            positive_up_to(limits::MAX_KM, "km"),
+        ),
+        travel_cost_per_hour: p.number(
+            sink,
+            "travel_cost_per_hour",
+            Some(1.0),
+            up_to(limits::MAX_TRAVEL_COST_PER_HOUR, "per hour"),
+        ),
+        rerelease_interval_days: p.integer(
+            sink,
+            "rerelease_interval_days",
+            Some(28),
+            0,
+            limits::MAX_INTERVAL_DAYS,
+        ) as u32,
         releases_per_site_week: p.integer(sink, "releases_per_site_week", Some(1), 1, 7) as u32,
     };
 
     let tr = top.object(sink, "travel", true);
     let circuity = tr.number(sink, "circuity", None, |x| {
-        if x >= 1.0 {
+        if (1.0..=limits::MAX_CIRCUITY).contains(&x) {
             Ok(())
+        } else if x > 1.0 {
+            Err(format!(
+                "must be at most {}; road distance is rarely more than twice the straight line",
+                limits::MAX_CIRCUITY
+            ))
         } else {
             Err("road distance over straight-line distance is 1 or more (typically 1.2–1.5)".into())
         }
     });
-    let speed_kmh = tr.number(sink, "speed_kmh", None, positive);
+    let speed_kmh = tr.number(
+        sink,
+        "speed_kmh",
+        None,
+        positive_up_to(limits::MAX_SPEED_KMH, "km/h"),
+    );
     let matrix = tr.string(sink, "matrix", false);
 
     let pa = top.object(sink, "parcel", true);
     let parcel = Parcel {
-        transit_hours: pa.number(sink, "transit_hours", None, non_negative),
+        transit_hours: pa.number(
+            sink,
+            "transit_hours",
+            None,
+            up_to(limits::MAX_HOURS, "hours"),
+        ),
         days: parse_parcel_days(&pa, sink),
-        max_vials_per_day: pa.integer(sink, "max_vials_per_day", None, 0, u64::from(u32::MAX))
-            as u32,
+        max_vials_per_day: pa.integer(
+            sink,
+            "max_vials_per_day",
+            None,
+            0,
+            limits::MAX_VIALS_PER_DAY,
+        ) as u32,
         ship_time: pa.time(sink, "ship_time", t(15, 0)),
     };
 
     let d = top.object(sink, "dispatch", false);
     let dispatch = DispatchSettings {
-        service_minutes_block: d.number(sink, "service_minutes_block", Some(15.0), non_negative),
+        service_minutes_block: d.number(
+            sink,
+            "service_minutes_block",
+            Some(15.0),
+            up_to(limits::MAX_SERVICE_MINUTES, "minutes"),
+        ),
         service_minutes_dooryard: d.number(
             sink,
             "service_minutes_dooryard",
             Some(5.0),
-            non_negative,
+            up_to(limits::MAX_SERVICE_MINUTES, "minutes"),
         ),
         dooryard_window_start: d.time(sink, "dooryard_window_start", t(8, 0)),
         dooryard_window_end: d.time(sink, "dooryard_window_end", t(18, 0)),
         time_limit_seconds: d
             .get(sink, "time_limit_seconds", false)
             .is_some()
-            .then(|| d.number(sink, "time_limit_seconds", None, positive)),
+            .then(|| {
+                d.number(
+                    sink,
+                    "time_limit_seconds",
+                    None,
+                    positive_up_to(limits::MAX_TIME_LIMIT_SECONDS, "seconds"),
+                )
+            }),
         seed: d.integer(sink, "seed", Some(1), 0, u64::MAX),
     };
     if dispatch.dooryard_window_start >= dispatch.dooryard_window_end {
@@ -424,11 +524,31 @@ fn parse_parcel_days(pa: &Obj<'_>, sink: &mut Sink) -> Vec<Weekday> {
 
 fn parse_agent(a: &Obj<'_>, sink: &mut Sink) -> Agent {
     let name = a.string(sink, "name", true).unwrap_or_default();
-    let shelf_life_hours = a.number(sink, "shelf_life_hours", None, positive);
+    let shelf_life_hours = a.number(
+        sink,
+        "shelf_life_hours",
+        None,
+        positive_up_to(limits::MAX_HOURS, "hours"),
+    );
     let survival = parse_survival(&a.object(sink, "survival", true), sink);
-    let min = a.number(sink, "min_release_wasps", None, non_negative);
-    let target = a.number(sink, "target_release_wasps", None, non_negative);
-    let max = a.number(sink, "max_release_wasps", None, non_negative);
+    let min = a.number(
+        sink,
+        "min_release_wasps",
+        None,
+        up_to(limits::MAX_RELEASE_WASPS, "wasps"),
+    );
+    let target = a.number(
+        sink,
+        "target_release_wasps",
+        None,
+        up_to(limits::MAX_RELEASE_WASPS, "wasps"),
+    );
+    let max = a.number(
+        sink,
+        "max_release_wasps",
+        None,
+        up_to(limits::MAX_RELEASE_WASPS, "wasps"),
+    );
     if min > target {
         a.bad(
             sink,
@@ -466,7 +586,12 @@ fn parse_survival(s: &Obj<'_>, sink: &mut Sink) -> Survival {
     };
     match model.as_str() {
         "exponential" => Survival::Exponential {
-            half_life_hours: s.number(sink, "half_life_hours", None, positive),
+            half_life_hours: s.number(
+                sink,
+                "half_life_hours",
+                None,
+                positive_up_to(limits::MAX_HOURS, "hours"),
+            ),
         },
         "table" => match s.get(sink, "points", true) {
             Some(v) => match table_points(v) {
@@ -506,6 +631,12 @@ fn table_points(v: &Value) -> Result<Vec<(f64, f64)>, String> {
                 "point {i} must be a pair of numbers [hours, share]"
             ));
         };
+        if h > limits::MAX_HOURS {
+            return Err(format!(
+                "point {i}: {h} hours is more than the limit of {} hours",
+                limits::MAX_HOURS
+            ));
+        }
         if !(0.0..=1.0).contains(&sh) {
             return Err(format!("point {i}: share {sh} must be between 0 and 1"));
         }

@@ -152,15 +152,46 @@ pub(super) fn parse_enum<T: Copy>(s: &str, choices: &[(&str, T)]) -> Result<T, S
         })
 }
 
+/// Whether `c` prints as nothing or as a blank that is not a plain space: control characters,
+/// the byte-order mark, zero-width and direction marks, no-break and other odd spaces. Such a
+/// character inside a value makes two equal-looking ids differ.
+pub(crate) fn invisible(c: char) -> bool {
+    c.is_control()
+        || matches!(
+            c,
+            '\u{00A0}'
+                | '\u{00AD}'
+                | '\u{034F}'
+                | '\u{061C}'
+                | '\u{115F}'
+                | '\u{1160}'
+                | '\u{17B4}'
+                | '\u{17B5}'
+                | '\u{180E}'
+                | '\u{2000}'..='\u{200F}'
+                | '\u{2028}'..='\u{202F}'
+                | '\u{205F}'..='\u{206F}'
+                | '\u{3000}'
+                | '\u{3164}'
+                | '\u{FEFF}'
+                | '\u{FFA0}'
+                | '\u{FFF9}'..='\u{FFFB}'
+        )
+}
+
 /// Shortens and cleans a value for display in a problem: binary garbage and very long cells
-/// must not flood the terminal.
+/// must not flood the terminal, and an invisible character is written as an escape
+/// (`\u{feff}`) so that the reader sees why `F1` is not `F1`.
 pub(super) fn show(s: &str) -> String {
     const MAX_CHARS: usize = 60;
-    let mut out: String = s
-        .chars()
-        .take(MAX_CHARS)
-        .map(|c| if c.is_control() { '\u{FFFD}' } else { c })
-        .collect();
+    let mut out = String::new();
+    for c in s.chars().take(MAX_CHARS) {
+        if invisible(c) {
+            out.push_str(&c.escape_unicode().to_string());
+        } else {
+            out.push(c);
+        }
+    }
     if s.chars().count() > MAX_CHARS {
         out.push('…');
     }
@@ -242,6 +273,8 @@ mod tests {
     fn shown_values_are_short_and_printable() {
         let long = "x".repeat(500);
         assert_eq!(show(&long).chars().count(), 61);
-        assert_eq!(show("a\u{0}b"), "a\u{FFFD}b");
+        assert_eq!(show("a\u{0}b"), "a\\u{0}b");
+        assert_eq!(show("\u{feff}F1"), "\\u{feff}F1");
+        assert_eq!(show("F\u{200b}1 x"), "F\\u{200b}1 x");
     }
 }

@@ -16,10 +16,23 @@ pub const MAX_CSV_ROWS: usize = 1_000_000;
 /// Most features in `blocks.geojson`.
 pub const MAX_FEATURES: usize = 200_000;
 
-/// Most positions in one polygon (all its rings), counted before geometry validation, whose
-/// cost grows faster than linearly in vertices. A surveyed grove block has tens to a few
-/// thousand vertices; 100,000 means an unsimplified trace.
-pub const MAX_POLYGON_VERTICES: usize = 100_000;
+/// Most positions in one polygon (all its rings), counted before geometry validation. geo's
+/// OGC validity check grows with the square of the vertex count; measured on the release
+/// binary (`broodcast check` on one regular polygon, one run on a shared 2-core machine):
+/// 5,000 positions 0.18 s, 10,000 0.67 s, 14,000 1.26 s, 20,000 2.35 s, 40,000 8.4 s; in a
+/// later run of `examples/bench_polygon` (median of 3, machine busier) 10,000 took 1.09 s, 2.8×
+/// the 5,000 time. The limit keeps one polygon at about a second. A surveyed grove block has tens to a few thousand
+/// vertices; more means an unsimplified trace.
+pub const MAX_POLYGON_VERTICES: usize = 10_000;
+
+/// Smallest block area, m²: below it the outline is a line or a point (a zero-area ring
+/// passes the ring rules and OGC validity).
+pub const MIN_BLOCK_M2: f64 = 1.0;
+
+/// Block area above which a warning asks for a look, hectares (common practice: a citrus
+/// block, the unit a crew treats as one, is a few to a few hundred hectares; 2,000 ha is a
+/// whole large grove or more).
+pub const LARGE_BLOCK_HA: f64 = 2_000.0;
 
 /// Most positions over all polygons of `blocks.geojson`.
 pub const MAX_TOTAL_VERTICES: usize = 5_000_000;
@@ -27,6 +40,48 @@ pub const MAX_TOTAL_VERTICES: usize = 5_000_000;
 /// Most location ids in the travel matrix: the matrix holds ids² minutes as 8-byte floats,
 /// 200 MB at 5,000 ids.
 pub const MAX_MATRIX_IDS: usize = 5_000;
+
+/// Years a planning week may start in. Every date the planner computes (release-by, re-release
+/// and exclusion windows, route clocks) then stays a four-digit year, so date arithmetic cannot
+/// overflow and every output date is plain `YYYY-MM-DD`.
+pub const WEEK_YEARS: std::ops::RangeInclusive<i32> = 1900..=2999;
+
+/// Longest interval in days (`policy.pesticide_exclusion_days`,
+/// `policy.rerelease_interval_days`): ten years. Keeps `date + days` inside four-digit years.
+pub const MAX_INTERVAL_DAYS: u64 = 3660;
+
+/// Longest duration in hours (`agent.shelf_life_hours`, `agent.survival.half_life_hours`,
+/// table points, `parcel.transit_hours`): one year, far past any live shipment.
+pub const MAX_HOURS: f64 = 8760.0;
+
+/// Most wasps in one release (`agent.*_release_wasps`).
+pub const MAX_RELEASE_WASPS: f64 = 1e9;
+
+/// Most vials one dooryard request gets (`policy.dooryard_vials_per_request`).
+pub const MAX_VIALS_PER_REQUEST: u64 = 10_000;
+
+/// Most vials by parcel on one day (`parcel.max_vials_per_day`): a week's total then still
+/// fits a 32-bit count.
+pub const MAX_VIALS_PER_DAY: u64 = 100_000_000;
+
+/// Largest distance setting, km (`policy.pressure_radius_km`, `policy.pressure_bandwidth_km`).
+pub const MAX_KM: f64 = 1000.0;
+
+/// Largest `policy.travel_cost_per_hour`, in priority-weighted wasps: a million times the
+/// default (measured: 1e300 made the LP solver fail numerically).
+pub const MAX_TRAVEL_COST_PER_HOUR: f64 = 1e6;
+
+/// Largest `travel.circuity` (road over straight-line distance).
+pub const MAX_CIRCUITY: f64 = 10.0;
+
+/// Fastest `travel.speed_kmh`.
+pub const MAX_SPEED_KMH: f64 = 200.0;
+
+/// Longest service time at a stop, minutes (`dispatch.service_minutes_*`): one day.
+pub const MAX_SERVICE_MINUTES: f64 = 1440.0;
+
+/// Longest `dispatch.time_limit_seconds`: one day.
+pub const MAX_TIME_LIMIT_SECONDS: f64 = 86_400.0;
 
 /// `n` bytes written for people: `256 MiB`, `1.5 KiB`.
 pub(super) fn human_bytes(n: u64) -> String {

@@ -17,7 +17,31 @@ use super::text::{Sink, decode, line_of, newline_offsets};
 use crate::scenario::TravelMatrix;
 use crate::scenario::problems::Location;
 
+/// Whether a text looks like a location id (letters, digits, `-_./`, at most 32 characters,
+/// fewer than 7 digits), and so may be quoted in a message. A matrix pointed at the wrong file
+/// may hold names, phones or e-mails, which must never be printed.
+pub(super) fn id_like(s: &str) -> bool {
+    !s.is_empty()
+        && s.chars().count() <= 32
+        && s.chars()
+            .all(|c| c.is_ascii_alphanumeric() || "-_./".contains(c))
+        && s.chars().filter(char::is_ascii_digit).count() < 7
+}
+
+/// A cell as it may be quoted: a number-like text of at most 24 characters, else nothing.
+fn number_like(s: &str) -> Option<&str> {
+    (s.len() <= 24
+        && s.chars()
+            .all(|c| c.is_ascii_digit() || ".+-eE, ".contains(c) || "NaNinfINF".contains(c)))
+    .then_some(s)
+}
+
+/// Header names that only a file of people has; a matrix header holds location ids.
+const PERSONAL_COLUMNS: [&str; 6] = ["name", "phone", "email", "e-mail", "address", "contact"];
+
 /// Parses a matrix from bytes; every problem goes to `sink`. `None` if anything is wrong.
+/// Problems quote a cell only when it looks like a number or an id ([`id_like`]): the file may
+/// be the wrong one and hold personal data.
 pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelMatrix> {
     let before = sink.problems.len();
     let text = decode(file, bytes, sink)?;
@@ -81,6 +105,42 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
         );
         return None;
     }
+    if let Some(col) = ids
+        .iter()
+        .find(|id| PERSONAL_COLUMNS.contains(&id.to_ascii_lowercase().as_str()))
+    {
+        sink.problem(
+            file,
+            Location::Line(1),
+            Some(col),
+            None,
+            "this is not a travel matrix: its header has a column of personal data; check that \
+             travel.matrix in scenario.json names the matrix file (first header cell a label, \
+             then one location id per column)",
+        );
+        return None;
+    }
+    let odd = ids.iter().filter(|id| !id_like(id)).count();
+    if 2 * odd > ids.len() {
+        sink.problem(
+            file,
+            Location::Line(1),
+            None,
+            None,
+            format!(
+                "this does not look like a travel matrix: {odd} of {} header cells are not \
+                 location ids (values not shown); check that travel.matrix in scenario.json \
+                 names the matrix file (first header cell a label, then one id per column)",
+                ids.len()
+            ),
+        );
+        return None;
+    }
+    // How a column is named in problems: its id when it looks like one, else its number.
+    let col_name = |j: usize| match ids.get(j) {
+        Some(id) if id_like(id) => id.clone(),
+        _ => format!("column {}", j + 2),
+    };
     let mut seen = BTreeMap::new();
     for (j, id) in ids.iter().enumerate() {
         if id.is_empty() {
@@ -96,7 +156,7 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
                 file,
                 Location::Line(1),
                 Some(&format!("column {}", j + 2)),
-                Some(id),
+                id_like(id).then_some(id.as_str()),
                 format!("the id is also column {}; each id appears once", first + 2),
             );
         }
@@ -104,6 +164,7 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
     let n = ids.len();
     let mut minutes: Vec<Vec<f64>> = Vec::with_capacity(n);
     let mut last_line = 1;
+    let mut empty_rows = 0usize;
     for rec in records {
         let rec = match rec {
             Ok(r) => r,
@@ -121,8 +182,35 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
         };
         let line = line_of(text, &newlines, rec.position());
         last_line = line;
-        if rec.len() == 1 && rec.get(0).is_some_and(|c| c.trim().is_empty()) {
+        if rec.iter().all(|c| c.trim().is_empty()) {
+            if rec.len() > 1 {
+                empty_rows += 1;
+            }
             continue;
+        }
+        if minutes.is_empty() {
+            // The first data row decides whether this is a matrix at all: a wrong file
+            // would otherwise give one problem per cell, each quoting it.
+            let words = rec
+                .iter()
+                .skip(1)
+                .filter(|c| parse_f64(c.trim()).is_err())
+                .count();
+            if rec.len() >= 2 && 2 * words > rec.len() - 1 {
+                sink.problem(
+                    file,
+                    Location::Line(line),
+                    None,
+                    None,
+                    format!(
+                        "this does not look like a travel matrix: {words} of {} cells of the \
+                         first row are not numbers (values not shown); check that travel.matrix \
+                         in scenario.json names the matrix file",
+                        rec.len() - 1
+                    ),
+                );
+                return None;
+            }
         }
         let i = minutes.len();
         if i >= n {
@@ -142,12 +230,16 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
                 file,
                 Location::Line(line),
                 Some("column 1"),
-                Some(row_id),
+                Some(if ids.iter().any(|i| i == row_id) || id_like(row_id) {
+                    row_id
+                } else {
+                    "(not shown)"
+                }),
                 format!(
                     "row {} must start with '{}', the id of header column {}; rows follow the \
                      header order",
                     i + 1,
-                    ids[i],
+                    col_name(i),
                     i + 2
                 ),
             );
@@ -169,25 +261,27 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
         let mut row = Vec::with_capacity(n);
         for (j, cell) in rec.iter().skip(1).enumerate() {
             let cell = cell.trim();
-            let col = ids.get(j).map_or("", String::as_str);
+            let col = col_name(j);
+            let col = col.as_str();
             match parse_f64(cell) {
                 Ok(v) if v < 0.0 => sink.problem(
                     file,
                     Location::Line(line),
                     Some(col),
-                    Some(cell),
+                    number_like(cell),
                     "drive minutes are 0 or more",
                 ),
                 Ok(v) if i == j && v != 0.0 => sink.problem(
                     file,
                     Location::Line(line),
                     Some(col),
-                    Some(cell),
+                    number_like(cell),
                     "a location is 0 minutes from itself; the diagonal must be 0",
                 ),
                 Ok(v) => row.push(v),
                 Err(msg) => {
-                    sink.problem(file, Location::Line(line), Some(col), Some(cell), msg);
+                    let shown = number_like(cell).or(id_like(cell).then_some(cell));
+                    sink.problem(file, Location::Line(line), Some(col), shown, msg);
                 }
             }
         }
@@ -202,6 +296,16 @@ pub(super) fn parse(file: &str, bytes: &[u8], sink: &mut Sink) -> Option<TravelM
             format!(
                 "{} rows for {n} header ids; the matrix must be square (add the missing rows)",
                 minutes.len()
+            ),
+        );
+    }
+    if empty_rows > 0 {
+        sink.warning(
+            file,
+            Location::Line(last_line),
+            format!(
+                "{empty_rows} row(s) with every cell empty (e.g. ',,' left by a spreadsheet \
+                 export) skipped"
             ),
         );
     }

@@ -23,6 +23,17 @@ use super::problems::Location;
 use super::{
     InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel, TravelMatrix,
 };
+pub use text::{CsvLines, SwallowedRow, swallowed_row};
+
+/// A value as problems show it: at most 60 characters, control and invisible characters
+/// escaped (`\u{feff}`).
+///
+/// ```
+/// assert_eq!(broodcast::scenario::show_value("\u{feff}F1"), "\\u{feff}F1");
+/// ```
+pub fn show_value(s: &str) -> String {
+    fields::show(s)
+}
 use text::{Sink, decode};
 
 /// Where a scenario comes from.
@@ -44,7 +55,19 @@ pub fn load(source: &Source) -> Result<Scenario, InputError> {
 
 /// Loads and validates the scenario folder `dir`.
 pub fn load_dir(dir: &Path) -> Result<Scenario, InputError> {
-    load_with(&|name: &str| read_limited(&dir.join(name)))
+    load_with(
+        &|name: &str| read_limited(&dir.join(name)),
+        &|name: &str| resolves_inside(dir, name),
+    )
+}
+
+/// Whether `dir/name` resolves (through any symbolic link) to a file inside `dir`. A file that
+/// does not exist yet counts as inside: it is reported missing.
+fn resolves_inside(dir: &Path, name: &str) -> bool {
+    match (dir.join(name).canonicalize(), dir.canonicalize()) {
+        (Ok(file), Ok(dir)) => file.starts_with(dir),
+        _ => true,
+    }
 }
 
 /// Reads a file of at most [`limits::MAX_FILE_BYTES`]: the size is checked from metadata
@@ -90,12 +113,15 @@ fn read_limited(path: &Path) -> Fetched<'static> {
 /// assert!(err.to_string().contains("scenario.json: required file is missing"));
 /// ```
 pub fn load_files(files: &[(&str, &[u8])]) -> Result<Scenario, InputError> {
-    load_with(&|name: &str| {
-        files
-            .iter()
-            .find(|(n, _)| normalize(n) == name)
-            .map_or(Fetched::Missing, |(_, b)| Fetched::Found(Cow::Borrowed(*b)))
-    })
+    load_with(
+        &|name: &str| {
+            files
+                .iter()
+                .find(|(n, _)| normalize(n) == name)
+                .map_or(Fetched::Missing, |(_, b)| Fetched::Found(Cow::Borrowed(*b)))
+        },
+        &|_: &str| true,
+    )
 }
 
 /// Loads the built-in demo scenario ([`crate::demo::FILES`]) through the same checks.
@@ -185,7 +211,10 @@ fn fetch<'a>(
     }
 }
 
-fn load_with<'a>(get: &dyn Fn(&str) -> Fetched<'a>) -> Result<Scenario, InputError> {
+fn load_with<'a>(
+    get: &dyn Fn(&str) -> Fetched<'a>,
+    inside: &dyn Fn(&str) -> bool,
+) -> Result<Scenario, InputError> {
     let mut sink = Sink::default();
     let sink = &mut sink;
 
@@ -319,33 +348,56 @@ fn load_with<'a>(get: &dyn Fn(&str) -> Fetched<'a>) -> Result<Scenario, InputErr
     let travel_matrix = cfg
         .as_ref()
         .and_then(|c| c.matrix.as_deref())
-        .and_then(|path| load_matrix(get, path, sink));
+        .and_then(|path| load_matrix(get, inside, path, sink));
     if let Some(m) = &travel_matrix {
         let file = cfg
             .as_ref()
             .and_then(|c| c.matrix.as_deref())
             .unwrap_or("travel matrix");
+        let is_facility = |id: &str| facilities.iter().any(|f| f.id.as_str() == id);
+        for (j, id) in m.ids.iter().enumerate() {
+            if is_facility(id) && site_index.contains_key(id.as_str()) {
+                // The matrix has one row per id, so the facility would be 0 minutes from the
+                // site: a route would reach it without driving.
+                sink.problem(
+                    normalize(file),
+                    Location::Line(1),
+                    Some(&format!("column {}", j + 2)),
+                    Some(id),
+                    "the id is both a facility (facilities.csv) and a site (blocks.geojson or \
+                     requests.csv), so the matrix cannot tell them apart; give the facility or \
+                     the site another id",
+                );
+            }
+        }
         let unknown: Vec<&str> = m
             .ids
             .iter()
             .map(String::as_str)
-            .filter(|id| {
-                !site_index.contains_key(id) && !facilities.iter().any(|f| f.id.as_str() == *id)
-            })
+            .filter(|id| !site_index.contains_key(id) && !is_facility(id))
             .collect();
         if !unknown.is_empty() {
+            // Ids are quoted only when they look like ids: a wrong file's header may be a
+            // person's name, phone or e-mail.
+            let shown: Vec<&str> = unknown
+                .iter()
+                .copied()
+                .filter(|id| matrix::id_like(id))
+                .take(10)
+                .collect();
+            let hidden = unknown.iter().filter(|id| !matrix::id_like(id)).count();
             sink.warning(
                 normalize(file),
                 Location::Line(1),
                 format!(
-                    "{} id(s) are not a facility or site and are ignored: {}",
+                    "{} id(s) are not a facility or site and are ignored: {}{}",
                     unknown.len(),
-                    unknown
-                        .iter()
-                        .take(10)
-                        .copied()
-                        .collect::<Vec<_>>()
-                        .join(", ")
+                    shown.join(", "),
+                    if hidden > 0 {
+                        format!(" ({hidden} not shown: they do not look like ids)")
+                    } else {
+                        String::new()
+                    }
                 ),
             );
         }
@@ -426,17 +478,41 @@ fn load_with<'a>(get: &dyn Fn(&str) -> Fetched<'a>) -> Result<Scenario, InputErr
 
 fn load_matrix<'a>(
     get: &dyn Fn(&str) -> Fetched<'a>,
+    inside: &dyn Fn(&str) -> bool,
     path: &str,
     sink: &mut Sink,
 ) -> Option<TravelMatrix> {
+    use std::path::Component;
     let name = normalize(path.trim());
+    let key = || Location::Key("travel.matrix".into());
     if name.is_empty() || Path::new(name).is_absolute() {
         sink.problem(
             "scenario.json",
-            Location::Key("travel.matrix".into()),
+            key(),
             None,
             Some(path),
             "give the matrix file's path relative to the scenario folder, e.g. \"travel.csv\"",
+        );
+        return None;
+    }
+    // A scenario is one folder: it can be copied, archived and re-planned as a whole, and a
+    // path that climbs out of it could make the planner read (and quote) any file, e.g. a
+    // system file. `\\` is a separator on Windows, so it is treated as one everywhere.
+    let leaves = Path::new(&name.replace('\\', "/")).components().any(|c| {
+        matches!(
+            c,
+            Component::ParentDir | Component::RootDir | Component::Prefix(_)
+        )
+    }) || name.contains(':');
+    if leaves || !inside(name) {
+        sink.problem(
+            "scenario.json",
+            key(),
+            None,
+            Some(path),
+            "the travel matrix must be a file inside the scenario folder (no '..', no drive or \
+             absolute path, no link to a file elsewhere); copy the matrix into the folder and \
+             give its name, e.g. \"travel.csv\"",
         );
         return None;
     }
