@@ -13,6 +13,7 @@
 
 mod allocation_csv;
 mod atomic;
+mod binding;
 #[doc(hidden)]
 pub mod fixture;
 mod geojson;
@@ -35,7 +36,10 @@ use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
 pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
+pub use binding::BINDING_COLUMNS;
 pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
+pub use report::MAP_MARKERS_MAX;
+pub use route_sheets::ONE_PAGE_STOPS;
 
 /// Everything the outputs are rendered from: the validated scenario and the results of the
 /// later stages. Borrowed, never modified.
@@ -75,7 +79,7 @@ pub enum OutputError {
 }
 
 /// File names of the output contract, in the order [`render_all`] returns them.
-pub const FILE_NAMES: [&str; 7] = [
+pub const FILE_NAMES: [&str; 8] = [
     "manifest.csv",
     "manifest.json",
     "allocation.csv",
@@ -83,7 +87,16 @@ pub const FILE_NAMES: [&str; 7] = [
     "route-sheets.html",
     "plan.geojson",
     "report.html",
+    "binding-constraints.csv",
 ];
+
+/// The printed page of every HTML output (`report.html`, `route-sheets.html`, the sweep's
+/// and the season's `report.html`): US Letter, portrait, 12 mm margins. Layouts keep to the
+/// narrower A4 text width (186 mm), so a sheet printed on A4 loses nothing.
+pub const PAGE_SIZE: &str = "Letter portrait, 12 mm margins";
+
+/// The `@page` rule that sets [`PAGE_SIZE`]; every HTML output starts its stylesheet with it.
+pub const PAGE_CSS: &str = "@page { size: letter portrait; margin: 12mm; }\n";
 
 /// The cautions shown at the foot of every route sheet and in the report (DESIGN.md,
 /// "Cautions the tool must show").
@@ -137,6 +150,7 @@ pub fn render_all_with(
         ),
         ("plan.geojson", geojson::render(view, &plan)?),
         ("report.html", report::render(view, &plan)?),
+        ("binding-constraints.csv", binding::render(view)?),
     ];
     Ok(files.into_iter().map(|(n, b)| (n.to_string(), b)).collect())
 }

@@ -11,7 +11,7 @@ use std::collections::BTreeMap;
 use std::fmt::Write;
 
 use super::sweep_chart::{self, LineChart, Series};
-use super::{Delivered, OutputError, PlanView, esc, fixed};
+use super::{Delivered, OutputError, PAGE_CSS, PlanView, esc, fixed};
 use crate::scenario::SiteKind;
 use crate::sweep::{Sweep, VariantResult, constraint_kind, is_shared_kind};
 
@@ -291,14 +291,14 @@ table{border-collapse:collapse;font-size:.8rem;width:100%}th,td{border:1px solid
 th:first-child,td:first-child{text-align:left}thead{display:table-header-group}tr{break-inside:avoid}\
 .finding{border-left:4px solid #c00000;padding:.3rem .7rem;background:#fbf3f3}\
 footer{margin-top:2rem;font-size:.8rem;color:#444}\
-@page{size:A4;margin:14mm}@media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
+@media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
 
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let mut h = String::new();
     let title = format!("Supply sweep — {}", sweep.scenario);
     let _ = writeln!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body>",
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{PAGE_CSS}{STYLE}</style></head><body>",
         esc(&title)
     );
     let _ = writeln!(
