@@ -79,13 +79,7 @@ pub(crate) fn run(args: Args) -> CliResult {
     if let Some(m) = &marks {
         m.mark(&mut p.allocation);
     }
-    let view = PlanView {
-        scenario: &p.scenario,
-        priority: &p.priority,
-        allocation: &p.allocation,
-        dispatch: &p.dispatch,
-        moved: &p.moved,
-    };
+    let view = PlanView::of(&p);
     let options = output::RenderOptions {
         redact: args.redact,
     };

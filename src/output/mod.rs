@@ -58,6 +58,18 @@ pub struct PlanView<'a> {
 }
 
 impl<'a> PlanView<'a> {
+    /// The view of a finished plan: the one place a [`PlanView`] is built from a
+    /// [`Plan`](crate::plan::Plan).
+    pub fn of(plan: &'a crate::plan::Plan) -> Self {
+        PlanView {
+            scenario: &plan.scenario,
+            priority: &plan.priority,
+            allocation: &plan.allocation,
+            dispatch: &plan.dispatch,
+            moved: &plan.moved,
+        }
+    }
+
     /// The plan's notes: the allocation's, then the route search's (plain text).
     pub fn notes(&self) -> impl Iterator<Item = &'a String> {
         self.allocation.notes.iter().chain(&self.dispatch.notes)

@@ -747,9 +747,14 @@ fn marginal_values(h: &mut String, view: &PlanView, plan: &Delivered) {
 fn limits(h: &mut String, view: &PlanView, week: &Week) {
     let sc = view.scenario;
     h.push_str("<section><h2>What limits the week</h2><table><thead><tr><th>Limit</th><th>Where it binds</th><th class=\"num\">Value of one more unit</th></tr></thead><tbody>");
+    // Duals of `≥` rows (the share floor, forces) are negative: the size is what one more
+    // unit of the limit is worth (or costs).
     let range = |v: &[binding::Parsed]| {
-        let lo = v.iter().map(|b| b.dual).fold(f64::INFINITY, f64::min);
-        let hi = v.iter().map(|b| b.dual).fold(f64::NEG_INFINITY, f64::max);
+        let lo = v.iter().map(|b| b.dual.abs()).fold(f64::INFINITY, f64::min);
+        let hi = v
+            .iter()
+            .map(|b| b.dual.abs())
+            .fold(f64::NEG_INFINITY, f64::max);
         if (hi - lo).abs() < 0.05 * hi.abs().max(1.0) {
             value(hi)
         } else {
@@ -795,7 +800,7 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
                 "at least {} % of vials must go to dooryard requests",
                 fixed(100.0 * sc.policy.dooryard_share_min, 0)
             ),
-            format!("{} per vial", range(v)),
+            format!("costs {} per vial", range(v)),
         );
     }
     if let Some(v) = week.binding.get(&Kind::Vehicles) {
