@@ -265,43 +265,19 @@ pub struct Setting {
     pub arg: String,
 }
 
-/// The scenario.json keys `--set` may change (format v1, `docs/formats.md`). `name` and
-/// `week_start` are left out: they identify the week rather than describe a what-if.
-pub const SETTABLE_KEYS: [&str; 30] = [
-    "agent.shelf_life_hours",
-    "agent.survival.model",
-    "agent.survival.half_life_hours",
-    "agent.survival.points",
-    "agent.min_release_wasps",
-    "agent.target_release_wasps",
-    "agent.max_release_wasps",
-    "agent.above_target_weight",
-    "agent.pack_time",
-    "agent.name",
-    "policy.dooryard_share_min",
-    "policy.dooryard_vials_per_request",
-    "policy.pesticide_exclusion_days",
-    "policy.require_flush",
-    "policy.pressure_radius_km",
-    "policy.pressure_bandwidth_km",
-    "policy.travel_cost_per_hour",
-    "travel.circuity",
-    "travel.speed_kmh",
-    "travel.matrix",
-    "parcel.transit_hours",
-    "parcel.days",
-    "parcel.max_vials_per_day",
-    "parcel.ship_time",
-    "dispatch.service_minutes_block",
-    "dispatch.service_minutes_dooryard",
-    "dispatch.dooryard_window_start",
-    "dispatch.dooryard_window_end",
-    "dispatch.time_limit_seconds",
-    "dispatch.seed",
-];
+/// The scenario.json keys `--set` may change: every key the loader reads
+/// ([`crate::scenario::SCENARIO_KEYS`]) but `name` and `week_start`, which identify the week
+/// rather than describe a what-if.
+pub fn settable_keys() -> Vec<&'static str> {
+    crate::scenario::SCENARIO_KEYS
+        .iter()
+        .copied()
+        .filter(|k| !matches!(*k, "name" | "week_start"))
+        .collect()
+}
 
 impl Setting {
-    /// Parses `KEY=VALUE`; the key must be one of [`SETTABLE_KEYS`] (values are checked
+    /// Parses `KEY=VALUE`; the key must be one of [`settable_keys`] (values are checked
     /// later, by the loader, when the setting is applied).
     ///
     /// ```
@@ -323,15 +299,16 @@ impl Setting {
             ));
         };
         let key = key.trim();
-        if !SETTABLE_KEYS.contains(&key) {
+        let settable = settable_keys();
+        if !settable.contains(&key) {
             let section = key.split('.').next().unwrap_or("");
-            let mut near: Vec<&str> = SETTABLE_KEYS
+            let mut near: Vec<&str> = settable
                 .iter()
                 .copied()
                 .filter(|k| k.split('.').next() == Some(section))
                 .collect();
             if near.is_empty() {
-                near = SETTABLE_KEYS.to_vec();
+                near = settable.clone();
             }
             return Err(bad(format!(
                 "'{key}' is not a scenario.json key that can be set; use one of: {} \

@@ -626,3 +626,70 @@ fn sweep_report_prints_with_its_charts_in_chromium() {
     let ink = ink_share(&std::fs::read(ppm).unwrap());
     assert!(ink > 0.005, "the chart page is blank: {ink}");
 }
+
+/// The keys `--set` takes are the loader's own list, and that list is what the loader reads:
+/// every listed key set to a JSON object (the wrong type for every scenario.json value) makes
+/// the loader report that key, and every key of the demo's scenario.json is listed.
+#[test]
+fn settable_keys_are_the_keys_the_loader_reads() {
+    let files: Vec<(String, Vec<u8>)> = broodcast::demo::FILES
+        .iter()
+        .map(|(n, b)| (n.to_string(), b.to_vec()))
+        .collect();
+    for key in scenario::SCENARIO_KEYS {
+        let mut settings = vec![sweep::Setting {
+            key: key.to_string(),
+            value: serde_json::json!({"wrong": 1}),
+            arg: format!("{key}={{...}}"),
+        }];
+        if key == "agent.survival.points" {
+            // Read only for a table model.
+            settings.insert(
+                0,
+                sweep::Setting::parse("agent.survival.model=table").unwrap(),
+            );
+        }
+        let err = match sweep::load_with_settings(&files, &settings) {
+            Ok(_) => panic!("{key}: loaded without a problem, so the loader does not read it"),
+            Err(e) => e.to_string(),
+        };
+        let leaf = key.rsplit('.').next().unwrap();
+        assert!(
+            err.contains(leaf),
+            "{key}: the loader's message names it: {err}"
+        );
+    }
+    let settable = sweep::settable_keys();
+    assert_eq!(settable.len(), scenario::SCENARIO_KEYS.len() - 2);
+    assert!(settable.contains(&"policy.rerelease_interval_days"));
+    for key in &settable {
+        assert!(sweep::Setting::parse(&format!("{key}=1")).is_ok(), "{key}");
+    }
+    // Every leaf of the demo's scenario.json is a listed key.
+    let json: serde_json::Value =
+        serde_json::from_slice(broodcast::demo::file("scenario.json").unwrap()).unwrap();
+    fn leaves(v: &serde_json::Value, path: String, out: &mut Vec<String>) {
+        match v {
+            serde_json::Value::Object(m) => {
+                for (k, x) in m {
+                    let p = if path.is_empty() {
+                        k.clone()
+                    } else {
+                        format!("{path}.{k}")
+                    };
+                    leaves(x, p, out);
+                }
+            }
+            _ => out.push(path),
+        }
+    }
+    let mut found = Vec::new();
+    leaves(&json, String::new(), &mut found);
+    assert!(found.len() > 20, "{found:?}");
+    for k in found {
+        assert!(
+            scenario::SCENARIO_KEYS.contains(&k.as_str()),
+            "scenario.json key {k} is not in SCENARIO_KEYS"
+        );
+    }
+}

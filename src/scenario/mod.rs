@@ -21,7 +21,8 @@ use geo::MultiPolygon;
 use serde::Serialize;
 
 pub use load::{
-    Source, limits, load, load_dir, load_embedded_demo, load_files, parse_travel_matrix,
+    SCENARIO_KEYS, Source, limits, load, load_dir, load_embedded_demo, load_files,
+    parse_travel_matrix,
 };
 pub use problems::{InputError, Location, MAX_LISTED, Problem, Warning};
 

@@ -23,6 +23,7 @@ use super::problems::Location;
 use super::{
     InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel, TravelMatrix,
 };
+pub use config::SCENARIO_KEYS;
 use text::{Sink, decode};
 
 /// Where a scenario comes from.
