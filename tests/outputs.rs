@@ -624,3 +624,72 @@ fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
         );
     }
 }
+
+/// `plan --set` and `--without` plan one what-if: the facility's supply is gone, the key is
+/// applied, the summary says so; a bad key or facility exits 2 and writes nothing. Progress
+/// never reaches a piped standard error, and `--quiet` prints nothing at all.
+#[test]
+fn plan_what_if_with_set_and_without() {
+    let bin = env!("CARGO_BIN_EXE_broodcast");
+    let dir = tempfile::tempdir().unwrap();
+    let run = |args: &[&str]| Command::new(bin).args(args).output().unwrap();
+    let base = dir.path().join("base");
+    let what_if = dir.path().join("what-if");
+    let o = run(&["plan", "--out", base.to_str().unwrap()]);
+    assert!(o.status.success());
+    assert!(
+        o.stderr.is_empty(),
+        "no progress on a piped stderr: {:?}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let o = run(&[
+        "plan",
+        "--out",
+        what_if.to_str().unwrap(),
+        "--without",
+        "F2",
+        "--set",
+        "policy.rerelease_interval_days=14",
+        "--set",
+        "policy.dooryard_share_min=0.3",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("what-if: --set policy.rerelease_interval_days=14 --set policy.dooryard_share_min=0.3 --without F2"), "{text}");
+    let summary = |d: &Path| -> serde_json::Value {
+        serde_json::from_slice(&std::fs::read(d.join("summary.json")).unwrap()).unwrap()
+    };
+    let f2: u64 = broodcast::scenario::load_embedded_demo()
+        .unwrap()
+        .supply
+        .iter()
+        .filter(|s| s.facility == 1)
+        .map(|s| u64::from(s.vials))
+        .sum();
+    assert!(f2 > 0);
+    assert_eq!(
+        summary(&base)["supply_vials"].as_u64().unwrap() - f2,
+        summary(&what_if)["supply_vials"].as_u64().unwrap()
+    );
+    let manifest = std::fs::read_to_string(what_if.join("manifest.csv")).unwrap();
+    assert!(!manifest.contains(",F2,"), "nothing leaves F2");
+    let q = dir.path().join("quiet");
+    let o = run(&["plan", "--quiet", "--out", q.to_str().unwrap()]);
+    assert!(o.status.success() && o.stdout.is_empty() && o.stderr.is_empty());
+    for (args, needle) in [
+        (vec!["--set", "policy.nope=1"], "policy.nope"),
+        (vec!["--without", "F9"], "F9"),
+        (
+            vec!["--set", "policy.dooryard_share_min=3"],
+            "dooryard_share_min",
+        ),
+    ] {
+        let bad = dir.path().join("bad");
+        let mut all = vec!["plan", "--out", bad.to_str().unwrap()];
+        all.extend(args);
+        let o = run(&all);
+        assert_eq!(o.status.code(), Some(2), "{all:?}");
+        assert!(String::from_utf8_lossy(&o.stderr).contains(needle));
+        assert!(!bad.exists(), "{all:?} wrote nothing");
+    }
+}
