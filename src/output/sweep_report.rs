@@ -502,7 +502,6 @@ mod tests {
             marginal_value_per_vial: mv,
             marginal_by_facility: Vec::new(),
             binding,
-            summary_json: b"{}\n".to_vec(),
         }
     }
 

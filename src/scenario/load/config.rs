@@ -253,7 +253,7 @@ fn share(x: f64) -> Result<(), String> {
 }
 
 /// Parses `scenario.json`. `None` only when the text is not a JSON object at all.
-/// Every key path [`parse`] reads from scenario.json (format v1, `docs/formats.md`), dotted
+/// Every key path the loader reads from scenario.json (format v1, `docs/formats.md`), dotted
 /// from the top object. Other modules derive their key lists from it (e.g. the keys
 /// `--set` may change); a test below checks that the loader reads each one.
 pub const SCENARIO_KEYS: [&str; 33] = [
