@@ -497,11 +497,13 @@ pub fn compare(a: &PlanOutputs, b: &PlanOutputs) -> Comparison {
         })
         .collect();
     let (ha, hb) = (&a.headline, &b.headline);
+    // Rounded as summary.json rounds its figures, so `--json` never prints float noise such as
+    // -430085.4184689999.
     let fig = |name: &'static str, x: f64, y: f64| Change {
         name,
         a: x,
         b: y,
-        change: y - x,
+        change: crate::output::round_to(y - x, 6),
     };
     let figures = vec![
         fig("objective", ha.objective, hb.objective),

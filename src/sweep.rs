@@ -23,7 +23,6 @@ use rayon::prelude::*;
 use serde_json::Value;
 
 use crate::allocate::{AllocError, Binding};
-use crate::output::{self, OutputError, PlanView};
 use crate::plan::{self, Plan, PlanOptions};
 use crate::scenario::{FacilityIdx, InputError, Scenario};
 use crate::travel::TravelModel;
@@ -108,20 +107,12 @@ pub enum SweepError {
         /// The allocation error.
         source: AllocError,
     },
-    /// Rendering a variant's summary failed.
-    #[error("variant {variant}: {source}")]
-    Output {
-        /// Variant name.
-        variant: String,
-        /// The output error.
-        source: OutputError,
-    },
 }
 
 impl SweepError {
     /// Whether the user must fix an argument or input (exit 2) rather than broodcast failing.
     pub fn is_input(&self) -> bool {
-        !matches!(self, SweepError::Plan { .. } | SweepError::Output { .. })
+        !matches!(self, SweepError::Plan { .. })
     }
 }
 
@@ -274,43 +265,19 @@ pub struct Setting {
     pub arg: String,
 }
 
-/// The scenario.json keys `--set` may change (format v1, `docs/formats.md`). `name` and
-/// `week_start` are left out: they identify the week rather than describe a what-if.
-pub const SETTABLE_KEYS: [&str; 30] = [
-    "agent.shelf_life_hours",
-    "agent.survival.model",
-    "agent.survival.half_life_hours",
-    "agent.survival.points",
-    "agent.min_release_wasps",
-    "agent.target_release_wasps",
-    "agent.max_release_wasps",
-    "agent.above_target_weight",
-    "agent.pack_time",
-    "agent.name",
-    "policy.dooryard_share_min",
-    "policy.dooryard_vials_per_request",
-    "policy.pesticide_exclusion_days",
-    "policy.require_flush",
-    "policy.pressure_radius_km",
-    "policy.pressure_bandwidth_km",
-    "policy.travel_cost_per_hour",
-    "travel.circuity",
-    "travel.speed_kmh",
-    "travel.matrix",
-    "parcel.transit_hours",
-    "parcel.days",
-    "parcel.max_vials_per_day",
-    "parcel.ship_time",
-    "dispatch.service_minutes_block",
-    "dispatch.service_minutes_dooryard",
-    "dispatch.dooryard_window_start",
-    "dispatch.dooryard_window_end",
-    "dispatch.time_limit_seconds",
-    "dispatch.seed",
-];
+/// The scenario.json keys `--set` may change: every key the loader reads
+/// ([`crate::scenario::SCENARIO_KEYS`]) but `name` and `week_start`, which identify the week
+/// rather than describe a what-if.
+pub fn settable_keys() -> Vec<&'static str> {
+    crate::scenario::SCENARIO_KEYS
+        .iter()
+        .copied()
+        .filter(|k| !matches!(*k, "name" | "week_start"))
+        .collect()
+}
 
 impl Setting {
-    /// Parses `KEY=VALUE`; the key must be one of [`SETTABLE_KEYS`] (values are checked
+    /// Parses `KEY=VALUE`; the key must be one of [`settable_keys`] (values are checked
     /// later, by the loader, when the setting is applied).
     ///
     /// ```
@@ -332,15 +299,16 @@ impl Setting {
             ));
         };
         let key = key.trim();
-        if !SETTABLE_KEYS.contains(&key) {
+        let settable = settable_keys();
+        if !settable.contains(&key) {
             let section = key.split('.').next().unwrap_or("");
-            let mut near: Vec<&str> = SETTABLE_KEYS
+            let mut near: Vec<&str> = settable
                 .iter()
                 .copied()
                 .filter(|k| k.split('.').next() == Some(section))
                 .collect();
             if near.is_empty() {
-                near = SETTABLE_KEYS.to_vec();
+                near = settable.clone();
             }
             return Err(bad(format!(
                 "'{key}' is not a scenario.json key that can be set; use one of: {} \
@@ -569,8 +537,6 @@ pub struct VariantResult {
     pub marginal_by_facility: Vec<(String, f64)>,
     /// The allocation's binding constraints, largest dual first.
     pub binding: Vec<Binding>,
-    /// The variant's `summary.json`, as `plan` writes it.
-    pub summary_json: Vec<u8>,
 }
 
 /// Where the marginal value of supply falls below a share of its 1× value.
@@ -588,8 +554,9 @@ pub struct Saturation {
     pub at: Option<usize>,
 }
 
-/// A finished sweep, variants in multiplier order.
-#[derive(Clone, Debug)]
+/// A finished sweep, variants in multiplier order. Typed results only: the output module
+/// renders them (`output::sweep_report`), every variant's full plan outputs included.
+#[derive(Debug)]
 pub struct Sweep {
     /// Scenario name.
     pub scenario: String,
@@ -603,6 +570,8 @@ pub struct Sweep {
     pub full_routes: bool,
     /// One per multiplier, ascending.
     pub variants: Vec<VariantResult>,
+    /// The full plan of each variant, in the order of `variants`.
+    pub plans: Vec<Plan>,
     /// The saturation point.
     pub saturation: Saturation,
 }
@@ -638,7 +607,7 @@ impl Sweep {
 ///
 /// # Errors
 /// Input errors for an unknown facility, a multiplier too large or a bad saturation share;
-/// [`SweepError::Plan`]/[`SweepError::Output`] when a variant fails.
+/// [`SweepError::Plan`] when a variant fails.
 pub fn sweep(
     scenario: &Scenario,
     spec: &SweepSpec,
@@ -663,7 +632,7 @@ pub fn sweep(
     // put back in ascending order, so the output does not depend on the schedule.
     let mut jobs: Vec<(Multiplier, Scenario)> = multipliers.into_iter().zip(scaled).collect();
     jobs.reverse();
-    let mut variants: Vec<VariantResult> = jobs
+    let mut done: Vec<(VariantResult, Plan)> = jobs
         .into_par_iter()
         .with_max_len(1)
         .map(|(m, sc)| {
@@ -678,12 +647,13 @@ pub fn sweep(
                     source,
                 }
             })?;
-            let v = variant_result(name, m, &p)?;
+            let v = variant_result(name, m, &p);
             on_variant_done();
-            Ok(v)
+            Ok((v, p))
         })
         .collect::<Result<_, SweepError>>()?;
-    variants.reverse();
+    done.reverse();
+    let (variants, plans): (Vec<VariantResult>, Vec<Plan>) = done.into_iter().unzip();
     let saturation = saturation(&variants, fraction);
     Ok(Sweep {
         scenario: case.name.clone(),
@@ -692,23 +662,51 @@ pub fn sweep(
         settings: spec.settings.iter().map(|s| s.arg.clone()).collect(),
         full_routes: spec.full_routes,
         variants,
+        plans,
         saturation,
     })
 }
 
-fn variant_result(name: String, m: Multiplier, p: &Plan) -> Result<VariantResult, SweepError> {
-    let view = PlanView {
-        scenario: &p.scenario,
-        priority: &p.priority,
-        allocation: &p.allocation,
-        dispatch: &p.dispatch,
-        moved: &p.moved,
+/// Delivered totals of a plan, counted as `summary.json` counts them (route stops and
+/// parcels; undeliverable shipments left out): (vials, blocks served, requests served, live
+/// wasps). `tests/sweep.rs` checks they equal the variant's `summary.json`. O(stops + parcels).
+fn delivered(p: &Plan) -> (u64, usize, usize, f64) {
+    let mut vials_at = vec![0u64; p.scenario.sites.len()];
+    let (mut vials, mut wasps) = (0u64, 0.0);
+    let stops = p.dispatch.routes.iter().flat_map(|r| &r.stops);
+    let deliveries = stops
+        .map(|s| (s.site, s.vials, s.wasps_expected_alive))
+        .chain(
+            p.dispatch
+                .parcels
+                .iter()
+                .map(|x| (x.site, x.vials, x.wasps_expected_alive)),
+        );
+    for (site, v, w) in deliveries {
+        if let Some(at) = vials_at.get_mut(site) {
+            *at += u64::from(v);
+        }
+        vials += u64::from(v);
+        wasps += w;
+    }
+    let served = |kind: crate::scenario::SiteKind| {
+        p.scenario
+            .sites
+            .iter()
+            .zip(&vials_at)
+            .filter(|(s, v)| s.kind() == kind && **v > 0)
+            .count()
     };
-    let (summary_json, totals) =
-        output::sweep_report::summary_and_totals(&view).map_err(|source| SweepError::Output {
-            variant: name.clone(),
-            source,
-        })?;
+    (
+        vials,
+        served(crate::scenario::SiteKind::Block),
+        served(crate::scenario::SiteKind::Dooryard),
+        wasps,
+    )
+}
+
+fn variant_result(name: String, m: Multiplier, p: &Plan) -> VariantResult {
+    let (shipped_vials, blocks_served, requests_served, wasps_expected_alive) = delivered(p);
     let sc = &p.scenario;
     let al = &p.allocation;
     let mut per_facility: BTreeMap<FacilityIdx, u64> = BTreeMap::new();
@@ -725,7 +723,7 @@ fn variant_result(name: String, m: Multiplier, p: &Plan) -> Result<VariantResult
     } else {
         0.0
     };
-    Ok(VariantResult {
+    VariantResult {
         name,
         multiplier: m,
         lp_bound: al.lp_bound,
@@ -733,11 +731,11 @@ fn variant_result(name: String, m: Multiplier, p: &Plan) -> Result<VariantResult
         objective: al.objective,
         gap: al.gap,
         supply_vials,
-        shipped_vials: totals.shipped_vials,
-        sites_served: totals.sites_served,
-        blocks_served: totals.blocks_served,
-        requests_served: totals.requests_served,
-        wasps_expected_alive: totals.wasps_expected_alive,
+        shipped_vials,
+        sites_served: blocks_served + requests_served,
+        blocks_served,
+        requests_served,
+        wasps_expected_alive,
         marginal_value_per_vial: marginal,
         marginal_by_facility: sc
             .facilities
@@ -746,8 +744,7 @@ fn variant_result(name: String, m: Multiplier, p: &Plan) -> Result<VariantResult
             .map(|(f, v)| (f.id.to_string(), *v))
             .collect(),
         binding: al.binding.clone(),
-        summary_json,
-    })
+    }
 }
 
 /// The saturation point of `variants` (ascending multipliers, one of them 1×). O(n).
@@ -947,7 +944,6 @@ mod tests {
             marginal_value_per_vial: mv,
             marginal_by_facility: Vec::new(),
             binding: Vec::new(),
-            summary_json: Vec::new(),
         }
     }
 

@@ -11,7 +11,7 @@ use std::process::Command;
 
 use broodcast::output::fixture::{TinyPlan, tiny_plan};
 use broodcast::output::{
-    FILE_NAMES, RenderOptions, render_all, render_all_with, write_dir_atomically,
+    FILE_NAMES, ONE_PAGE_STOPS, RenderOptions, render_all, render_all_with, write_dir_atomically,
 };
 use broodcast::scenario::SiteDetail;
 use chrono::NaiveDateTime;
@@ -435,61 +435,160 @@ fn pdf_pages(pdf: &Path) -> u32 {
         .expect("pdfinfo prints Pages:")
 }
 
-/// Prints route sheets and report with Chromium; route sheets need at least one page per
-/// route. With `BROODCAST_DOCS_IMG=DIR`, also writes PNGs of page 1 of each (pdftoppm) for
-/// docs/img.
-#[test]
-fn route_sheets_print_at_least_one_page_per_route() {
-    if !have("chromium") || !have("pdfinfo") {
+/// Text of page `page` (1-based) of a PDF, by poppler's `pdftotext`.
+fn pdf_page_text(pdf: &Path, page: u32) -> String {
+    let out = Command::new("pdftotext")
+        .args(["-f", &page.to_string(), "-l", &page.to_string()])
+        .arg(pdf)
+        .arg("-")
+        .output()
+        .expect("pdftotext runs");
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+fn printing_tools() -> bool {
+    let ok = have("chromium") && have("pdfinfo") && have("pdftotext");
+    if !ok {
         util::skip(
-            "route_sheets_print_at_least_one_page_per_route",
-            "chromium or pdfinfo not on PATH (apt-get install chromium poppler-utils)",
+            "printing tests",
+            "chromium, pdfinfo or pdftotext not on PATH (apt-get install chromium poppler-utils)",
         );
-        return;
     }
-    let p = tiny_plan();
-    let dir = tempfile::tempdir().unwrap();
-    let files = render_all(&p.view()).unwrap();
-    write_dir_atomically(&dir.path().join("out"), &files).unwrap();
-    let out = dir.path().join("out");
-    let sheets_pdf = dir.path().join("route-sheets.pdf");
-    print_pdf(&out.join("route-sheets.html"), &sheets_pdf);
-    let pages = pdf_pages(&sheets_pdf);
-    // Two routes plus the parcel page; each short route fits one page.
-    assert!(pages as usize >= p.dispatch.routes.len(), "{pages} pages");
-    assert_eq!(pages, 3, "one page per route and one parcel page");
-    // A long route spills onto a second page; the next route still starts on its own page.
-    let mut long = tiny_plan();
-    let base = long.dispatch.routes[0].stops.clone();
-    long.dispatch.routes[0].stops = (0..30).map(|i| base[i % base.len()].clone()).collect();
-    let long_out = dir.path().join("long");
-    write_dir_atomically(&long_out, &render_all(&long.view()).unwrap()).unwrap();
-    let long_pdf = dir.path().join("long.pdf");
-    print_pdf(&long_out.join("route-sheets.html"), &long_pdf);
-    let long_pages = pdf_pages(&long_pdf);
-    assert!(
-        long_pages >= 4,
-        "30 stops need 2 pages, then route 2 and parcels: {long_pages}"
-    );
-    let report_pdf = dir.path().join("report.pdf");
-    print_pdf(&out.join("report.html"), &report_pdf);
-    assert!(pdf_pages(&report_pdf) >= 1);
+    ok
+}
+
+/// With `BROODCAST_DOCS_IMG=DIR`, writes PNGs of pages `1..=last` of `pdf` (pdftoppm) for
+/// docs/img.
+fn screenshots(pdf: &Path, name: &str, last: u32) {
     if let Ok(img) = std::env::var("BROODCAST_DOCS_IMG") {
         std::fs::create_dir_all(&img).unwrap();
-        for (pdf, name, last) in [
-            (&sheets_pdf, "route-sheet", 3),
-            (&report_pdf, "report", 2),
-            (&long_pdf, "long-route", 2),
-        ] {
-            let st = Command::new("pdftoppm")
-                .args(["-png", "-r", "90", "-f", "1", "-l", &last.to_string()])
-                .arg(pdf)
-                .arg(Path::new(&img).join(name))
-                .status()
-                .expect("pdftoppm runs");
-            assert!(st.success());
+        let st = Command::new("pdftoppm")
+            .args(["-png", "-r", "70", "-f", "1", "-l", &last.to_string()])
+            .arg(pdf)
+            .arg(Path::new(&img).join(name))
+            .status()
+            .expect("pdftoppm runs");
+        assert!(st.success());
+    }
+}
+
+/// Route sheets of the fixture in Chromium: a route of `ONE_PAGE_STOPS` stops stays on one
+/// page, a longer one spills and the next route still starts on its own page.
+#[test]
+fn route_sheets_print_one_page_per_route_that_fits() {
+    if !printing_tools() {
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let print = |p: &TinyPlan, name: &str| {
+        let out = dir.path().join(name);
+        write_dir_atomically(&out, &render_all(&p.view()).unwrap()).unwrap();
+        let pdf = dir.path().join(format!("{name}.pdf"));
+        print_pdf(&out.join("route-sheets.html"), &pdf);
+        pdf
+    };
+    let p = tiny_plan();
+    let pdf = print(&p, "short");
+    assert_eq!(pdf_pages(&pdf), 3, "one page per route and one parcel page");
+    let with_stops = |n: usize| {
+        let mut long = tiny_plan();
+        let base = long.dispatch.routes[0].stops.clone();
+        long.dispatch.routes[0].stops = (0..n).map(|i| base[i % base.len()].clone()).collect();
+        long
+    };
+    let full = print(&with_stops(ONE_PAGE_STOPS), "full");
+    assert_eq!(
+        pdf_pages(&full),
+        3,
+        "{ONE_PAGE_STOPS} stops still fit one page"
+    );
+    let long = print(&with_stops(30), "long");
+    let pages = pdf_pages(&long);
+    assert!(
+        pages >= 4,
+        "30 stops need 2 pages, then route 2 and parcels: {pages}"
+    );
+    for page in 1..=pages {
+        let text = pdf_page_text(&long, page);
+        assert!(
+            text.contains("Route R-") || text.contains("Parcel labels"),
+            "page {page} says which route it belongs to: {text}"
+        );
+    }
+    screenshots(&long, "long-route", 2);
+}
+
+/// The demo through the binary, printed in Chromium: the report fits 3 pages, each route
+/// that fits a page prints on exactly one, every page names its route, and the cautions
+/// never stand alone.
+#[test]
+fn demo_report_fits_three_pages_and_route_sheets_one_page_per_route() {
+    if !printing_tools() {
+        return;
+    }
+    let bin = env!("CARGO_BIN_EXE_broodcast");
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = Command::new(bin)
+        .args(["plan", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+
+    let report = dir.path().join("report.pdf");
+    print_pdf(&out.join("report.html"), &report);
+    let pages = pdf_pages(&report);
+    assert!(pages <= 3, "the report prints on {pages} pages");
+    screenshots(&report, "demo-report", pages);
+
+    // Stops per route, from the manifest.
+    let mut stops: BTreeMap<String, usize> = BTreeMap::new();
+    let mut r = csv::Reader::from_path(out.join("manifest.csv")).unwrap();
+    let route_col = r
+        .headers()
+        .unwrap()
+        .iter()
+        .position(|h| h == "route_id")
+        .unwrap();
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        if !rec[route_col].is_empty() {
+            *stops.entry(rec[route_col].to_string()).or_insert(0) += 1;
         }
     }
+    let sheets = dir.path().join("route-sheets.pdf");
+    print_pdf(&out.join("route-sheets.html"), &sheets);
+    let n = pdf_pages(&sheets);
+    let mut pages_of: BTreeMap<&str, u32> = BTreeMap::new();
+    for page in 1..=n {
+        let text = pdf_page_text(&sheets, page);
+        let route = stops
+            .keys()
+            .find(|id| text.contains(&format!("Route {id}")));
+        match route {
+            Some(id) => *pages_of.entry(id.as_str()).or_insert(0) += 1,
+            None => assert!(
+                text.contains("Parcel labels"),
+                "page {page} names no route: {text}"
+            ),
+        }
+    }
+    let mut fitting = 0;
+    for (id, k) in &stops {
+        let p = pages_of.get(id.as_str()).copied().unwrap_or(0);
+        if *k <= ONE_PAGE_STOPS {
+            fitting += 1;
+            assert_eq!(p, 1, "route {id} of {k} stops prints on {p} pages");
+        } else {
+            assert!(p >= 2, "route {id} of {k} stops prints on {p} pages");
+        }
+    }
+    assert!(
+        fitting >= 10,
+        "the demo has {fitting} routes that fit a page"
+    );
+    screenshots(&sheets, "demo-route-sheet", 2);
 }
 
 #[test]
@@ -526,5 +625,74 @@ fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
             vials > 0,
             "{id}: reason iff unserved"
         );
+    }
+}
+
+/// `plan --set` and `--without` plan one what-if: the facility's supply is gone, the key is
+/// applied, the summary says so; a bad key or facility exits 2 and writes nothing. Progress
+/// never reaches a piped standard error, and `--quiet` prints nothing at all.
+#[test]
+fn plan_what_if_with_set_and_without() {
+    let bin = env!("CARGO_BIN_EXE_broodcast");
+    let dir = tempfile::tempdir().unwrap();
+    let run = |args: &[&str]| Command::new(bin).args(args).output().unwrap();
+    let base = dir.path().join("base");
+    let what_if = dir.path().join("what-if");
+    let o = run(&["plan", "--out", base.to_str().unwrap()]);
+    assert!(o.status.success());
+    assert!(
+        o.stderr.is_empty(),
+        "no progress on a piped stderr: {:?}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let o = run(&[
+        "plan",
+        "--out",
+        what_if.to_str().unwrap(),
+        "--without",
+        "F2",
+        "--set",
+        "policy.rerelease_interval_days=14",
+        "--set",
+        "policy.dooryard_share_min=0.3",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("what-if: --set policy.rerelease_interval_days=14 --set policy.dooryard_share_min=0.3 --without F2"), "{text}");
+    let summary = |d: &Path| -> serde_json::Value {
+        serde_json::from_slice(&std::fs::read(d.join("summary.json")).unwrap()).unwrap()
+    };
+    let f2: u64 = broodcast::scenario::load_embedded_demo()
+        .unwrap()
+        .supply
+        .iter()
+        .filter(|s| s.facility == 1)
+        .map(|s| u64::from(s.vials))
+        .sum();
+    assert!(f2 > 0);
+    assert_eq!(
+        summary(&base)["supply_vials"].as_u64().unwrap() - f2,
+        summary(&what_if)["supply_vials"].as_u64().unwrap()
+    );
+    let manifest = std::fs::read_to_string(what_if.join("manifest.csv")).unwrap();
+    assert!(!manifest.contains(",F2,"), "nothing leaves F2");
+    let q = dir.path().join("quiet");
+    let o = run(&["plan", "--quiet", "--out", q.to_str().unwrap()]);
+    assert!(o.status.success() && o.stdout.is_empty() && o.stderr.is_empty());
+    for (args, needle) in [
+        (vec!["--set", "policy.nope=1"], "policy.nope"),
+        (vec!["--without", "F9"], "F9"),
+        (
+            vec!["--set", "policy.dooryard_share_min=3"],
+            "dooryard_share_min",
+        ),
+    ] {
+        let bad = dir.path().join("bad");
+        let mut all = vec!["plan", "--out", bad.to_str().unwrap()];
+        all.extend(args);
+        let o = run(&all);
+        assert_eq!(o.status.code(), Some(2), "{all:?}");
+        assert!(String::from_utf8_lossy(&o.stderr).contains(needle));
+        assert!(!bad.exists(), "{all:?} wrote nothing");
     }
 }

@@ -78,19 +78,29 @@ fn demo_lp_bound_is_concave_and_non_decreasing_in_supply_and_outages_never_raise
     assert_eq!(one.supply_vials, demo.total_supply_vials());
     // The 1× variant is exactly plan's summary.
     let p = plan::plan(demo.clone(), &PlanOptions::default()).unwrap();
-    let view = broodcast::output::PlanView {
-        scenario: &p.scenario,
-        priority: &p.priority,
-        allocation: &p.allocation,
-        dispatch: &p.dispatch,
-        moved: &p.moved,
-    };
-    let files = broodcast::output::render_all(&view).unwrap();
-    let summary = &files.iter().find(|(n, _)| n == "summary.json").unwrap().1;
-    assert!(
-        &one.summary_json == summary,
-        "1× variant summary differs from plan's"
-    );
+    let files = broodcast::output::render_all_with(
+        &broodcast::output::PlanView::of(&p),
+        &broodcast::output::RenderOptions { redact: true },
+    )
+    .unwrap();
+    // Every file of the 1× variant's folder is exactly `plan --redact`'s.
+    let swept = broodcast::output::sweep_report::render(&s).unwrap();
+    for (name, bytes) in &files {
+        let path = format!("variants/x1/{name}");
+        let (_, got) = swept
+            .iter()
+            .find(|(n, _)| *n == path)
+            .unwrap_or_else(|| panic!("{path} missing"));
+        assert!(got == bytes, "{path} differs from plan's {name}");
+    }
+    // The variant's typed totals are the ones its summary.json writes.
+    let summary: serde_json::Value =
+        serde_json::from_slice(&files.iter().find(|(n, _)| n == "summary.json").unwrap().1)
+            .unwrap();
+    assert_eq!(summary["shipped_vials"], one.shipped_vials);
+    assert_eq!(summary["sites_served"], one.sites_served);
+    assert_eq!(summary["blocks_served"], one.blocks_served);
+    assert_eq!(summary["requests_served"], one.requests_served);
     // Taking a facility out removes supply and options: the bound may not rise.
     for f in &demo.facilities {
         let w = run_sweep(&demo, "1", &[f.id.as_str()]);
@@ -185,7 +195,11 @@ fn sweep_outputs_are_identical_on_one_and_two_threads() {
     };
     let one = render(1);
     let two = render(2);
-    assert_eq!(one.len(), 3 + 2 + 3, "csv, html, 3 charts, 3 summaries");
+    assert_eq!(
+        one.len(),
+        2 + 4 + 3 * broodcast::output::FILE_NAMES.len(),
+        "csv, html, 4 charts, 3 full plan folders"
+    );
     for ((n1, b1), (n2, b2)) in one.iter().zip(&two) {
         assert_eq!(n1, n2);
         assert!(b1 == b2, "{n1} differs between 1 and 2 threads");
@@ -264,10 +278,14 @@ fn sweep_binary_reproduces_plan_and_keeps_addresses_out() {
     for f in [
         "sweep.csv",
         "sweep.html",
+        "sweep-shipped.svg",
         "sweep-value.svg",
         "sweep-marginal.svg",
         "sweep-served.svg",
         "variants/x0.5/summary.json",
+        "variants/x0.5/route-sheets.html",
+        "variants/x0.5/manifest.csv",
+        "variants/x1/report.html",
     ] {
         let t = read(&sweep_out.join(f));
         for a in &addresses {
@@ -275,7 +293,7 @@ fn sweep_binary_reproduces_plan_and_keeps_addresses_out() {
         }
     }
     let html = read(&sweep_out.join("sweep.html"));
-    assert_eq!(html.matches("<svg").count(), 3);
+    assert_eq!(html.matches("<svg").count(), 4);
 }
 
 fn assert_input_error_writes_nothing(args: &[&str], out: &Path, needle: &str) {
@@ -607,4 +625,71 @@ fn sweep_report_prints_with_its_charts_in_chromium() {
         .expect("a page image");
     let ink = ink_share(&std::fs::read(ppm).unwrap());
     assert!(ink > 0.005, "the chart page is blank: {ink}");
+}
+
+/// The keys `--set` takes are the loader's own list, and that list is what the loader reads:
+/// every listed key set to a JSON object (the wrong type for every scenario.json value) makes
+/// the loader report that key, and every key of the demo's scenario.json is listed.
+#[test]
+fn settable_keys_are_the_keys_the_loader_reads() {
+    let files: Vec<(String, Vec<u8>)> = broodcast::demo::FILES
+        .iter()
+        .map(|(n, b)| (n.to_string(), b.to_vec()))
+        .collect();
+    for key in scenario::SCENARIO_KEYS {
+        let mut settings = vec![sweep::Setting {
+            key: key.to_string(),
+            value: serde_json::json!({"wrong": 1}),
+            arg: format!("{key}={{...}}"),
+        }];
+        if key == "agent.survival.points" {
+            // Read only for a table model.
+            settings.insert(
+                0,
+                sweep::Setting::parse("agent.survival.model=table").unwrap(),
+            );
+        }
+        let err = match sweep::load_with_settings(&files, &settings) {
+            Ok(_) => panic!("{key}: loaded without a problem, so the loader does not read it"),
+            Err(e) => e.to_string(),
+        };
+        let leaf = key.rsplit('.').next().unwrap();
+        assert!(
+            err.contains(leaf),
+            "{key}: the loader's message names it: {err}"
+        );
+    }
+    let settable = sweep::settable_keys();
+    assert_eq!(settable.len(), scenario::SCENARIO_KEYS.len() - 2);
+    assert!(settable.contains(&"policy.rerelease_interval_days"));
+    for key in &settable {
+        assert!(sweep::Setting::parse(&format!("{key}=1")).is_ok(), "{key}");
+    }
+    // Every leaf of the demo's scenario.json is a listed key.
+    let json: serde_json::Value =
+        serde_json::from_slice(broodcast::demo::file("scenario.json").unwrap()).unwrap();
+    fn leaves(v: &serde_json::Value, path: String, out: &mut Vec<String>) {
+        match v {
+            serde_json::Value::Object(m) => {
+                for (k, x) in m {
+                    let p = if path.is_empty() {
+                        k.clone()
+                    } else {
+                        format!("{path}.{k}")
+                    };
+                    leaves(x, p, out);
+                }
+            }
+            _ => out.push(path),
+        }
+    }
+    let mut found = Vec::new();
+    leaves(&json, String::new(), &mut found);
+    assert!(found.len() > 20, "{found:?}");
+    for k in found {
+        assert!(
+            scenario::SCENARIO_KEYS.contains(&k.as_str()),
+            "scenario.json key {k} is not in SCENARIO_KEYS"
+        );
+    }
 }

@@ -1,6 +1,9 @@
-//! `broodcast plan [DIR] [--out DIR]`: plan the week and write every output.
+//! `broodcast plan [DIR] [--out DIR] [--set KEY=VALUE ...] [--without FACILITY_ID ...]
+//! [--quiet]`: plan the week (or one what-if of it) and write every output.
 
+use std::io::IsTerminal;
 use std::path::PathBuf;
+use std::time::Duration;
 
 use super::{CliResult, Failure, print_out, source_of};
 use crate::allocate::Solver;
@@ -8,6 +11,7 @@ use crate::ledger::LedgerMarks;
 use crate::output::{self, PlanView};
 use crate::plan::{self, PlanOptions};
 use crate::scenario;
+use crate::sweep::{self, Setting};
 
 /// Arguments of `plan`.
 #[derive(Debug, clap::Args)]
@@ -34,6 +38,34 @@ pub(crate) struct Args {
     /// (only in a build with the `highs` feature: `cargo build --release --features highs`).
     #[arg(long, value_enum, default_value_t = SolverArg::Clarabel)]
     solver: SolverArg,
+    /// What-if: override a scenario.json key for this plan, e.g.
+    /// policy.dooryard_share_min=0.3 (any key `broodcast check` validates but `name` and
+    /// `week_start`); repeat for more. The scenario is re-validated with the new values.
+    #[arg(long = "set", value_name = "KEY=VALUE")]
+    set: Vec<String>,
+    /// What-if: plan the week with a facility down (its supply and vehicles removed); repeat
+    /// for more.
+    #[arg(long = "without", value_name = "FACILITY_ID")]
+    without: Vec<String>,
+    /// No progress on standard error and no summary on standard output (errors are still
+    /// reported). Progress is shown only when standard error is a terminal.
+    #[arg(long, short)]
+    quiet: bool,
+}
+
+/// A spinner on standard error naming the stage being run, when standard error is a terminal
+/// and `--quiet` is not given; hidden otherwise. The tick only redraws the spinner: no result
+/// depends on it.
+fn progress(quiet: bool) -> indicatif::ProgressBar {
+    if quiet || !std::io::stderr().is_terminal() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let bar = indicatif::ProgressBar::new_spinner();
+    if let Ok(style) = indicatif::ProgressStyle::with_template("{spinner} {msg} ({elapsed})") {
+        bar.set_style(style);
+    }
+    bar.enable_steady_tick(Duration::from_millis(120));
+    bar
 }
 
 /// `--solver` values. Both are always accepted by the parser, so that a build without HiGHS
@@ -71,7 +103,28 @@ pub(crate) fn run(args: Args) -> CliResult {
     inputs.extend(args.ledger.as_deref());
     // Checked before the (possibly long) plan: a refused --out costs nothing.
     let target = output::OutputFolder::check(&args.out, &inputs, args.force)?;
-    let scenario = scenario::load(&source_of(&args.dir))?;
+    // What-if arguments are checked before anything is loaded.
+    let settings: Vec<Setting> = args
+        .set
+        .iter()
+        .map(|s| Setting::parse(s))
+        .collect::<Result<_, _>>()
+        .map_err(super::sweep::input)?;
+    let bar = progress(args.quiet);
+    bar.set_message("loading the scenario");
+    let source = source_of(&args.dir);
+    // The scenario as given must be valid on its own, so that a problem found after the
+    // overrides is theirs.
+    let mut scenario = scenario::load(&source)?;
+    if !settings.is_empty() {
+        scenario =
+            sweep::load_with_settings(&super::sweep::scenario_files(&source, &settings), &settings)
+                .map_err(super::sweep::input)?;
+    }
+    if !args.without.is_empty() {
+        scenario =
+            sweep::without_facilities(&scenario, &args.without).map_err(super::sweep::input)?;
+    }
     let mut opts = PlanOptions::default();
     opts.alloc.solver = solver;
     // The ledger is read here, once; planning gets typed marks, never the file.
@@ -84,23 +137,26 @@ pub(crate) fn run(args: Args) -> CliResult {
         }
         None => None,
     };
+    bar.set_message(format!(
+        "planning {} sites: priority, arcs, allocation, whole vials, routes",
+        scenario.sites.len()
+    ));
     let mut p = plan::plan(scenario, &opts).map_err(|e| Failure::Internal(e.into()))?;
+    bar.set_message("writing the outputs");
     if let Some(m) = &marks {
         m.mark(&mut p.allocation);
     }
-    let view = PlanView {
-        scenario: &p.scenario,
-        priority: &p.priority,
-        allocation: &p.allocation,
-        dispatch: &p.dispatch,
-        moved: &p.moved,
-    };
+    let view = PlanView::of(&p);
     let options = output::RenderOptions {
         redact: args.redact,
     };
     let files =
         output::render_all_with(&view, &options).map_err(|e| Failure::Internal(e.into()))?;
     let written = target.write(&files)?;
+    bar.finish_and_clear();
+    if args.quiet {
+        return Ok(());
+    }
     let a = &p.allocation;
     let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
     let mut text = format!(
@@ -117,6 +173,15 @@ pub(crate) fn run(args: Args) -> CliResult {
         a.lp_bound,
         a.gap * 100.0,
     );
+    if !args.set.is_empty() || !args.without.is_empty() {
+        let mut what = args
+            .set
+            .iter()
+            .map(|s| format!("--set {s}"))
+            .collect::<Vec<_>>();
+        what.extend(args.without.iter().map(|f| format!("--without {f}")));
+        text.push_str(&format!("what-if: {}\n", what.join(" ")));
+    }
     if solver != Solver::default() {
         text.push_str(&format!("LP solver: {}\n", solver.name()));
     }

@@ -46,7 +46,7 @@ pub(crate) struct Args {
     force: bool,
 }
 
-fn input(e: SweepError) -> Failure {
+pub(super) fn input(e: SweepError) -> Failure {
     if e.is_input() {
         Failure::Input(e.to_string())
     } else {
@@ -57,7 +57,7 @@ fn input(e: SweepError) -> Failure {
 /// The scenario files as (name, bytes) for re-loading with overrides: the required files,
 /// `overrides.csv` and the travel matrix named by the overridden scenario.json. Files that
 /// cannot be read are left out; the loader then names them.
-fn scenario_files(source: &Source, settings: &[Setting]) -> Vec<(String, Vec<u8>)> {
+pub(super) fn scenario_files(source: &Source, settings: &[Setting]) -> Vec<(String, Vec<u8>)> {
     let dir: &Path = match source {
         Source::EmbeddedDemo => {
             return crate::demo::FILES

@@ -491,16 +491,20 @@ pub fn render_report(data: &SeasonData) -> Vec<(String, Vec<u8>)> {
     let _ = write!(
         html,
         "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">\
-         <title>Season report — {s}</title><style>\
-         body{{font-family:sans-serif;margin:1.5em;color:#222}}\
-         table{{border-collapse:collapse;margin:.5em 0 1.5em;font-size:12px}}\
+         <title>Season report — {s}</title><style>{page}\
+         body{{font-family:\"DejaVu Sans\",\"Liberation Sans\",Arial,sans-serif;font-size:9.5pt;margin:1.5em;color:#222}}\
+         h1{{font-size:15pt}} h2{{font-size:11pt;break-after:avoid}}\
+         table{{border-collapse:collapse;margin:.5em 0 1.5em;font-size:8.5pt}}\
+         thead{{display:table-header-group}} tr{{break-inside:avoid}}\
          th,td{{border:1px solid #bbb;padding:2px 6px;text-align:right}}\
          th:first-child,td:first-child{{text-align:left}}\
-         .file{{color:#666;font-size:11px;margin:0}}\
-         figure{{margin:1em 0}} figcaption{{font-weight:bold}}\
+         .file{{color:#666;font-size:8pt;margin:0}}\
+         figure{{margin:1em 0;break-inside:avoid}} figcaption{{font-weight:bold}}\
+         svg{{max-width:100%;height:auto}}\
          section{{break-inside:avoid}} @media print{{body{{margin:0}}}}\
          </style></head><body><h1>Season report — {s}</h1>",
-        s = encode_text(&season)
+        s = encode_text(&season),
+        page = crate::output::PAGE_CSS,
     );
     let first = data.weeks.first().map_or("–".into(), NaiveDate::to_string);
     let last = data.weeks.last().map_or("–".into(), NaiveDate::to_string);

@@ -13,6 +13,7 @@
 
 mod allocation_csv;
 mod atomic;
+mod binding;
 #[doc(hidden)]
 pub mod fixture;
 mod geojson;
@@ -36,7 +37,10 @@ use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
 pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
+pub use binding::BINDING_COLUMNS;
 pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
+pub use report::MAP_MARKERS_MAX;
+pub use route_sheets::ONE_PAGE_STOPS;
 pub use target::{OutputFile, OutputFolder, TargetError, WriteError};
 
 /// Everything the outputs are rendered from: the validated scenario and the results of the
@@ -56,6 +60,18 @@ pub struct PlanView<'a> {
 }
 
 impl<'a> PlanView<'a> {
+    /// The view of a finished plan: the one place a [`PlanView`] is built from a
+    /// [`Plan`](crate::plan::Plan).
+    pub fn of(plan: &'a crate::plan::Plan) -> Self {
+        PlanView {
+            scenario: &plan.scenario,
+            priority: &plan.priority,
+            allocation: &plan.allocation,
+            dispatch: &plan.dispatch,
+            moved: &plan.moved,
+        }
+    }
+
     /// The plan's notes: the allocation's, then the route search's (plain text).
     pub fn notes(&self) -> impl Iterator<Item = &'a String> {
         self.allocation.notes.iter().chain(&self.dispatch.notes)
@@ -77,7 +93,7 @@ pub enum OutputError {
 }
 
 /// File names of the output contract, in the order [`render_all`] returns them.
-pub const FILE_NAMES: [&str; 7] = [
+pub const FILE_NAMES: [&str; 8] = [
     "manifest.csv",
     "manifest.json",
     "allocation.csv",
@@ -85,7 +101,16 @@ pub const FILE_NAMES: [&str; 7] = [
     "route-sheets.html",
     "plan.geojson",
     "report.html",
+    "binding-constraints.csv",
 ];
+
+/// The printed page of every HTML output (`report.html`, `route-sheets.html`, the sweep's
+/// and the season's `report.html`): US Letter, portrait, 12 mm margins. Layouts keep to the
+/// narrower A4 text width (186 mm), so a sheet printed on A4 loses nothing.
+pub const PAGE_SIZE: &str = "Letter portrait, 12 mm margins";
+
+/// The `@page` rule that sets [`PAGE_SIZE`]; every HTML output starts its stylesheet with it.
+pub const PAGE_CSS: &str = "@page { size: letter portrait; margin: 12mm; }\n";
 
 /// The cautions shown at the foot of every route sheet and in the report (DESIGN.md,
 /// "Cautions the tool must show").
@@ -139,6 +164,7 @@ pub fn render_all_with(
         ),
         ("plan.geojson", geojson::render(view, &plan)?),
         ("report.html", report::render(view, &plan)?),
+        ("binding-constraints.csv", binding::render(view)?),
     ];
     Ok(files.into_iter().map(|(n, b)| (n.to_string(), b)).collect())
 }

@@ -1,6 +1,13 @@
-//! `report.html`: the coordinator's printable plan report. Headline figures, a map of served
-//! and unserved sites, supply used per facility and day, service by priority band, why sites
-//! got nothing, marginal value of supply, binding constraints, notes and the cautions.
+//! `report.html`: the coordinator's printable week report, two or three printed pages at any
+//! week size. In order: a headline in plain words (vials shipped of supply, sites served, the
+//! main reason eligible sites got nothing), a map, supply used per facility and day, service by
+//! priority band, why sites got nothing, the unserved eligible sites worth a look, the value of
+//! one more vial per facility, the week's binding limits summarised by kind (the full list is
+//! `binding-constraints.csv`), notes and the cautions.
+//!
+//! Every list is capped so the page count does not grow with the week: the map switches from
+//! one marker per site to a grid of cells past [`MAP_MARKERS_MAX`] sites, and long lists show
+//! their first rows and say where the rest are.
 //!
 //! No homeowner personal data: requests appear by id and position only, never by address.
 
@@ -9,33 +16,52 @@ use std::fmt::Write;
 
 use chrono::NaiveDate;
 
+use super::binding::{self, Kind};
 use super::svg::{Frame, f1};
-use super::{CAUTIONS, Delivered, OutputError, PlanView, esc, fixed, priority_of};
+use super::{CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, esc, fixed, priority_of};
+use crate::geodesy::distance_m;
 use crate::scenario::SiteKind;
 
+/// Past this many candidate sites the map draws a grid of cells coloured by what happened to
+/// the sites in each cell, instead of one marker per site (markers overlap into a solid blob
+/// well before 35,000 sites).
+pub const MAP_MARKERS_MAX: usize = 1_500;
+
+/// Rows shown of the unserved eligible sites, of the notes and of the route-feedback moves.
+const LIST_ROWS: usize = 10;
+
 const CSS: &str = r#"
-@page { size: portrait; margin: 12mm; }
 * { box-sizing: border-box; }
-body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9.5pt; color: #000; margin: 0; }
-h1 { font-size: 16pt; margin: 0 0 1mm 0; }
-h2 { font-size: 11.5pt; margin: 5mm 0 1.5mm 0; border-bottom: 0.3mm solid #999; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9pt; color: #000; margin: 0; }
+h1 { font-size: 15pt; margin: 0 0 1mm 0; }
+h2 { font-size: 11pt; margin: 4mm 0 1.2mm 0; border-bottom: 0.3mm solid #999; break-after: avoid; }
 section { break-inside: avoid; }
+p { margin: 1mm 0; }
 .muted { color: #555; }
-.figures { display: flex; flex-wrap: wrap; gap: 2mm; margin: 3mm 0; }
-.fig { border: 0.3mm solid #999; padding: 2mm 3mm; min-width: 34mm; flex: 1; }
-.fig .n { font-size: 15pt; font-weight: bold; }
-.fig .l { font-size: 8pt; color: #444; }
+.small { font-size: 8pt; }
+.headline { border: 0.5mm solid #3a7d2c; padding: 2mm 3mm; margin: 2mm 0; }
+.headline p { margin: 0.6mm 0; font-size: 10pt; }
+.headline p.main { font-size: 11pt; font-weight: bold; }
+.figures { display: flex; gap: 2mm; margin: 2mm 0; }
+.fig { border: 0.3mm solid #999; padding: 1.2mm 2.5mm; flex: 1; }
+.fig .n { font-size: 13pt; font-weight: bold; white-space: nowrap; }
+.fig .l { font-size: 7.5pt; color: #444; }
 table { border-collapse: collapse; width: 100%; }
-th, td { border: 0.3mm solid #bbb; padding: 0.8mm 1.5mm; text-align: left; }
-th { background: #eee; font-size: 8.5pt; }
-td.num { text-align: right; white-space: nowrap; }
-.bar { display: inline-block; height: 3mm; background: #3a7d2c; vertical-align: middle; }
+th, td { border: 0.3mm solid #bbb; padding: 0.6mm 1.3mm; text-align: left; vertical-align: top; }
+th { background: #eee; font-size: 8pt; }
+td { font-size: 8.5pt; }
+td.num, th.num { text-align: right; white-space: nowrap; }
+.nw { white-space: nowrap; }
+.bar { display: inline-block; height: 2.6mm; background: #3a7d2c; vertical-align: middle; }
 .bar.unmet { background: #d9a441; }
-svg { width: 100%; height: auto; }
+svg { width: 100%; height: auto; display: block; }
 .map { border: 0.3mm solid #999; }
+.legend { display: flex; flex-wrap: wrap; gap: 1mm 5mm; font-size: 8pt; margin: 1mm 0 0 0; }
+.legend svg { display: inline-block; width: 4mm; height: 4mm; vertical-align: middle; margin-right: 1mm; }
 .two { display: flex; gap: 4mm; }
-.two > div { flex: 1; }
-ul { margin: 1mm 0 0 5mm; padding: 0; }
+.two > div { flex: 1; min-width: 0; }
+ul { margin: 0.5mm 0 0 5mm; padding: 0; }
+li { margin: 0.2mm 0; }
 "#;
 
 /// Colours per facility for the bar chart (cycled).
@@ -43,67 +69,251 @@ const PALETTE: [&str; 6] = [
     "#1f4e9c", "#c0392b", "#2e8b57", "#8e44ad", "#d35400", "#16a085",
 ];
 
+/// Served green, eligible-unserved orange, ineligible grey (the map and the bars).
+const SERVED: &str = "#3a7d2c";
+const UNMET: &str = "#d9a441";
+const INELIGIBLE: &str = "#999";
+
+/// Reasons an eligible site can get nothing: the ones worth a coordinator's look.
+const WORTH_A_LOOK: [&str; 3] = ["below-cutoff", "out-of-reach", "undeliverable"];
+
+/// A reason code in plain words.
+fn plain_reason(code: &str) -> &'static str {
+    match code {
+        "no-flush" => "block not flushing (no new leaves for the wasps)",
+        "insecticide-window" => "insecticide applied too recently",
+        "no-host-plant" => "no host plant at the address",
+        "uses-insecticide" => "household uses insecticide",
+        "forbidden" => "forbidden by an override",
+        "out-of-reach" => "no facility gets live wasps there in time",
+        "low-priority" => "no pest pressure nearby (priority 0)",
+        "below-cutoff" => "eligible, but the vials went to higher-value sites",
+        "undeliverable" => "vials allocated, but no route or parcel could carry them",
+        "already-served" => "request already served this season",
+        "released-recently" => "block released too recently (re-release interval)",
+        _ => "other",
+    }
+}
+
+/// What the headline and the sections share, computed once. O(S log S + B).
+struct Week<'a> {
+    supply: u64,
+    shipped: u64,
+    /// (served, candidates) of blocks and of requests.
+    blocks: (usize, usize),
+    requests: (usize, usize),
+    /// Per reason code: (blocks, requests) that got nothing.
+    reasons: BTreeMap<&'static str, (usize, usize)>,
+    /// Unserved sites with a reason in [`WORTH_A_LOOK`]: (site, priority, reason), highest
+    /// priority first.
+    worth_a_look: Vec<(usize, f64, &'static str)>,
+    /// Lowest priority among served sites.
+    lowest_served: Option<f64>,
+    /// Binding constraints by kind, largest dual first within a kind.
+    binding: BTreeMap<Kind, Vec<binding::Parsed<'a>>>,
+}
+
+impl<'a> Week<'a> {
+    fn build(view: &PlanView<'a>, plan: &Delivered) -> Self {
+        let sc = view.scenario;
+        let mut w = Week {
+            supply: sc.total_supply_vials(),
+            shipped: plan.shipped_vials(),
+            blocks: (0, 0),
+            requests: (0, 0),
+            reasons: BTreeMap::new(),
+            worth_a_look: Vec::new(),
+            lowest_served: None,
+            binding: BTreeMap::new(),
+        };
+        for (i, site) in sc.sites.iter().enumerate() {
+            let tally = match site.kind() {
+                SiteKind::Block => &mut w.blocks,
+                SiteKind::Dooryard => &mut w.requests,
+            };
+            tally.1 += 1;
+            let p = priority_of(view, i);
+            match plan.reason(view, i) {
+                None => {
+                    tally.0 += 1;
+                    w.lowest_served = Some(w.lowest_served.map_or(p, |l: f64| l.min(p)));
+                }
+                Some(r) => {
+                    let e = w.reasons.entry(r).or_insert((0, 0));
+                    match site.kind() {
+                        SiteKind::Block => e.0 += 1,
+                        SiteKind::Dooryard => e.1 += 1,
+                    }
+                    if WORTH_A_LOOK.contains(&r) {
+                        w.worth_a_look.push((i, p, r));
+                    }
+                }
+            }
+        }
+        w.worth_a_look
+            .sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+        for b in binding::all(view) {
+            w.binding.entry(b.kind).or_default().push(b);
+        }
+        w
+    }
+
+    fn served(&self) -> usize {
+        self.blocks.0 + self.requests.0
+    }
+
+    fn unserved_with(&self, reason: &str) -> usize {
+        self.reasons.get(reason).map_or(0, |(b, d)| b + d)
+    }
+
+    fn binds(&self, kind: Kind) -> bool {
+        self.binding.get(&kind).is_some_and(|v| !v.is_empty())
+    }
+
+    /// The one sentence that says why most eligible sites got nothing.
+    fn main_reason(&self, view: &PlanView) -> String {
+        let (reason, n) = WORTH_A_LOOK
+            .iter()
+            .map(|r| (*r, self.unserved_with(r)))
+            .max_by_key(|(r, n)| (*n, std::cmp::Reverse(*r)))
+            .unwrap_or(("", 0));
+        if n == 0 {
+            return "Every eligible site with pest pressure was served.".to_string();
+        }
+        let sites = count(n, "eligible site", "eligible sites");
+        match reason {
+            "below-cutoff" => {
+                let below = self
+                    .worth_a_look
+                    .iter()
+                    .filter(|(_, p, r)| {
+                        *r == "below-cutoff" && self.lowest_served.is_some_and(|l| *p < l)
+                    })
+                    .count();
+                let ranked = if below == n {
+                    ", all ranked below the last one served".to_string()
+                } else if below > 0 {
+                    format!(
+                        ", {} of them ranked below the last one served",
+                        int(below as u64)
+                    )
+                } else {
+                    String::new()
+                };
+                if self.binds(Kind::Supply) || (self.supply > 0 && self.shipped >= self.supply) {
+                    format!("Supply ran out: {sites} got nothing{ranked}.")
+                } else if self.binds(Kind::DooryardShare) {
+                    format!(
+                        "The dooryard share floor ({} % of vials to requests) held block vials back: {sites} got nothing while {} vials stayed at the facilities.",
+                        fixed(100.0 * view.scenario.policy.dooryard_share_min, 0),
+                        int(self.supply.saturating_sub(self.shipped))
+                    )
+                } else if self.binds(Kind::Vehicles) {
+                    format!("Vehicle capacity ran out: {sites} got nothing{ranked}.")
+                } else {
+                    format!(
+                        "{} got nothing: their vials would earn less than the travel to them costs{ranked}.",
+                        capitalise(&sites)
+                    )
+                }
+            }
+            "out-of-reach" => format!(
+                "Out of reach: {sites} got nothing because no facility gets live wasps there in time (shelf life, shifts, access hours, parcel days)."
+            ),
+            _ => format!(
+                "Delivery failed: {sites} were allocated vials that no route or parcel could carry."
+            ),
+        }
+    }
+}
+
 pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
     let al = view.allocation;
+    let week = Week::build(view, plan);
     let mut h = String::new();
-    let _ = write!(
+    let _ = writeln!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Plan report — {name} — week of {w}</title>\n<style>{CSS}</style>\n</head>\n<body>\n\
-<h1>Plan report: {name}</h1>\n<p class=\"muted\">Week of {w} · agent {agent} · {n_sites} candidate sites · {n_fac} facilities</p>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Plan report — {name}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n\
+<h1>Plan report: {name}</h1>\n<p class=\"muted\">Week starting {w} · agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
         name = esc(&sc.name),
-        w = sc.week_start,
+        w = sc.week_start.format("%a %Y-%m-%d"),
         agent = esc(&sc.agent.name),
-        n_sites = sc.sites.len(),
-        n_fac = sc.facilities.len(),
+        n_sites = int(sc.sites.len() as u64),
+        n_fac = count(sc.facilities.len(), "facility", "facilities"),
     );
 
-    let supply = sc.total_supply_vials();
-    let shipped = plan.shipped_vials();
-    let served = |kind: SiteKind| {
-        sc.sites
-            .iter()
-            .enumerate()
-            .filter(|(i, s)| s.kind() == kind && plan.served(*i))
-            .count()
-    };
-    let candidates = |kind: SiteKind| sc.sites.iter().filter(|s| s.kind() == kind).count();
-    let pct = |a: f64, b: f64| {
-        if b > 0.0 {
-            fixed(100.0 * a / b, 0)
+    let pct = |a: u64, b: u64| {
+        if b > 0 {
+            fixed(100.0 * a as f64 / b as f64, 0)
         } else {
             "0".into()
         }
     };
+    let eligible: usize = WORTH_A_LOOK
+        .iter()
+        .map(|r| week.unserved_with(r))
+        .sum::<usize>()
+        + week.served();
+    let ineligible = sc.sites.len() - eligible - week.unserved_with("low-priority");
+    let _ = writeln!(
+        h,
+        "<div class=\"headline\"><p class=\"main\">{main}</p>\
+<p>{shipped} of {supply} vials shipped ({p} %) to {served}: {b} and {r}; about {wasps} live wasps released.</p>\
+<p>{elig} could get a release this week; {inel} could not (no host plant, insecticide, no flush, overrides) and {zero} have no pest pressure nearby.</p>\
+<p class=\"small muted\">{quality}</p></div>",
+        main = esc(&week.main_reason(view)),
+        shipped = int(week.shipped),
+        supply = int(week.supply),
+        p = pct(week.shipped, week.supply),
+        served = count(week.served(), "site", "sites"),
+        b = count(week.blocks.0, "grove block", "grove blocks"),
+        r = count(week.requests.0, "dooryard request", "dooryard requests"),
+        wasps = int(plan.wasps_expected_alive().round().max(0.0) as u64),
+        elig = count(eligible, "site", "sites"),
+        inel = int(ineligible as u64),
+        zero = int(week.unserved_with("low-priority") as u64),
+        quality = esc(&format!(
+            "Plan value {} (priority-weighted live wasps); no plan in whole vials can exceed {}, so this one is within {} % of the best. {}, {}{}.",
+            int(al.objective.round().max(0.0) as u64),
+            int(al.bound.round().max(0.0) as u64),
+            fixed(100.0 * al.gap, 2),
+            capitalise(&count(view.dispatch.routes.len(), "route", "routes")),
+            count(view.dispatch.parcels.len(), "parcel", "parcels"),
+            match view.dispatch.undeliverable.len() {
+                0 => String::new(),
+                n => format!(
+                    ", {} allocated but undeliverable",
+                    count(n, "shipment", "shipments")
+                ),
+            }
+        )),
+    );
     h.push_str("<div class=\"figures\">");
     for (n, l) in [
         (
-            format!("{shipped} / {supply}"),
+            format!("{} / {}", int(week.shipped), int(week.supply)),
+            "vials shipped of supply".to_string(),
+        ),
+        (
             format!(
-                "vials shipped of supply ({} %)",
-                pct(shipped as f64, supply as f64)
+                "{} / {}",
+                int(week.blocks.0 as u64),
+                int(week.blocks.1 as u64)
             ),
+            "grove blocks served of candidates".to_string(),
         ),
         (
-            served(SiteKind::Block).to_string(),
-            format!("blocks served of {}", candidates(SiteKind::Block)),
+            format!(
+                "{} / {}",
+                int(week.requests.0 as u64),
+                int(week.requests.1 as u64)
+            ),
+            "dooryard requests served of candidates".to_string(),
         ),
         (
-            served(SiteKind::Dooryard).to_string(),
-            format!("requests served of {}", candidates(SiteKind::Dooryard)),
-        ),
-        (
-            fixed(plan.wasps_expected_alive(), 0),
+            int(plan.wasps_expected_alive().round().max(0.0) as u64),
             "expected live wasps released".to_string(),
-        ),
-        (
-            format!("{} %", fixed(100.0 * al.gap, 2)),
-            format!(
-                "gap to the whole-vial bound (objective {} of {}; LP bound {})",
-                fixed(al.objective, 1),
-                fixed(al.bound, 1),
-                fixed(al.lp_bound, 1)
-            ),
         ),
     ] {
         let _ = write!(
@@ -113,13 +323,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
             esc(&l)
         );
     }
-    let _ = writeln!(
-        h,
-        "</div>\n<p class=\"muted\">{}, {}, {} allocated but undeliverable.</p>",
-        count(view.dispatch.routes.len(), "route", "routes"),
-        count(view.dispatch.parcels.len(), "parcel", "parcels"),
-        count(view.dispatch.undeliverable.len(), "shipment", "shipments")
-    );
+    h.push_str("</div>\n");
 
     h.push_str("<section><h2>Map</h2>\n");
     h.push_str(&overview_map(view, plan));
@@ -130,54 +334,38 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     h.push_str("</section>\n");
 
     priority_bands(&mut h, view, plan);
-    why_not(&mut h, view, plan);
-
-    h.push_str("<section class=\"two\"><div><h2>Marginal value per vial</h2><table><thead><tr><th>Facility</th><th>Objective per extra vial</th></tr></thead><tbody>");
-    for (f, v) in sc.facilities.iter().zip(&al.marginal_value_per_vial) {
-        let _ = write!(
-            h,
-            "<tr><td>{} ({})</td><td class=\"num\">{}</td></tr>",
-            esc(&f.name),
-            esc(f.id.as_str()),
-            fixed(*v, 3)
-        );
-    }
-    h.push_str("</tbody></table></div><div><h2>Binding constraints</h2>");
-    if al.binding.is_empty() {
-        h.push_str("<p class=\"muted\">None.</p>");
-    } else {
-        h.push_str("<table><thead><tr><th>Constraint</th><th>Dual (objective per unit)</th></tr></thead><tbody>");
-        for b in &al.binding {
-            let _ = write!(
-                h,
-                "<tr><td>{}</td><td class=\"num\">{}</td></tr>",
-                esc(&b.name),
-                fixed(b.dual, 3)
-            );
-        }
-        h.push_str("</tbody></table>");
-    }
-    h.push_str("</div></section>\n");
+    why_not(&mut h, view, &week);
+    worth_a_look(&mut h, view, &week);
+    marginal_values(&mut h, view, plan);
+    limits(&mut h, view, &week);
 
     let notes: Vec<String> = view.notes().cloned().collect();
-    for (title, lines) in [
-        ("Notes", &notes[..]),
-        ("Moved by route feedback", view.moved),
+    for (title, lines, rest) in [
+        ("Notes", &notes[..], "summary.json `notes`"),
+        (
+            "Moved by route feedback",
+            view.moved,
+            "summary.json `moved`",
+        ),
     ] {
-        let _ = write!(h, "<section><h2>{title}</h2>");
         if lines.is_empty() {
-            h.push_str("<p class=\"muted\">None.</p>");
-        } else {
-            h.push_str("<ul>");
-            for l in lines {
-                let _ = write!(h, "<li>{}</li>", esc(l));
-            }
-            h.push_str("</ul>");
+            continue;
         }
-        h.push_str("</section>\n");
+        let _ = write!(h, "<section><h2>{title}</h2><ul class=\"small\">");
+        for l in lines.iter().take(LIST_ROWS) {
+            let _ = write!(h, "<li>{}</li>", esc(l));
+        }
+        if lines.len() > LIST_ROWS {
+            let _ = write!(
+                h,
+                "<li class=\"muted\">… and {} more in {rest}.</li>",
+                int((lines.len() - LIST_ROWS) as u64)
+            );
+        }
+        h.push_str("</ul></section>\n");
     }
 
-    h.push_str("<section><h2>Cautions</h2><ul>");
+    h.push_str("<section><h2>Cautions</h2><ul class=\"small\">");
     for c in CAUTIONS {
         let _ = write!(h, "<li>{}</li>", esc(c));
     }
@@ -185,11 +373,13 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     Ok(h.into_bytes())
 }
 
-/// Sites as markers (circle: block, diamond: request; served: filled green, unserved
-/// eligible: open orange, ineligible: open grey), facilities as labelled squares, legend, scale bar, north arrow. O(S + F).
+/// The map: one marker per site up to [`MAP_MARKERS_MAX`] sites (circle: block, diamond:
+/// request; served filled green, unserved eligible open orange, ineligible open grey), else a
+/// grid of cells coloured by the share of their eligible sites served. Facilities as labelled
+/// squares, scale bar, north arrow; the legend sits under the map, outside the data. O(S + F).
 fn overview_map(view: &PlanView, plan: &Delivered) -> String {
     let sc = view.scenario;
-    let (w, hgt) = (700.0, 380.0);
+    let (w, hgt) = (700.0, 360.0);
     let mut pts: Vec<_> = sc.sites.iter().map(|s| s.location).collect();
     pts.extend(sc.facilities.iter().map(|f| f.location));
     let frame = Frame::fit(&pts, w, hgt, 30.0, 2.0);
@@ -198,27 +388,75 @@ fn overview_map(view: &PlanView, plan: &Delivered) -> String {
         s,
         "<svg class=\"map\" xmlns=\"http://www.w3.org/2000/svg\" viewBox=\"0 0 {w} {hgt}\" role=\"img\" aria-label=\"Map of sites and facilities\"><rect width=\"{w}\" height=\"{hgt}\" fill=\"#fbfbf7\"/>"
     );
-    // Unserved first so served sites draw on top.
-    let mut order: Vec<usize> = (0..sc.sites.len()).collect();
-    order.sort_by_key(|&i| plan.served(i));
-    for i in order {
-        let site = &sc.sites[i];
-        let (x, y) = frame.px(site.location);
-        let ineligible = view.allocation.sites.get(i).is_some_and(|o| !o.eligible);
-        let (fill, stroke, width) = if plan.served(i) {
-            ("#3a7d2c", "#fff", 1.0)
-        } else if ineligible {
-            ("none", "#999", 1.2)
-        } else {
-            ("none", "#d9a441", 1.8)
-        };
-        s.push_str(&marker(site.kind(), x, y, fill, stroke, width));
+    let ineligible = |i: usize| view.allocation.sites.get(i).is_some_and(|o| !o.eligible);
+    let gridded = sc.sites.len() > MAP_MARKERS_MAX;
+    if gridded {
+        // Cells of CELL px: count served, unserved eligible and ineligible sites in each.
+        const CELL: f64 = 10.0;
+        let (nx, ny) = ((w / CELL).ceil() as usize, (hgt / CELL).ceil() as usize);
+        let mut cells = vec![[0u32; 3]; nx * ny];
+        for (i, site) in sc.sites.iter().enumerate() {
+            let (x, y) = frame.px(site.location);
+            if !(x.is_finite() && y.is_finite()) {
+                continue;
+            }
+            let cx = ((x / CELL).floor().max(0.0) as usize).min(nx - 1);
+            let cy = ((y / CELL).floor().max(0.0) as usize).min(ny - 1);
+            let k = if plan.served(i) {
+                0
+            } else if ineligible(i) {
+                2
+            } else {
+                1
+            };
+            cells[cy * nx + cx][k] += 1;
+        }
+        for (c, [served, unmet, inel]) in cells.iter().enumerate() {
+            let (x, y) = ((c % nx) as f64 * CELL, (c / nx) as f64 * CELL);
+            let fill = if served + unmet == 0 {
+                if *inel == 0 {
+                    continue;
+                }
+                "#d6d6d6"
+            } else {
+                let share = f64::from(*served) / f64::from(served + unmet);
+                if share >= 0.5 {
+                    SERVED
+                } else if *served > 0 {
+                    "#a9cf8f"
+                } else {
+                    UNMET
+                }
+            };
+            let _ = write!(
+                s,
+                "<rect x=\"{}\" y=\"{}\" width=\"{CELL}\" height=\"{CELL}\" fill=\"{fill}\" stroke=\"#fff\" stroke-width=\"0.6\"/>",
+                f1(x),
+                f1(y)
+            );
+        }
+    } else {
+        // Unserved first so served sites draw on top.
+        let mut order: Vec<usize> = (0..sc.sites.len()).collect();
+        order.sort_by_key(|&i| plan.served(i));
+        for i in order {
+            let site = &sc.sites[i];
+            let (x, y) = frame.px(site.location);
+            let (fill, stroke, width) = if plan.served(i) {
+                (SERVED, "#fff", 1.0)
+            } else if ineligible(i) {
+                ("none", INELIGIBLE, 1.2)
+            } else {
+                ("none", UNMET, 1.8)
+            };
+            s.push_str(&marker(site.kind(), x, y, fill, stroke, width));
+        }
     }
     for f in &sc.facilities {
         let (x, y) = frame.px(f.location);
         let _ = write!(
             s,
-            "<rect x=\"{}\" y=\"{}\" width=\"12\" height=\"12\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" font-size=\"12\" font-weight=\"bold\">{}</text>",
+            "<rect x=\"{}\" y=\"{}\" width=\"12\" height=\"12\" fill=\"#000\" stroke=\"#fff\"/><text x=\"{}\" y=\"{}\" font-size=\"12\" font-weight=\"bold\" stroke=\"#fff\" stroke-width=\"3\" paint-order=\"stroke\">{}</text>",
             f1(x - 6.0),
             f1(y - 6.0),
             f1(x + 9.0),
@@ -226,48 +464,468 @@ fn overview_map(view: &PlanView, plan: &Delivered) -> String {
             esc(f.id.as_str())
         );
     }
-    // Legend, top-left: colour says what happened, shape says what kind of site.
-    let _ = write!(
-        s,
-        "<g class=\"legend\" font-size=\"11\"><rect x=\"8\" y=\"8\" width=\"160\" height=\"108\" fill=\"#fff\" fill-opacity=\"0.85\" stroke=\"#999\"/>"
-    );
-    let rows = [
-        (
-            marker(SiteKind::Block, 20.0, 22.0, "#3a7d2c", "#fff", 1.0),
-            "served",
-        ),
-        (
-            marker(SiteKind::Block, 20.0, 38.0, "none", "#d9a441", 1.8),
-            "eligible, not served",
-        ),
-        (
-            marker(SiteKind::Block, 20.0, 54.0, "none", "#999", 1.2),
-            "ineligible",
-        ),
-        (
-            marker(SiteKind::Block, 20.0, 70.0, "#555", "#fff", 1.0),
-            "grove block",
-        ),
-        (
-            marker(SiteKind::Dooryard, 20.0, 86.0, "#555", "#fff", 1.0),
-            "dooryard request",
-        ),
-        (
-            "<rect x=\"14\" y=\"96\" width=\"12\" height=\"12\" fill=\"#000\"/>".to_string(),
-            "facility",
-        ),
-    ];
-    for (k, (m, label)) in rows.iter().enumerate() {
+    s.push_str(&frame.furniture());
+    s.push_str("</svg>\n<div class=\"legend\">");
+    let icon = |inner: String| {
+        format!("<svg viewBox=\"0 0 14 14\" xmlns=\"http://www.w3.org/2000/svg\">{inner}</svg>")
+    };
+    let square =
+        |fill: &str| format!("<rect x=\"1\" y=\"1\" width=\"12\" height=\"12\" fill=\"{fill}\"/>");
+    let mut items: Vec<(String, String)> = Vec::new();
+    if gridded {
+        items.push((
+            icon(square(SERVED)),
+            "half or more of its eligible sites served".into(),
+        ));
+        items.push((icon(square("#a9cf8f")), "some served".into()));
+        items.push((icon(square(UNMET)), "eligible sites, none served".into()));
+        items.push((icon(square("#d6d6d6")), "ineligible sites only".into()));
+    } else {
+        items.push((
+            icon(marker(SiteKind::Block, 7.0, 7.0, SERVED, "#fff", 1.0)),
+            "served".into(),
+        ));
+        items.push((
+            icon(marker(SiteKind::Block, 7.0, 7.0, "none", UNMET, 1.8)),
+            "eligible, not served".into(),
+        ));
+        items.push((
+            icon(marker(SiteKind::Block, 7.0, 7.0, "none", INELIGIBLE, 1.2)),
+            "ineligible".into(),
+        ));
+        items.push((
+            icon(marker(SiteKind::Block, 7.0, 7.0, "#555", "#fff", 1.0)),
+            "grove block".into(),
+        ));
+        items.push((
+            icon(marker(SiteKind::Dooryard, 7.0, 7.0, "#555", "#fff", 1.0)),
+            "dooryard request".into(),
+        ));
+    }
+    items.push((icon(square("#000")), "facility".into()));
+    for (i, label) in items {
+        let _ = write!(s, "<span>{i}{}</span>", esc(&label));
+    }
+    if gridded {
         let _ = write!(
             s,
-            "{m}<text x=\"32\" y=\"{}\">{label}</text>",
-            f1(26.0 + 16.0 * k as f64)
+            "<span class=\"muted\">{} sites drawn as cells of about {} km (one marker per site up to {}).</span>",
+            int(sc.sites.len() as u64),
+            fixed(10.0 / frame_px_per_km(&frame), 1),
+            int(MAP_MARKERS_MAX as u64)
         );
     }
-    s.push_str("</g>");
-    s.push_str(&frame.furniture());
-    s.push_str("</svg>\n");
+    s.push_str("</div>\n");
     s
+}
+
+/// Pixels per km of a frame, measured between two projected points 1 km apart north–south.
+fn frame_px_per_km(frame: &Frame) -> f64 {
+    use crate::scenario::LonLat;
+    let a = LonLat { lon: 0.0, lat: 0.0 };
+    let b = LonLat {
+        lon: 0.0,
+        lat: (1.0f64 / 6371.0088).to_degrees(),
+    };
+    let (_, ya) = frame.px(a);
+    let (_, yb) = frame.px(b);
+    (ya - yb).abs().max(1e-9)
+}
+
+/// Service by priority quartile among eligible sites (those with an arc), highest first.
+/// O(S log S).
+fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
+    let mut ranked: Vec<(usize, f64)> = view
+        .allocation
+        .sites
+        .iter()
+        .filter(|o| o.eligible)
+        .map(|o| (o.site, priority_of(view, o.site)))
+        .collect();
+    ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    h.push_str("<section><h2>Served and unmet by priority band</h2>\
+<p class=\"small muted\">Sites that could get a release this week, ranked by priority (pest pressure near them) and split into four equal bands.</p>\
+<table><thead><tr><th>Band</th><th class=\"num\">Priority</th><th class=\"num\">Sites</th><th class=\"num\">Served</th><th class=\"num\">Unmet</th><th class=\"num\">Vials</th><th>Share served</th></tr></thead><tbody>");
+    let n = ranked.len();
+    let names = [
+        "Top quarter",
+        "Second quarter",
+        "Third quarter",
+        "Bottom quarter",
+    ];
+    for (q, name) in names.iter().enumerate() {
+        let band = &ranked[n * q / 4..n * (q + 1) / 4];
+        if band.is_empty() {
+            continue;
+        }
+        let served = band.iter().filter(|(i, _)| plan.served(*i)).count();
+        let vials: u64 = band
+            .iter()
+            .map(|(i, _)| plan.per_site.get(*i).map_or(0, |d| d.vials))
+            .sum();
+        let unmet = band.len() - served;
+        let share = served as f64 / band.len() as f64;
+        let _ = write!(
+            h,
+            "<tr><td>{name}</td><td class=\"num\">{} – {}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+<td class=\"nw\"><span class=\"bar\" style=\"width:{}mm\"></span><span class=\"bar unmet\" style=\"width:{}mm\"></span> {} %</td></tr>",
+            fixed(band.last().map_or(0.0, |b| b.1), 2),
+            fixed(band[0].1, 2),
+            int(band.len() as u64),
+            int(served as u64),
+            int(unmet as u64),
+            int(vials),
+            fixed(30.0 * share, 1),
+            fixed(30.0 * (1.0 - share), 1),
+            fixed(100.0 * share, 0)
+        );
+    }
+    if n == 0 {
+        h.push_str("<tr><td colspan=\"7\" class=\"muted\">No site could get a release this week.</td></tr>");
+    }
+    h.push_str("</tbody></table></section>\n");
+}
+
+/// Counts by reason, in plain words, largest first. O(reasons).
+fn why_not(h: &mut String, view: &PlanView, week: &Week) {
+    let mut rows: Vec<(&str, (usize, usize))> =
+        week.reasons.iter().map(|(r, c)| (*r, *c)).collect();
+    rows.sort_by(|a, b| (b.1.0 + b.1.1).cmp(&(a.1.0 + a.1.1)).then(a.0.cmp(b.0)));
+    let supply_out = week.binds(Kind::Supply) || (week.supply > 0 && week.shipped >= week.supply);
+    h.push_str("<section><h2>Why sites got nothing</h2><table><thead><tr><th>Reason</th><th>Code in allocation.csv</th><th class=\"num\">Blocks</th><th class=\"num\">Requests</th></tr></thead><tbody>");
+    for (r, (b, d)) in &rows {
+        let words = if *r == "below-cutoff" && supply_out {
+            "eligible, but supply ran out: the vials went to higher-value sites"
+        } else {
+            plain_reason(r)
+        };
+        let _ = write!(
+            h,
+            "<tr><td>{}</td><td class=\"nw\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
+            esc(words),
+            esc(r),
+            int(*b as u64),
+            int(*d as u64)
+        );
+    }
+    if rows.is_empty() {
+        h.push_str("<tr><td colspan=\"4\" class=\"muted\">Every site was served.</td></tr>");
+    }
+    let _ = writeln!(
+        h,
+        "</tbody></table><p class=\"small muted\">Insecticide window: no release within {} days after an application.</p></section>",
+        view.scenario.policy.pesticide_exclusion_days
+    );
+}
+
+/// The highest-priority unserved sites that could have had a release: what serving one would
+/// take (vials from the nearest facility) and what each of those vials earns where it went
+/// instead. O(S + rows · F).
+fn worth_a_look(h: &mut String, view: &PlanView, week: &Week) {
+    let sc = view.scenario;
+    let al = view.allocation;
+    h.push_str("<section><h2>Unserved eligible sites worth a look</h2>");
+    if week.worth_a_look.is_empty() {
+        h.push_str(
+            "<p class=\"muted\">None: every site that could get a release got one.</p></section>\n",
+        );
+        return;
+    }
+    let _ = write!(
+        h,
+        "<p class=\"small muted\">The {} highest-priority of {} such sites (all are in allocation.csv). \
+To serve one, the vials it needs would have to come off a site that now gets them, or be packed in addition: \
+the last column is what each such vial of the nearest facility earns where it went instead (the value of one more vial, below).</p>\
+<table><thead><tr><th>Site</th><th>Kind</th><th class=\"num\">Priority</th><th>Why not</th><th class=\"num\">Would need</th><th>Nearest facility</th><th class=\"num\">Its vial earns now</th></tr></thead><tbody>",
+        week.worth_a_look.len().min(LIST_ROWS),
+        int(week.worth_a_look.len() as u64)
+    );
+    for (i, p, r) in week.worth_a_look.iter().take(LIST_ROWS) {
+        let site = &sc.sites[*i];
+        let nearest = sc
+            .facilities
+            .iter()
+            .enumerate()
+            .map(|(f, fac)| (f, distance_m(site.location, fac.location)))
+            .min_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+        let (fac, need, last) = match nearest {
+            Some((f, m)) => {
+                let fac = &sc.facilities[f];
+                let need = match site.kind() {
+                    SiteKind::Dooryard => sc.policy.dooryard_vials_per_request,
+                    SiteKind::Block => (sc.agent.min_release_wasps
+                        / f64::from(fac.wasps_per_vial.max(1)))
+                    .ceil()
+                    .clamp(1.0, f64::from(u32::MAX)) as u32,
+                };
+                (
+                    format!("{} ({} km)", esc(fac.id.as_str()), fixed(m / 1000.0, 1)),
+                    count(need as usize, "vial", "vials"),
+                    int(al
+                        .marginal_value_per_vial
+                        .get(f)
+                        .copied()
+                        .unwrap_or(0.0)
+                        .round()
+                        .max(0.0) as u64),
+                )
+            }
+            None => ("—".into(), "—".into(), "—".into()),
+        };
+        let why = match *r {
+            "below-cutoff" => "vials went to higher-value sites",
+            "out-of-reach" => "no live wasps there in time",
+            _ => "no route or parcel could carry it",
+        };
+        let _ = write!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td class=\"num\">{}</td><td>{why}</td><td class=\"num\">{need}</td><td class=\"nw\">{fac}</td><td class=\"num\">{last}</td></tr>",
+            esc(site.id.as_str()),
+            site.kind().as_str(),
+            fixed(*p, 2),
+        );
+    }
+    h.push_str("</tbody></table></section>\n");
+}
+
+/// Per facility: vials packed and shipped and the value of one more vial, with one sentence
+/// on what that value means and how it relates to the sweep's single figure. O(F + rows).
+fn marginal_values(h: &mut String, view: &PlanView, plan: &Delivered) {
+    let sc = view.scenario;
+    let al = view.allocation;
+    let mut packed = vec![0u64; sc.facilities.len()];
+    for s in &sc.supply {
+        if let Some(p) = packed.get_mut(s.facility) {
+            *p += u64::from(s.vials);
+        }
+    }
+    let mut shipped = vec![0u64; sc.facilities.len()];
+    for ((f, _), v) in &plan.used_by_pack_day {
+        if let Some(s) = shipped.get_mut(*f) {
+            *s += v;
+        }
+    }
+    let total: u64 = packed.iter().sum();
+    let weighted: f64 = packed
+        .iter()
+        .zip(&al.marginal_value_per_vial)
+        .map(|(p, v)| *p as f64 * v)
+        .sum();
+    h.push_str("<section><h2>Value of one more vial</h2>\
+<p class=\"small\">One more vial packed at a facility (on its best day) would add this much to the plan's value, in priority-weighted live wasps: what the best site still waiting for a vial from it would gain. \
+0 means the facility had vials to spare; a higher figure means its vials ran out first and an extra vial there is worth more.</p>\
+<table><thead><tr><th>Facility</th><th class=\"num\">Vials packed</th><th class=\"num\">Shipped</th><th class=\"num\">Value of one more vial</th></tr></thead><tbody>");
+    for (f, fac) in sc.facilities.iter().enumerate() {
+        let _ = write!(
+            h,
+            "<tr><td>{} ({})</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
+            esc(&fac.name),
+            esc(fac.id.as_str()),
+            int(packed[f]),
+            int(shipped[f]),
+            int(al
+                .marginal_value_per_vial
+                .get(f)
+                .copied()
+                .unwrap_or(0.0)
+                .round()
+                .max(0.0) as u64)
+        );
+    }
+    let _ = writeln!(
+        h,
+        "</tbody></table><p class=\"small muted\"><code>broodcast sweep</code> reports one figure per supply level: these values averaged over facilities, weighted by vials packed ({} for this week).</p></section>",
+        if total > 0 {
+            int((weighted / total as f64).round().max(0.0) as u64)
+        } else {
+            "0".into()
+        }
+    );
+}
+
+/// The week's binding limits by kind, in plain words. O(B).
+fn limits(h: &mut String, view: &PlanView, week: &Week) {
+    let sc = view.scenario;
+    h.push_str("<section><h2>What limits the week</h2><table><thead><tr><th>Limit</th><th>Where it binds</th><th class=\"num\">Value of one more unit</th></tr></thead><tbody>");
+    // Duals of `≥` rows (the share floor, forces) are negative: the size is what one more
+    // unit of the limit is worth (or costs).
+    let range = |v: &[binding::Parsed]| {
+        let lo = v.iter().map(|b| b.dual.abs()).fold(f64::INFINITY, f64::min);
+        let hi = v
+            .iter()
+            .map(|b| b.dual.abs())
+            .fold(f64::NEG_INFINITY, f64::max);
+        if (hi - lo).abs() < 0.05 * hi.abs().max(1.0) {
+            value(hi)
+        } else {
+            format!("{}–{}", value(lo), value(hi))
+        }
+    };
+    let days_by_facility = |v: &[binding::Parsed]| {
+        let mut by: BTreeMap<&str, Vec<NaiveDate>> = BTreeMap::new();
+        for b in v {
+            if let (Some(f), Some(d)) = (b.facility, b.date) {
+                by.entry(f).or_default().push(d);
+            }
+        }
+        by.into_iter()
+            .map(|(f, mut ds)| {
+                ds.sort();
+                format!("{} {}", esc(f), days(&ds))
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    };
+    let mut any = false;
+    let mut row = |h: &mut String, what: &str, where_: String, value: String| {
+        any = true;
+        let _ = write!(
+            h,
+            "<tr><td>{what}</td><td>{where_}</td><td class=\"num\">{value}</td></tr>"
+        );
+    };
+    if let Some(v) = week.binding.get(&Kind::Supply) {
+        row(
+            h,
+            "Supply (vials packed)",
+            days_by_facility(v),
+            format!("{} per vial", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::DooryardShare) {
+        row(
+            h,
+            "Dooryard share floor",
+            format!(
+                "at least {} % of vials must go to dooryard requests",
+                fixed(100.0 * sc.policy.dooryard_share_min, 0)
+            ),
+            format!("costs {} per vial", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::Vehicles) {
+        row(
+            h,
+            "Vehicle capacity",
+            days_by_facility(v),
+            format!("{} per vial", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::Parcel) {
+        let mut ds: Vec<NaiveDate> = v.iter().filter_map(|b| b.date).collect();
+        ds.sort();
+        row(
+            h,
+            "Parcel cap",
+            format!(
+                "{} vials a day on {}",
+                int(u64::from(sc.parcel.max_vials_per_day)),
+                days(&ds)
+            ),
+            format!("{} per vial", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::RequestVials) {
+        row(
+            h,
+            "Vials per dooryard request",
+            format!(
+                "{} would take more than the standard {} vials",
+                count(v.len(), "request", "requests"),
+                sc.policy.dooryard_vials_per_request
+            ),
+            format!("{} per vial", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::MaxRelease) {
+        row(
+            h,
+            "Largest release per site",
+            format!(
+                "{} at the maximum of {} live wasps",
+                count(v.len(), "site", "sites"),
+                int(sc.agent.max_release_wasps.round().max(0.0) as u64)
+            ),
+            format!("{} per wasp", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::Force) {
+        row(
+            h,
+            "Forced releases",
+            count(v.len(), "override", "overrides"),
+            format!("{} per unit", range(v)),
+        );
+    }
+    if let Some(v) = week.binding.get(&Kind::Other) {
+        row(
+            h,
+            "Other",
+            count(v.len(), "constraint", "constraints"),
+            range(v),
+        );
+    }
+    if !any {
+        h.push_str("<tr><td colspan=\"3\" class=\"muted\">Nothing binds: every site got what it could use.</td></tr>");
+    }
+    let _ = writeln!(
+        h,
+        "</tbody></table><p class=\"small muted\">Values are objective units (priority-weighted live wasps) gained per unit of the limit, from the allocation's duals. \
+The full list of {} binding constraints, with the {} per-site value rows that bind at every served site, is in binding-constraints.csv.</p></section>",
+        int(view.allocation.binding.len() as u64),
+        int(week.binding.get(&Kind::SiteValue).map_or(0, Vec::len) as u64)
+    );
+}
+
+/// Weekdays, runs of consecutive days joined: `Mon–Fri`, `Tue, Thu`.
+fn days(ds: &[NaiveDate]) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    let mut i = 0;
+    while i < ds.len() {
+        let mut j = i;
+        while j + 1 < ds.len() && ds[j + 1] == ds[j] + chrono::Days::new(1) {
+            j += 1;
+        }
+        let a = ds[i].format("%a").to_string();
+        parts.push(match j - i {
+            0 => a,
+            1 => format!("{a}, {}", ds[j].format("%a")),
+            _ => format!("{a}–{}", ds[j].format("%a")),
+        });
+        i = j + 1;
+    }
+    parts.join(", ")
+}
+
+/// An objective value for reading: one decimal below 10, else a whole number with
+/// thousands separators.
+fn value(x: f64) -> String {
+    if x.abs() < 10.0 {
+        fixed(x, 1)
+    } else {
+        int(x.round().max(0.0) as u64)
+    }
+}
+
+/// Whole number with thousands separators: `35,000`.
+fn int(n: u64) -> String {
+    let s = n.to_string();
+    let mut out = String::with_capacity(s.len() + s.len() / 3);
+    for (k, ch) in s.chars().enumerate() {
+        if k > 0 && (s.len() - k).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
 }
 
 /// Grouped bars: for each pack day, one bar per facility, outline = vials packed, fill =
@@ -391,7 +1049,7 @@ fn marker(kind: SiteKind, x: f64, y: f64, fill: &str, stroke: &str, width: f64) 
 
 /// `1 parcel`, `2 parcels`.
 fn count(n: usize, one: &str, many: &str) -> String {
-    format!("{n} {}", if n == 1 { one } else { many })
+    format!("{} {}", int(n as u64), if n == 1 { one } else { many })
 }
 
 /// 1-2-5 × 10ⁿ step not below `raw`.
@@ -410,89 +1068,6 @@ fn nice_step(raw: f64) -> f64 {
         .max(1.0)
 }
 
-/// Priority quartiles by rank among sites that had an arc (eligible), highest first. O(S log S).
-fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
-    let mut ranked: Vec<(usize, f64)> = view
-        .allocation
-        .sites
-        .iter()
-        .filter(|o| o.eligible)
-        .map(|o| (o.site, priority_of(view, o.site)))
-        .collect();
-    ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
-    h.push_str("<section><h2>Served and unmet by priority band</h2>\
-<p class=\"muted\">Eligible sites ranked by priority and split into quartiles (Q1 = highest).</p>\
-<table><thead><tr><th>Band</th><th>Priority range</th><th>Sites</th><th>Served</th><th>Unmet</th><th>Share served</th></tr></thead><tbody>");
-    let n = ranked.len();
-    for q in 0..4 {
-        let band = &ranked[n * q / 4..n * (q + 1) / 4];
-        if band.is_empty() {
-            continue;
-        }
-        let served = band.iter().filter(|(i, _)| plan.served(*i)).count();
-        let unmet = band.len() - served;
-        let share = served as f64 / band.len() as f64;
-        let _ = write!(
-            h,
-            "<tr><td>Q{}</td><td class=\"num\">{} – {}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-<td><span class=\"bar\" style=\"width:{}mm\"></span><span class=\"bar unmet\" style=\"width:{}mm\"></span> {} %</td></tr>",
-            q + 1,
-            fixed(band.last().map_or(0.0, |b| b.1), 3),
-            fixed(band[0].1, 3),
-            band.len(),
-            served,
-            unmet,
-            fixed(40.0 * share, 1),
-            fixed(40.0 * (1.0 - share), 1),
-            fixed(100.0 * share, 0)
-        );
-    }
-    h.push_str("</tbody></table></section>\n");
-}
-
-/// Counts by reason and the highest-priority unserved sites. O(S log S).
-fn why_not(h: &mut String, view: &PlanView, plan: &Delivered) {
-    let sc = view.scenario;
-    let mut counts: BTreeMap<&str, (usize, usize)> = BTreeMap::new();
-    let mut unserved: Vec<(usize, f64, &str)> = Vec::new();
-    for (i, site) in sc.sites.iter().enumerate() {
-        if let Some(r) = plan.reason(view, i) {
-            let e = counts.entry(r).or_insert((0, 0));
-            match site.kind() {
-                SiteKind::Block => e.0 += 1,
-                SiteKind::Dooryard => e.1 += 1,
-            }
-            let p = priority_of(view, i);
-            unserved.push((i, p, r));
-        }
-    }
-    unserved.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
-    h.push_str("<section class=\"two\"><div><h2>Why sites got nothing</h2><table><thead><tr><th>Reason</th><th>Blocks</th><th>Requests</th></tr></thead><tbody>");
-    for (r, (b, d)) in &counts {
-        let _ = write!(
-            h,
-            "<tr><td>{}</td><td class=\"num\">{b}</td><td class=\"num\">{d}</td></tr>",
-            esc(r)
-        );
-    }
-    if counts.is_empty() {
-        h.push_str("<tr><td colspan=\"3\" class=\"muted\">Every site was served.</td></tr>");
-    }
-    h.push_str("</tbody></table></div><div><h2>Top unserved sites by priority</h2><table><thead><tr><th>Site</th><th>Kind</th><th>Priority</th><th>Reason</th></tr></thead><tbody>");
-    for (i, p, r) in unserved.iter().take(15) {
-        let site = &sc.sites[*i];
-        let _ = write!(
-            h,
-            "<tr><td>{}</td><td>{}</td><td class=\"num\">{}</td><td>{}</td></tr>",
-            esc(site.id.as_str()),
-            site.kind().as_str(),
-            fixed(*p, 3),
-            esc(r)
-        );
-    }
-    h.push_str("</tbody></table></div></section>\n");
-}
-
 #[cfg(test)]
 mod tests {
     use super::super::fixture::tiny_plan;
@@ -507,18 +1082,35 @@ mod tests {
     }
 
     #[test]
-    fn report_has_the_sections_and_no_addresses() {
-        let p = tiny_plan();
+    fn numbers_and_days_read_plainly() {
+        assert_eq!(int(35_000), "35,000");
+        assert_eq!(int(999), "999");
+        assert_eq!(int(1_234_567), "1,234,567");
+        assert_eq!(count(1, "week", "weeks"), "1 week");
+        let d = |i: u64| NaiveDate::from_ymd_opt(2027, 3, 1).unwrap() + chrono::Days::new(i);
+        assert_eq!(days(&[d(0), d(1), d(2), d(3), d(4)]), "Mon–Fri");
+        assert_eq!(days(&[d(1), d(3)]), "Tue, Thu");
+        assert_eq!(days(&[d(0), d(1), d(3)]), "Mon, Tue, Thu");
+    }
+
+    fn html(p: &super::super::fixture::TinyPlan) -> String {
         let v = p.view();
         let plan = Delivered::build(&v).unwrap();
-        let h = String::from_utf8(render(&v, &plan).unwrap()).unwrap();
+        String::from_utf8(render(&v, &plan).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn report_has_the_sections_and_no_addresses() {
+        let p = tiny_plan();
+        let h = html(&p);
         for needle in [
-            "16 / 60",
-            "vials shipped of supply (27 %)",
-            "gap to the whole-vial bound",
+            "16 of 60 vials shipped",
+            "What limits the week",
+            "Supply (vials packed)",
             "Why sites got nothing",
-            "undeliverable",
-            "supply_F1_2027-03-02",
+            "vials allocated, but no route or parcel could carry them",
+            "binding-constraints.csv",
+            "Value of one more vial",
             "Cautions",
             ">vials</text>",
             " km</text>",
@@ -530,5 +1122,56 @@ mod tests {
                 assert!(!h.contains(&r.address), "address {} leaked", r.address);
             }
         }
+    }
+
+    #[test]
+    fn ineligible_sites_are_never_worth_a_look() {
+        let p = tiny_plan();
+        let h = html(&p);
+        let part = &h[h.find("worth a look").unwrap()..h.find("Value of one more vial").unwrap()];
+        // B3 is allocated but undeliverable; B4 has no flush and must not be listed.
+        assert!(part.contains("<td>B3</td>"), "{part}");
+        assert!(!part.contains("<td>B4</td>"), "{part}");
+    }
+
+    #[test]
+    fn the_headline_names_the_main_reason() {
+        let mut p = tiny_plan();
+        // Every candidate eligible and unserved below the cutoff: supply is the reason.
+        for o in &mut p.allocation.sites {
+            if o.vials == 0 && o.reason.is_none() {
+                o.reason = Some(crate::eligibility::Reason::BelowCutoff);
+            }
+        }
+        let h = html(&p);
+        assert!(
+            h.contains("Delivery failed")
+                || h.contains("Supply ran out")
+                || h.contains("got nothing"),
+            "{h}"
+        );
+        p.allocation.sites[2].vials = 0;
+        p.allocation.sites[2].reason = Some(crate::eligibility::Reason::OutOfReach);
+        let h = html(&p);
+        assert!(
+            h.contains("Out of reach: 1 eligible site got nothing"),
+            "{h}"
+        );
+    }
+
+    #[test]
+    fn a_large_week_is_drawn_as_cells() {
+        let mut p = tiny_plan();
+        let h = html(&p);
+        assert!(!h.contains("drawn as cells"));
+        let base = p.scenario.sites.clone();
+        while p.scenario.sites.len() <= MAP_MARKERS_MAX {
+            let mut s = base[p.scenario.sites.len() % base.len()].clone();
+            s.id = crate::scenario::SiteId(format!("X{}", p.scenario.sites.len()));
+            p.scenario.sites.push(s);
+        }
+        let h = html(&p);
+        assert!(h.contains("drawn as cells"), "gridded past the limit");
+        assert!(h.matches("<circle").count() < 10, "no per-site markers");
     }
 }

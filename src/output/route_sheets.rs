@@ -1,6 +1,10 @@
 //! `route-sheets.html`: one printed page per route for the driver, and a parcel label list
-//! for the dispatcher. Print-ready (portrait A4 or Letter, `@page` margins, a page break
-//! before every sheet).
+//! for the dispatcher. Print-ready on the one page size of every HTML output
+//! ([`super::PAGE_SIZE`]), a page break before every sheet. A route of up to
+//! [`ONE_PAGE_STOPS`] stops prints on one page: the map shrinks as the stop list grows. The
+//! cautions sit under each sheet's heading, so they never stand alone on a page and always
+//! carry the route id; the stop table's heading, with the route id, repeats on every page of a
+//! longer route.
 //!
 //! This is the ONLY output that carries a request's street address: a driver needs it to find
 //! a dooryard, and the dispatcher needs it on parcel labels. Blocks are found by their block
@@ -11,14 +15,13 @@ use std::fmt::Write;
 use chrono::{NaiveDate, NaiveDateTime};
 
 use super::svg::{Frame, f1};
-use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed, hhmm};
+use super::{CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, bad_site, esc, fixed, hhmm};
 use crate::dispatch::Route;
 use crate::scenario::{LonLat, Scenario, SiteDetail};
 
 /// Print stylesheet shared by the sheets. Sizes in mm and pt so the page prints the same on
 /// any screen.
 const CSS: &str = r#"
-@page { size: portrait; margin: 12mm; }
 * { box-sizing: border-box; }
 body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9.5pt; color: #000; margin: 0; }
 .sheet { break-before: page; }
@@ -29,26 +32,50 @@ table { border-collapse: collapse; width: 100%; }
 table.meta td { padding: 0.6mm 2mm 0.6mm 0; vertical-align: top; }
 table.meta td.k { color: #444; white-space: nowrap; }
 table.meta td.v { font-weight: bold; }
+table.meta td.d { white-space: nowrap; }
 table.stops th, table.stops td { border: 0.3mm solid #777; padding: 1mm 1.2mm; text-align: left; vertical-align: top; }
-table.stops th { background: #eee; font-size: 8.5pt; }
+table.stops th { background: #eee; font-size: 8.5pt; white-space: nowrap; }
 table.stops tr { break-inside: avoid; }
 td.num { text-align: right; white-space: nowrap; }
 td.seq { font-weight: bold; text-align: center; width: 8mm; }
-td.find { font-size: 8.5pt; width: 66mm; }
+td.find { font-size: 8pt; }
 td.tick { width: 9mm; text-align: center; }
-td.notes { width: 32mm; }
+td.notes { width: 30mm; }
+table.route { table-layout: fixed; }
+table.route .c-seq { width: 8mm; }
+table.route .c-site { width: 15mm; }
+table.route .c-arr { width: 21mm; }
+.wait { font-size: 7.5pt; }
+table.route .c-vials { width: 11mm; }
+table.route .c-by { width: 21mm; }
+table.route .c-done { width: 11mm; }
+table.route .c-notes { width: 18mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
 .map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
-.cautions { margin-top: 3mm; border-top: 0.4mm solid #000; padding-top: 1.5mm; font-size: 8pt; break-inside: avoid; }
-.cautions ul { margin: 0.5mm 0 0 4mm; padding: 0; }
+.cautions { margin: 1.5mm 0; border: 0.3mm solid #000; padding: 1mm 2mm; font-size: 7.5pt; break-inside: avoid; }
+.cautions ul { margin: 0.3mm 0 0 4mm; padding: 0; columns: 2; column-gap: 6mm; }
 .muted { color: #555; }
 .nw { white-space: nowrap; }
 table.stops th.cont { background: #fff; font-weight: normal; color: #444; border-left: none; border-right: none; border-top: none; }
 "#;
 
-/// Map canvas size, SVG user units (scaled to the sheet's width).
+/// Map canvas width, SVG user units (scaled to the sheet's width, 186 mm: 3.66 units per mm).
 const MAP_W: f64 = 680.0;
-const MAP_H: f64 = 330.0;
+/// Tallest map, SVG user units (90 mm printed), for routes of a few stops.
+const MAP_H_MAX: f64 = 330.0;
+/// Shortest map, SVG user units (45 mm printed), for routes that fill the page.
+const MAP_H_MIN: f64 = 165.0;
+/// Most stops whose sheet prints on one page (measured in headless Chromium on Letter and
+/// on A4, `tests/outputs.rs`): the map shrinks to its smallest height to make room.
+pub const ONE_PAGE_STOPS: usize = 14;
+
+/// Map height for a route of `stops` stops: full height up to 7 stops, then 9 mm less per
+/// stop down to [`MAP_H_MIN`] (each stop row prints about 9 mm tall).
+fn map_height(stops: usize) -> f64 {
+    const UNITS_PER_MM: f64 = MAP_W / 186.0;
+    let extra = stops.saturating_sub(7) as f64;
+    (MAP_H_MAX - extra * 9.0 * UNITS_PER_MM).clamp(MAP_H_MIN, MAP_H_MAX)
+}
 
 /// What a redacted sheet prints instead of a street address.
 pub(crate) const WITHHELD: &str = "address withheld";
@@ -64,7 +91,7 @@ pub(crate) fn render(
     let mut h = String::new();
     let _ = write!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}{}</title>\n<style>{CSS}</style>\n</head>\n<body>\n",
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}{}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n",
         esc(&sc.name),
         sc.week_start,
         if redact {
@@ -153,7 +180,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
     let _ = write!(
         h,
         "<section class=\"sheet\">\n<h1>Route {id}</h1>\n{note}<table class=\"meta\"><tr>\
-<td class=\"k\">Date</td><td class=\"v\">{date}</td>\
+<td class=\"k\">Date</td><td class=\"v d\">{date}</td>\
 <td class=\"k\">Vehicle</td><td class=\"v\">{veh}</td>\
 <td class=\"k\">Depot</td><td class=\"v\">{dname} ({did})</td></tr>\n<tr>\
 <td class=\"k\">Leave depot</td><td class=\"v\">{dep}</td>\
@@ -161,7 +188,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
 <td class=\"k\">Drive time</td><td class=\"v\">{drive}</td></tr>\n<tr>\
 <td class=\"k\">Stops</td><td class=\"v\">{n}</td>\
 <td class=\"k\">Vials on board</td><td class=\"v\">{vials}</td>\
-<td class=\"k\">Expected live wasps</td><td class=\"v\">{wasps}</td></tr></table>\n",
+<td class=\"k\">Expected live wasps</td><td class=\"v\">{wasps}</td></tr></table>\n{cautions}\n",
         id = esc(&r.id),
         note = redaction_note(redact),
         date = day(r.date),
@@ -174,14 +201,16 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
         n = r.stops.len(),
         vials = r.vials(),
         wasps = fixed(wasps, 0),
+        cautions = cautions(),
     );
     h.push_str(&route_map(sc, r, depot.location, depot.id.as_str())?);
     // The route line inside <thead> repeats on every printed page of a long route, so a
     // loose second page still says which run it belongs to.
     let _ = writeln!(
         h,
-        "<table class=\"stops\"><thead><tr><th colspan=\"9\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
-<tr><th>#</th><th>Site</th><th>Kind</th>\
+        "<table class=\"stops route\"><colgroup><col class=\"c-seq\"><col class=\"c-site\"><col><col class=\"c-arr\"><col class=\"c-vials\"><col class=\"c-by\"><col class=\"c-done\"><col class=\"c-notes\"></colgroup>\
+<thead><tr><th colspan=\"8\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
+<tr><th>#</th><th>Site</th>\
 <th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
 <th>Notes</th></tr></thead><tbody>",
         esc(&r.id),
@@ -192,31 +221,31 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
         let find = match &site.detail {
             SiteDetail::Dooryard(_) if redact => format!(
-                "<em>{WITHHELD}</em> (request {})<br><span class=\"muted nw\">{}, {}</span>",
+                "Dooryard: <em>{WITHHELD}</em> (request {})<br><span class=\"muted nw\">{}, {}</span>",
                 esc(site.id.as_str()),
                 fixed(site.location.lat, 6),
                 fixed(site.location.lon, 6)
             ),
             SiteDetail::Dooryard(req) => format!(
-                "{}<br><span class=\"muted nw\">{}, {}</span>",
+                "Dooryard: {}<br><span class=\"muted nw\">{}, {}</span>",
                 esc(&req.address),
                 fixed(site.location.lat, 6),
                 fixed(site.location.lon, 6)
             ),
             SiteDetail::Block(b) => format!(
-                "Block {} ({}, {} ha); access point <span class=\"nw\">{}, {}</span><br><span class=\"muted\">access {}–{}</span>",
+                "Block {} · {}, {} ha · open {}–{}<br>access point <span class=\"nw\">{}, {}</span>",
                 esc(site.id.as_str()),
                 esc(&b.crop),
                 fixed(b.area_ha, 1),
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6),
                 b.access_start.format("%H:%M"),
                 b.access_end.format("%H:%M"),
+                fixed(site.location.lat, 6),
+                fixed(site.location.lon, 6),
             ),
         };
         let arrive = if st.service_start > st.arrival {
             format!(
-                "{}<br><span class=\"muted\">release from {}</span>",
+                "{}<br><span class=\"muted wait\">release {}</span>",
                 time_on(st.arrival, r.date),
                 time_on(st.service_start, r.date)
             )
@@ -225,19 +254,16 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
         };
         let _ = writeln!(
             h,
-            "<tr><td class=\"seq\">{seq}</td><td>{id}</td><td>{kind}</td><td class=\"find\">{find}</td>\
+            "<tr><td class=\"seq\">{seq}</td><td>{id}</td><td class=\"find\">{find}</td>\
 <td class=\"num\">{arrive}</td><td class=\"num\">{vials}</td><td class=\"num\">{by}</td>\
 <td class=\"tick\"><span class=\"box\"></span></td><td class=\"notes\"></td></tr>",
             seq = i + 1,
             id = esc(site.id.as_str()),
-            kind = site.kind().as_str(),
             vials = st.vials,
             by = time_on(st.release_by, r.date),
         );
     }
-    h.push_str("</tbody></table>\n");
-    h.push_str(&cautions());
-    h.push_str("\n</section>\n");
+    h.push_str("</tbody></table>\n</section>\n");
     Ok(())
 }
 
@@ -258,14 +284,15 @@ fn route_map(
                 .location,
         );
     }
-    let frame = Frame::fit(&pts, MAP_W, MAP_H, 34.0, 1.0);
+    let map_h = map_height(r.stops.len());
+    let frame = Frame::fit(&pts, MAP_W, map_h, 34.0, 1.0);
     let mut s = String::new();
     let _ = write!(
         s,
         "<svg class=\"map\" xmlns=\"http://www.w3.org/2000/svg\" viewBox=\"0 0 {w} {hh}\" role=\"img\" aria-label=\"Map of route {id}\">\
 <rect width=\"{w}\" height=\"{hh}\" fill=\"#fbfbf7\"/>",
         w = MAP_W,
-        hh = MAP_H,
+        hh = f1(map_h),
         id = esc(&r.id)
     );
     for st in &r.stops {
@@ -367,10 +394,11 @@ fn parcel_page(h: &mut String, view: &PlanView, redact: bool) -> Result<(), Outp
     let sc = view.scenario;
     let _ = write!(
         h,
-        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n\
+        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n{}\
 <table class=\"stops\"><thead><tr><th>#</th><th>Request</th><th>Address</th><th>From</th><th>Hand over</th><th>Delivery (est.)</th><th>Vials</th><th>Release by</th><th>Packed</th></tr></thead><tbody>\n",
         sc.week_start,
-        redaction_note(redact)
+        redaction_note(redact),
+        cautions()
     );
     for (i, p) in view.dispatch.parcels.iter().enumerate() {
         let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
@@ -407,9 +435,7 @@ fn parcel_page(h: &mut String, view: &PlanView, redact: bool) -> Result<(), Outp
             time_on(p.release_by, base),
         );
     }
-    h.push_str("</tbody></table>\n");
-    h.push_str(&cautions());
-    h.push_str("\n</section>\n");
+    h.push_str("</tbody></table>\n</section>\n");
     Ok(())
 }
 
@@ -483,7 +509,7 @@ mod tests {
         assert!(!h.contains("5 Dune Court"), "R4 is not served");
         assert!(h.contains("access point <span class=\"nw\">26.980000, -80.020000</span>"));
         assert!(
-            h.contains("release from 08:00"),
+            h.contains("release 08:00"),
             "R1 waits for the dooryard window"
         );
     }

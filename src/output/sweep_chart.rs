@@ -47,6 +47,9 @@ pub(crate) struct LineChart<'a> {
     pub hline: Option<(f64, String)>,
     /// A ringed point (x, y) with its label.
     pub mark: Option<(f64, f64, String)>,
+    /// A short label written beside each point of the first series (e.g. what limits it),
+    /// one per point; empty for none.
+    pub point_labels: Vec<String>,
 }
 
 /// The 1-2-5 × 10ⁿ step giving about `target` intervals over `[0, max]`, and the axis end (a
@@ -226,6 +229,25 @@ pub(crate) fn render(c: &LineChart) -> String {
         );
         lx += 34.0 + 7.0 * ser.label.chars().count() as f64 + 24.0;
     }
+    if let Some(first) = c.series.first() {
+        // Alternate above and below the line so neighbouring labels do not collide.
+        for (k, (&(x, y), label)) in first.points.iter().zip(&c.point_labels).enumerate() {
+            let (lx, ly) = (px(x), py(y));
+            let anchor = if lx > LEFT + pw * 0.8 {
+                "end"
+            } else {
+                "middle"
+            };
+            let dy = if k % 2 == 0 { -10.0 } else { 18.0 };
+            let _ = write!(
+                s,
+                r##"<text x="{x}" y="{y}" font-size="11" fill="#333" text-anchor="{anchor}" stroke="#fff" stroke-width="3" paint-order="stroke">{l}</text>"##,
+                x = f1(lx),
+                y = f1(ly + dy),
+                l = esc(label),
+            );
+        }
+    }
     if let Some((x, y, label)) = &c.mark {
         let (mx, my) = (px(*x), py(*y));
         let anchor = if mx > LEFT + pw * 0.6 { "end" } else { "start" };
@@ -284,6 +306,7 @@ mod tests {
             }],
             hline: Some((0.5, "25 % <".into())),
             mark: Some((1.0, 2.0, "here".into())),
+            point_labels: vec!["supply".into()],
         };
         let svg = render(&c);
         assert!(svg.starts_with("<svg xmlns=\"http://www.w3.org/2000/svg\""));

@@ -1,7 +1,7 @@
 //! Outputs of `sweep`: `sweep.csv` (one row per variant), `sweep.html` (printable report with
-//! SVG charts), the same charts as `sweep-value.svg`, `sweep-marginal.svg` and
-//! `sweep-served.svg`, and each variant's `variants/<name>/summary.json` exactly as `plan`
-//! writes it.
+//! SVG charts), the same charts as `sweep-shipped.svg`, `sweep-value.svg`, `sweep-marginal.svg` and
+//! `sweep-served.svg`, and in `variants/<name>/` every file `plan --redact` writes for that
+//! variant (so `compare` works on any two variants; route sheets without addresses).
 //!
 //! No personal data: ids, counts and model figures only (a summary's notes name site and
 //! facility ids, never an address). Every number is written with fixed decimals, so the bytes
@@ -11,8 +11,9 @@ use std::collections::BTreeMap;
 use std::fmt::Write;
 
 use super::sweep_chart::{self, LineChart, Series};
-use super::{Delivered, OutputError, PlanView, esc, fixed};
-use crate::scenario::SiteKind;
+use super::{OutputError, PAGE_CSS, PlanView, RenderOptions, esc, fixed, render_all_with};
+
+const REDACTED: RenderOptions = RenderOptions { redact: true };
 use crate::sweep::{Sweep, VariantResult, constraint_kind, is_shared_kind};
 
 /// The `sweep.csv` header, in column order.
@@ -32,50 +33,6 @@ pub const SWEEP_COLUMNS: [&str; 13] = [
     "bound",
 ];
 
-/// Delivered totals of one plan, as `summary.json` counts them.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct DeliveredTotals {
-    /// Vials on a route stop or parcel.
-    pub shipped_vials: u64,
-    /// Sites receiving vials.
-    pub sites_served: usize,
-    /// Blocks receiving vials.
-    pub blocks_served: usize,
-    /// Requests receiving vials.
-    pub requests_served: usize,
-    /// Expected live wasps delivered, wasps.
-    pub wasps_expected_alive: f64,
-}
-
-/// A plan's `summary.json` bytes (identical to [`super::render_all`]'s) and its delivered
-/// totals, without rendering the other files. O(S + shipments).
-///
-/// # Errors
-/// As [`super::render_all`].
-pub fn summary_and_totals(view: &PlanView) -> Result<(Vec<u8>, DeliveredTotals), OutputError> {
-    let plan = Delivered::build(view)?;
-    let bytes = super::summary::render(view, &plan)?;
-    let served = |kind: SiteKind| {
-        view.scenario
-            .sites
-            .iter()
-            .enumerate()
-            .filter(|(i, s)| s.kind() == kind && plan.served(*i))
-            .count()
-    };
-    let (blocks, requests) = (served(SiteKind::Block), served(SiteKind::Dooryard));
-    Ok((
-        bytes,
-        DeliveredTotals {
-            shipped_vials: plan.shipped_vials(),
-            sites_served: blocks + requests,
-            blocks_served: blocks,
-            requests_served: requests,
-            wasps_expected_alive: plan.wasps_expected_alive(),
-        },
-    ))
-}
-
 /// Renders every sweep output as (relative file name, bytes), in a fixed order.
 ///
 /// # Errors
@@ -89,11 +46,12 @@ pub fn render(sweep: &Sweep) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
     for (name, svg) in charts {
         files.push((format!("{name}.svg"), svg.into_bytes()));
     }
-    for v in &sweep.variants {
-        files.push((
-            format!("variants/{}/summary.json", v.name),
-            v.summary_json.clone(),
-        ));
+    for (v, plan) in sweep.variants.iter().zip(&sweep.plans) {
+        // Redacted: the sweep is an analyst's output, so no variant's route sheets carry an
+        // address (docs/outputs.md, "Personal data").
+        for (name, bytes) in render_all_with(&PlanView::of(plan), &REDACTED)? {
+            files.push((format!("variants/{}/{name}", v.name), bytes));
+        }
     }
     Ok(files)
 }
@@ -120,6 +78,72 @@ fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
     }
     w.into_inner()
         .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+}
+
+/// What limits a variant's vials shipped, as (short label for a chart point, sentence): the
+/// supply when it runs out, else the dooryard share floor, vehicle capacity or the parcel cap
+/// when one binds, else the sites' own limits (every reachable site has what it can use).
+/// `plan` gives the policy figures for the sentence; without it the sentence is shorter.
+pub fn limit(v: &VariantResult, plan: Option<&crate::plan::Plan>) -> (String, String) {
+    let binds = |kind: &str| {
+        v.binding
+            .iter()
+            .any(|b| constraint_kind(&b.name) == kind && b.dual.abs() > 1e-9)
+    };
+    let n = |x: u64| sweep_chart::tick_label(x as f64, 1.0);
+    if v.supply_vials > 0 && v.shipped_vials >= v.supply_vials {
+        return (
+            "supply".into(),
+            format!("supply: all {} vials shipped", n(v.supply_vials)),
+        );
+    }
+    if binds("dooryard_share") {
+        let sentence = match plan {
+            Some(p) if p.scenario.policy.dooryard_share_min > 0.0 => {
+                let per = p.scenario.policy.dooryard_vials_per_request;
+                let share = p.scenario.policy.dooryard_share_min;
+                let cap = (v.requests_served as f64 * f64::from(per) / share).floor() as u64;
+                format!(
+                    "dooryard floor: {} requests × {per} vials at a {} % share cap all vials at {}; {} shipped of {}",
+                    n(v.requests_served as u64),
+                    fixed(share * 100.0, 0),
+                    n(cap),
+                    n(v.shipped_vials),
+                    n(v.supply_vials)
+                )
+            }
+            _ => format!(
+                "dooryard floor: {} shipped of {}",
+                n(v.shipped_vials),
+                n(v.supply_vials)
+            ),
+        };
+        return ("dooryard floor".into(), sentence);
+    }
+    for (kind, short, words) in [
+        ("supply", "supply", "supply on some days"),
+        ("vehicles", "vehicles", "vehicle capacity"),
+        ("parcel", "parcel cap", "the daily parcel cap"),
+    ] {
+        if binds(kind) {
+            return (
+                short.into(),
+                format!(
+                    "{words}: {} shipped of {}",
+                    n(v.shipped_vials),
+                    n(v.supply_vials)
+                ),
+            );
+        }
+    }
+    (
+        "site limits".into(),
+        format!(
+            "no shared limit: every reachable site has what it can use; {} shipped of {}",
+            n(v.shipped_vials),
+            n(v.supply_vials)
+        ),
+    )
 }
 
 /// What binds in a variant's LP, in words: the shared rows (supply, vehicles, parcel, dooryard
@@ -200,7 +224,7 @@ const BLUE: &str = "#1f4e79";
 const ORANGE: &str = "#c55a11";
 const GREEN: &str = "#38761d";
 
-/// (file stem, standalone SVG) for the three charts.
+/// (file stem, standalone SVG) for the four charts.
 fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
     let vs = &sweep.variants;
     let pts = |f: &dyn Fn(&VariantResult) -> f64| -> Vec<(f64, f64)> {
@@ -228,6 +252,7 @@ fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
         ],
         hline: None,
         mark: None,
+        point_labels: Vec::new(),
     };
     let sat = &sweep.saturation;
     let mark = sat.at.and_then(|i| vs.get(i)).map(|v| {
@@ -254,6 +279,34 @@ fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
             )
         }),
         mark,
+        point_labels: Vec::new(),
+    };
+    let limits: Vec<String> = vs
+        .iter()
+        .enumerate()
+        .map(|(i, v)| limit(v, sweep.plans.get(i)).0)
+        .collect();
+    let shipped = LineChart {
+        title: "Vials shipped vs supply, and what limits them",
+        x_label: &x_label,
+        y_label: "vials (count)",
+        series: vec![
+            Series {
+                label: "vials shipped",
+                points: pts(&|v| v.shipped_vials as f64),
+                colour: BLUE,
+                dashed: false,
+            },
+            Series {
+                label: "vials packed (supply)",
+                points: pts(&|v| v.supply_vials as f64),
+                colour: ORANGE,
+                dashed: true,
+            },
+        ],
+        hline: None,
+        mark: None,
+        point_labels: limits.clone(),
     };
     let served = LineChart {
         title: "Sites and requests served vs supply",
@@ -275,8 +328,10 @@ fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
         ],
         hline: None,
         mark: None,
+        point_labels: limits,
     };
     vec![
+        ("sweep-shipped", sweep_chart::render(&shipped)),
         ("sweep-value", sweep_chart::render(&value)),
         ("sweep-marginal", sweep_chart::render(&marginal)),
         ("sweep-served", sweep_chart::render(&served)),
@@ -284,21 +339,21 @@ fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
 }
 
 const STYLE: &str = "body{font-family:sans-serif;max-width:46rem;margin:1.5rem auto;padding:0 1rem;color:#111}\
-h1{font-size:1.5rem;margin-bottom:.2rem}h2{font-size:1.15rem;margin-top:1.6rem}\
+h1{font-size:1.5rem;margin-bottom:.2rem}h2{font-size:1.15rem;margin-top:1.6rem;break-after:avoid}\
 .meta{color:#444;margin-top:0}figure{margin:1rem 0;break-inside:avoid;page-break-inside:avoid}\
 figure svg{width:100%;height:auto;border:1px solid #ccc}figcaption{font-size:.85rem;color:#333}\
 table{border-collapse:collapse;font-size:.8rem;width:100%}th,td{border:1px solid #bbb;padding:.2rem .35rem;text-align:right}\
 th:first-child,td:first-child{text-align:left}thead{display:table-header-group}tr{break-inside:avoid}\
 .finding{border-left:4px solid #c00000;padding:.3rem .7rem;background:#fbf3f3}\
 footer{margin-top:2rem;font-size:.8rem;color:#444}\
-@page{size:A4;margin:14mm}@media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
+@media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
 
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let mut h = String::new();
     let title = format!("Supply sweep — {}", sweep.scenario);
     let _ = writeln!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body>",
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{PAGE_CSS}{STYLE}</style></head><body>",
         esc(&title)
     );
     let _ = writeln!(
@@ -338,13 +393,41 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
         "<h2>Saturation</h2><p class=\"finding\">{}</p>",
         esc(&saturation_text(sweep))
     );
+    h.push_str("<h2>What limits the vials shipped</h2><table><thead><tr><th>variant</th><th style=\"text-align:left\">limit, in words</th></tr></thead><tbody>\n");
+    for (i, v) in sweep.variants.iter().enumerate() {
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>",
+            esc(&v.name),
+            esc(&limit(v, sweep.plans.get(i)).1)
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    let reconcile = sweep.reference().map_or_else(String::new, |one| {
+        let parts: Vec<String> = one
+            .marginal_by_facility
+            .iter()
+            .map(|(f, v)| format!("{f} {}", fixed(*v, 1)))
+            .collect();
+        format!(
+            " At 1×, report.html's per-facility values ({}) average to {} with each facility's vials as weights.",
+            parts.join(", "),
+            fixed(one.marginal_value_per_vial, 1)
+        )
+    });
+    let marginal_caption = format!(
+        "Objective gained per extra vial: each facility's best supply-row dual of the week, \
+         averaged with the facility's vials as weights.{reconcile} The dotted line is the saturation \
+         threshold; the ring marks the saturation point."
+    );
     let captions = [
+        "Vials shipped (delivered) and vials packed against supply; each point names what limits \
+         the vials shipped there (the table above says it in full).",
         "LP bound (upper bound on any plan) and the whole-vial plan's objective. The LP value \
          is concave and non-decreasing in supply.",
-        "Objective gained per extra vial: each facility's best supply-row dual of the week, \
-         averaged with the facility's vials as weights. The dotted line is the saturation \
-         threshold; the ring marks the saturation point.",
-        "Sites and dooryard requests that receive vials (delivered, as in summary.json).",
+        &marginal_caption,
+        "Sites and dooryard requests that receive vials (delivered, as in summary.json); each \
+         point names what limits the vials shipped.",
     ];
     h.push_str("<h2>Charts</h2>\n");
     for ((_, svg), cap) in charts.iter().zip(captions) {
@@ -419,7 +502,6 @@ mod tests {
             marginal_value_per_vial: mv,
             marginal_by_facility: Vec::new(),
             binding,
-            summary_json: b"{}\n".to_vec(),
         }
     }
 
@@ -453,6 +535,7 @@ mod tests {
             settings: vec!["policy.dooryard_share_min=0.3".into()],
             full_routes: false,
             variants,
+            plans: Vec::new(),
             saturation,
         }
     }
@@ -500,17 +583,16 @@ mod tests {
             [
                 "sweep.csv",
                 "sweep.html",
+                "sweep-shipped.svg",
                 "sweep-value.svg",
                 "sweep-marginal.svg",
                 "sweep-served.svg",
-                "variants/x0.5/summary.json",
-                "variants/x1/summary.json",
-                "variants/x2/summary.json"
             ]
         );
+        // Variant folders come from the plans (tests/sweep.rs renders a real sweep's).
         let html = String::from_utf8(files[1].1.clone()).unwrap();
         assert!(html.contains("Demo &lt;week&gt;") && !html.contains("Demo <week>"));
-        assert_eq!(html.matches("<svg").count(), 3);
+        assert_eq!(html.matches("<svg").count(), 4);
         assert!(html.contains("Saturation at 2×"));
     }
 }

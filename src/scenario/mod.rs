@@ -21,8 +21,8 @@ use geo::MultiPolygon;
 use serde::Serialize;
 
 pub use load::{
-    CsvLines, Source, SwallowedRow, limits, load, load_dir, load_embedded_demo, load_files,
-    parse_travel_matrix, show_value, swallowed_row,
+    CsvLines, SCENARIO_KEYS, Source, SwallowedRow, limits, load, load_dir, load_embedded_demo,
+    load_files, parse_travel_matrix, show_value, swallowed_row,
 };
 pub use problems::{InputError, Location, MAX_LISTED, Problem, Warning};
 

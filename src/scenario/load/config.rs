@@ -278,6 +278,45 @@ fn share(x: f64) -> Result<(), String> {
 }
 
 /// Parses `scenario.json`. `None` only when the text is not a JSON object at all.
+/// Every key path the loader reads from scenario.json (format v1, `docs/formats.md`), dotted
+/// from the top object. Other modules derive their key lists from it (e.g. the keys
+/// `--set` may change); a test below checks that the loader reads each one.
+pub const SCENARIO_KEYS: [&str; 33] = [
+    "name",
+    "week_start",
+    "agent.name",
+    "agent.shelf_life_hours",
+    "agent.survival.model",
+    "agent.survival.half_life_hours",
+    "agent.survival.points",
+    "agent.min_release_wasps",
+    "agent.target_release_wasps",
+    "agent.max_release_wasps",
+    "agent.above_target_weight",
+    "agent.pack_time",
+    "policy.dooryard_share_min",
+    "policy.dooryard_vials_per_request",
+    "policy.pesticide_exclusion_days",
+    "policy.require_flush",
+    "policy.pressure_radius_km",
+    "policy.pressure_bandwidth_km",
+    "policy.travel_cost_per_hour",
+    "policy.rerelease_interval_days",
+    "travel.circuity",
+    "travel.speed_kmh",
+    "travel.matrix",
+    "parcel.transit_hours",
+    "parcel.days",
+    "parcel.max_vials_per_day",
+    "parcel.ship_time",
+    "dispatch.service_minutes_block",
+    "dispatch.service_minutes_dooryard",
+    "dispatch.dooryard_window_start",
+    "dispatch.dooryard_window_end",
+    "dispatch.time_limit_seconds",
+    "dispatch.seed",
+];
+
 pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
     let root: Value = match serde_json::from_str(text) {
         Ok(v) => v,
@@ -457,17 +496,14 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         ),
         dooryard_window_start: d.time(sink, "dooryard_window_start", t(8, 0)),
         dooryard_window_end: d.time(sink, "dooryard_window_end", t(18, 0)),
-        time_limit_seconds: d
-            .get(sink, "time_limit_seconds", false)
-            .is_some()
-            .then(|| {
-                d.number(
-                    sink,
-                    "time_limit_seconds",
-                    None,
-                    positive_up_to(limits::MAX_TIME_LIMIT_SECONDS, "seconds"),
-                )
-            }),
+        time_limit_seconds: d.get(sink, "time_limit_seconds", false).is_some().then(|| {
+            d.number(
+                sink,
+                "time_limit_seconds",
+                None,
+                positive_up_to(limits::MAX_TIME_LIMIT_SECONDS, "seconds"),
+            )
+        }),
         seed: d.integer(sink, "seed", Some(1), 0, u64::MAX),
     };
     if dispatch.dooryard_window_start >= dispatch.dooryard_window_end {

@@ -34,6 +34,7 @@ pub use text::{CsvLines, SwallowedRow, swallowed_row};
 pub fn show_value(s: &str) -> String {
     fields::show(s)
 }
+pub use config::SCENARIO_KEYS;
 use text::{Sink, decode};
 
 /// Where a scenario comes from.
