@@ -45,7 +45,8 @@ pub struct PressureParams {
     pub weight_flush_infested: f64,
     /// Weight of one greening-positive tree (`greening_positive`). Default 5.0: a confirmed
     /// infection nearby makes suppressing the vector far more urgent (common practice; programs
-    /// treat around finds, FACTS.md "Monitoring").
+    /// treat around finds: a quarantine of 8 km radius and treatment within 250 m, program
+    /// practice reported in trade press, 2023).
     pub weight_greening_positive: f64,
     /// Age at which a scouting observation counts half, days (> 0). Default 14: about one
     /// psyllid generation in warm weather, after which a count says little about the nymphs
@@ -61,7 +62,8 @@ pub struct PressureParams {
     pub organic_multiplier: f64,
     /// Management multiplier for abandoned blocks. Default 2.0: unsprayed refuges where the
     /// psyllid breeds unchecked and re-infests managed groves; releases there both survive and
-    /// hit the source (FACTS.md: release programs target unmanaged citrus).
+    /// hit the source (release programs target unmanaged, abandoned and backyard citrus:
+    /// Parra et al., ESA 2015 abstract).
     pub abandoned_multiplier: f64,
     /// Management multiplier for dooryard requests. Default 1.5: backyard hosts are unsprayed
     /// (only insecticide-free requests are eligible), like organic blocks.
@@ -72,8 +74,8 @@ pub struct PressureParams {
     /// Default 0.6 (common practice).
     pub flush_light_multiplier: f64,
     /// Flush multiplier for `flush` = none, when `policy.require_flush` is off. Default 0.2:
-    /// no flush means no nymphs now, only later ones (FACTS.md: the psyllid lays eggs only on
-    /// flush).
+    /// no flush means no nymphs now, only later ones (the psyllid lays eggs only on flush;
+    /// common practice, from memory: a textbook fact of the pest's biology).
     pub flush_none_multiplier: f64,
     /// Priority added per whole week a request has waited since `received`. Default 0.02.
     pub wait_per_week: f64,

@@ -324,7 +324,8 @@ fn generated_plans_keep_every_rule() {
         ]);
         let n = check_plan(&scen, &out);
         // A plan that ships nothing would pass every per-row rule: 400 sites with scarce
-        // supply get dozens of shipments (40 and more measured for these seeds).
-        assert!(n > 20, "seed {seed}: only {n} manifest rows checked");
+        // supply get dozens of shipments (20 and more measured for these seeds with one
+        // release per site).
+        assert!(n >= 15, "seed {seed}: only {n} manifest rows checked");
     }
 }

@@ -1,4 +1,4 @@
-//! Outputs of `plan`: every file of the output contract in DESIGN.md, rendered to bytes, and
+//! Outputs of `plan`: every file of the output contract (`docs/outputs.md`), rendered to bytes, and
 //! an atomic directory writer so that a folder is never left half-written.
 //!
 //! [`render_all`] turns a [`PlanView`] into `(file name, bytes)` pairs; [`write_dir_atomically`]
@@ -112,8 +112,8 @@ pub const PAGE_SIZE: &str = "Letter portrait, 12 mm margins";
 /// The `@page` rule that sets [`PAGE_SIZE`]; every HTML output starts its stylesheet with it.
 pub const PAGE_CSS: &str = "@page { size: letter portrait; margin: 12mm; }\n";
 
-/// The cautions shown at the foot of every route sheet and in the report (DESIGN.md,
-/// "Cautions the tool must show").
+/// The cautions shown on every route sheet and in the report (common practice: permits,
+/// insecticide re-entry intervals, heat in vehicles; each defers to local rules).
 pub const CAUTIONS: [&str; 4] = [
     "Follow the release permits and local rules of your jurisdiction.",
     "Do not enter a treated block before its re-entry interval ends.",
