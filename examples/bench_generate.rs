@@ -1,7 +1,7 @@
 //! Times the seeded scenario generator at benchmark sizes and prints a markdown table.
 //! `cargo run --release --example bench_generate -- [RUNS]` (default 3 runs per size; the
 //! table gives the fastest and the median, and each size's time relative to 1,000 sites,
-//! measured in the same run). This replaces a timed assertion that was in tests/demo_files.rs:
+//! measured in the same run). This replaces a timed assertion that was in tests/it/demo_files.rs:
 //! a test's verdict must not depend on the machine's speed.
 use std::time::Instant;
 

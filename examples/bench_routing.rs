@@ -6,7 +6,7 @@
 //!
 //! Sources: TSPLIB95 (Reinelt 1991) optima in `tests/data/tsplib/optima.csv`; Solomon (1987)
 //! best-known / optimal solutions in `tests/data/solomon/bks.csv` (sources in their columns).
-//! Parsers here repeat those in `tests/routing.rs` on purpose: the tests keep their own.
+//! Parsers here repeat those in `tests/it/routing.rs` on purpose: the tests keep their own.
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};

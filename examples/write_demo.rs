@@ -2,7 +2,7 @@
 //!
 //! - `cargo run --example write_demo` writes `generate(&GenParams::demo())` into
 //!   `scenarios/demo/` (the README there is hand-written and left alone).
-//!   `tests/demo_files.rs` fails until this has been run after a change to the generator.
+//!   `tests/it/demo_files.rs` fails until this has been run after a change to the generator.
 //! - `cargo run --release --example write_demo -- --sites 35000 [--seed 1] --out DIR` writes
 //!   `generate(&GenParams::sized(35000, 1))` into DIR and reports the generation time.
 

@@ -3,7 +3,7 @@
 //! This list is the one source of truth for `broodcast plan` without a folder and for
 //! `broodcast demo --out DIR`. The data files are the output of
 //! [`generate`](crate::generate::generate) for [`GenParams::demo`](crate::generate::GenParams::demo)
-//! (regenerate with `cargo run --example write_demo`); `tests/demo_files.rs` checks they match
+//! (regenerate with `cargo run --example write_demo`); `tests/it/demo_files.rs` checks they match
 //! byte for byte. All data in them are invented, in an invented region.
 
 /// `(file name, contents)` of every file in `scenarios/demo/`, in the order a folder listing

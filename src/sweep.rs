@@ -669,7 +669,7 @@ pub fn sweep(
 
 /// Delivered totals of a plan, counted as `summary.json` counts them (route stops and
 /// parcels; undeliverable shipments left out): (vials, blocks served, requests served, live
-/// wasps). `tests/sweep.rs` checks they equal the variant's `summary.json`. O(stops + parcels).
+/// wasps). `tests/it/sweep.rs` checks they equal the variant's `summary.json`. O(stops + parcels).
 fn delivered(p: &Plan) -> (u64, usize, usize, f64) {
     let mut vials_at = vec![0u64; p.scenario.sites.len()];
     let (mut vials, mut wasps) = (0u64, 0.0);

@@ -66,7 +66,7 @@ const MAP_H_MAX: f64 = 330.0;
 /// Shortest map, SVG user units (45 mm printed), for routes that fill the page.
 const MAP_H_MIN: f64 = 165.0;
 /// Most stops whose sheet prints on one page (measured in headless Chromium on Letter and
-/// on A4, `tests/outputs.rs`): the map shrinks to its smallest height to make room.
+/// on A4, `tests/it/outputs.rs`): the map shrinks to its smallest height to make room.
 pub const ONE_PAGE_STOPS: usize = 14;
 
 /// Map height for a route of `stops` stops: full height up to 7 stops, then 9 mm less per

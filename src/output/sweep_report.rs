@@ -589,7 +589,7 @@ mod tests {
                 "sweep-served.svg",
             ]
         );
-        // Variant folders come from the plans (tests/sweep.rs renders a real sweep's).
+        // Variant folders come from the plans (tests/it/sweep.rs renders a real sweep's).
         let html = String::from_utf8(files[1].1.clone()).unwrap();
         assert!(html.contains("Demo &lt;week&gt;") && !html.contains("Demo <week>"));
         assert_eq!(html.matches("<svg").count(), 4);

@@ -1,7 +1,7 @@
 //! Inputs past the documented limits (docs/formats.md, "Limits") fail fast through the binary:
 //! exit 2, the file and place named, the limit stated with the fix, nothing written.
 
-mod util;
+use crate::util;
 
 use std::fs::{self, File};
 use std::path::Path;

@@ -7,7 +7,7 @@ use std::fs;
 use std::path::{Path, PathBuf};
 use std::process::Output;
 
-mod util;
+use crate::util;
 use util::{run, run_ok};
 
 fn s(p: &Path) -> &str {

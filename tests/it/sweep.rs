@@ -8,7 +8,7 @@ use broodcast::plan::{self, PlanOptions};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{self, Multiplier, Sweep, SweepSpec};
 
-mod util;
+use crate::util;
 use util::{generated, run, run_ok};
 
 fn spec(supply: &str, without: &[&str]) -> SweepSpec {

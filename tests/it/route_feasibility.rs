@@ -8,7 +8,7 @@
 //! tests with mixed capacities, shift starts, shift lengths and running days, on planned
 //! generated weeks, and on the hand-built regression case of the tail-exchange defect.
 
-mod util;
+use crate::util;
 
 use std::collections::BTreeSet;
 

@@ -1,7 +1,7 @@
 //! Loader integration tests: the minimal folder loads; every defect in the case table is
 //! reported with its file and line/feature; all problems are collected; nothing panics.
 
-mod util;
+use crate::util;
 
 use std::fs;
 use std::path::Path;

@@ -14,7 +14,7 @@ use broodcast::arcs::Arcs;
 use broodcast::plan::{self, PlanOptions};
 use broodcast::scenario::{self, Scenario};
 
-mod util;
+use crate::util;
 use util::generated;
 
 fn with(solver: Solver) -> AllocOptions {

@@ -3,7 +3,7 @@
 //! deterministic, hostile ids are escaped, and route sheets print one page per route in
 //! Chromium (skipped when Chromium or poppler's `pdfinfo` is absent).
 
-mod util;
+use crate::util;
 
 use std::collections::BTreeMap;
 use std::path::Path;

@@ -4,7 +4,7 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-mod util;
+use crate::util;
 use util::{run, run_ok};
 
 const OUTPUTS: [&str; 7] = [

@@ -7,7 +7,7 @@
 //! message. Published check value: Vincenty's inverse worked example, Flinders Peak to
 //! Buninyong.
 
-mod util;
+use crate::util;
 
 use std::io::Write;
 use std::path::PathBuf;

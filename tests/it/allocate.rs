@@ -14,7 +14,7 @@ use broodcast::eligibility::Reason;
 use broodcast::scenario::{Override, OverrideAction, Scenario, SiteKind, Supply};
 use proptest::prelude::*;
 
-mod util;
+use crate::util;
 
 /// Hillier & Lieberman, *Introduction to Operations Research* (transportation-problem
 /// chapter, the P&T Company canneries-to-warehouses worked example; 7th ed. and later),

@@ -8,7 +8,7 @@ use std::time::{Duration, Instant};
 
 use chrono::NaiveDate;
 
-mod util;
+use crate::util;
 use util::{bin, run, run_ok};
 
 fn s(p: &Path) -> &str {

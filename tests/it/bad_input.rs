@@ -2,7 +2,7 @@
 //! line (or feature, or key), and nothing written. The defect table is shared with
 //! `tests/loader.rs` (`tests/util`).
 
-mod util;
+use crate::util;
 
 use std::path::PathBuf;
 use std::process::Command;

@@ -5,7 +5,7 @@
 //! Any input the fuzzer finds that breaks the oracle is fixed in the loader and pinned as a
 //! regression case at the end of this file.
 
-#[path = "../fuzz/src/oracle.rs"]
+#[path = "../../fuzz/src/oracle.rs"]
 #[allow(dead_code)]
 mod oracle;
 
