@@ -123,13 +123,17 @@ pub fn plan_with(
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     let second_dispatch = route(&second);
-    let (allocation, dispatch) = if second_dispatch.undeliverable.is_empty() {
-        (second, second_dispatch)
-    } else {
-        for u in &second_dispatch.undeliverable {
-            let s = &second.shipments[u.shipment];
+    // A stop the re-planned routes cannot serve is dropped with its site; routing the smaller
+    // plan can still leave a stop out (routes change when stops go), so repeat until every
+    // vial the objective counts is delivered. Each pass removes at least one site, so this ends.
+    let (mut allocation, mut dispatch) = (second, second_dispatch);
+    let mut after = "re-planning";
+    while !dispatch.undeliverable.is_empty() {
+        let dropped: Vec<usize> = dispatch.undeliverable.iter().map(|u| u.shipment).collect();
+        for u in &dispatch.undeliverable {
+            let s = &allocation.shipments[u.shipment];
             moved.push(format!(
-                "{} {}: {} vials dropped after re-planning ({}); they stay at {}",
+                "{} {}: {} vials dropped after {after} ({}); they stay at {}",
                 scenario.sites[s.arc.site].kind().as_str(),
                 scenario.sites[s.arc.site].id,
                 s.vials,
@@ -137,42 +141,17 @@ pub fn plan_with(
                 scenario.facilities[s.arc.facility].id
             ));
         }
-        let dropped: Vec<usize> = second_dispatch
-            .undeliverable
-            .iter()
-            .map(|u| u.shipment)
-            .collect();
-        let mut allocation =
-            drop_undeliverable(&scenario, &priority, &arcs, &alloc_opts, second, &dropped)?;
-        let mut dispatch = route(&allocation);
-        // Routing the smaller plan can still leave a stop out (routes change when stops go).
-        // The objective must count only what is delivered, so drop those too; each pass
-        // removes at least one site, so this ends.
-        while !dispatch.undeliverable.is_empty() {
-            let dropped: Vec<usize> = dispatch.undeliverable.iter().map(|u| u.shipment).collect();
-            for u in &dispatch.undeliverable {
-                let s = &allocation.shipments[u.shipment];
-                moved.push(format!(
-                    "{} {}: {} vials dropped after re-routing ({}); they stay at {}",
-                    scenario.sites[s.arc.site].kind().as_str(),
-                    scenario.sites[s.arc.site].id,
-                    s.vials,
-                    u.reason,
-                    scenario.facilities[s.arc.facility].id
-                ));
-            }
-            allocation = drop_undeliverable(
-                &scenario,
-                &priority,
-                &arcs,
-                &alloc_opts,
-                allocation,
-                &dropped,
-            )?;
-            dispatch = route(&allocation);
-        }
-        (allocation, dispatch)
-    };
+        allocation = drop_undeliverable(
+            &scenario,
+            &priority,
+            &arcs,
+            &alloc_opts,
+            allocation,
+            &dropped,
+        )?;
+        dispatch = route(&allocation);
+        after = "re-routing";
+    }
     Ok(Plan {
         scenario,
         priority,

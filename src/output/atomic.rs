@@ -256,7 +256,7 @@ fn check_relative(name: &str) -> io::Result<()> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
 
     fn files(n: &str) -> Vec<(String, Vec<u8>)> {
@@ -266,7 +266,8 @@ mod tests {
         ]
     }
 
-    fn entries(dir: &Path) -> Vec<String> {
+    /// Names in `dir`, sorted (shared with `target`'s tests).
+    pub(in crate::output) fn entries(dir: &Path) -> Vec<String> {
         let mut v: Vec<String> = fs::read_dir(dir)
             .unwrap()
             .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())

@@ -598,21 +598,13 @@ impl fmt::Display for FolderPlan {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::output::atomic::tests::entries as names;
 
     fn files(tag: &str) -> Vec<(String, Vec<u8>)> {
         vec![
             ("a.csv".into(), tag.as_bytes().to_vec()),
             ("sub/b.txt".into(), b"b".to_vec()),
         ]
-    }
-
-    fn names(dir: &Path) -> Vec<String> {
-        let mut v: Vec<String> = fs::read_dir(dir)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .collect();
-        v.sort();
-        v
     }
 
     #[test]
