@@ -21,6 +21,13 @@ pub enum Place {
 pub trait TravelTimes {
     /// Drive minutes from `from` to `to` (finite, ≥ 0; 0 from a place to itself).
     fn minutes(&self, from: Place, to: Place) -> f64;
+
+    /// The driven path from `from` to `to` as longitude/latitude points (degrees, WGS 84),
+    /// for maps and navigation files. Empty when the model has no geometry; otherwise it
+    /// starts at `from` and ends at `to`. The geodesic model gives the straight segment.
+    fn leg_path(&self, _from: Place, _to: Place) -> Vec<LonLat> {
+        Vec::new()
+    }
 }
 
 /// The scenario's travel model.
@@ -100,5 +107,9 @@ impl TravelTimes for TravelModel {
             return self.matrix[i][j];
         }
         self.road_km(from, to) / self.speed_kmh * 60.0
+    }
+
+    fn leg_path(&self, from: Place, to: Place) -> Vec<LonLat> {
+        vec![self.location(from), self.location(to)]
     }
 }

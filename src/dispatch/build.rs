@@ -13,7 +13,7 @@ use super::vrptw::{self, Customer, Instance, SolveOptions, VehicleSpec};
 use super::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::allocate::Allocation;
 use crate::arcs::Mode;
-use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
+use crate::scenario::{FacilityIdx, LonLat, Scenario, SiteIdx};
 use crate::travel::{Place, TravelTimes};
 
 /// Route-search settings for [`dispatch_with`].
@@ -282,6 +282,7 @@ fn route_depot_day(
                 });
             }
         }
+        let path = route_path(travel, facility, &plan.customers, &visit_list);
         out.routes.push(Route {
             id: format!("R-{}-{}-{}", depot_id, date.format("%Y%m%d"), n + 1),
             vehicle: fleet[plan.vehicle],
@@ -291,6 +292,7 @@ fn route_depot_day(
             return_at: at_minutes(base, plan.return_at),
             stops,
             drive_minutes: plan.drive_minutes,
+            path,
         });
     }
     for &(node, why) in &sol.unserved {
@@ -632,4 +634,36 @@ mod tests {
             vec![(1, "capacity"), (2, "window"), (3, "deadline")]
         );
     }
+}
+
+/// The driven path of one route: the travel model's leg paths from the depot through the
+/// stops (`customers` are 1-based nodes into `visit_list`) and back, joined without repeating
+/// the shared end points. Empty when any leg has no geometry.
+fn route_path(
+    travel: &impl TravelTimes,
+    depot: FacilityIdx,
+    customers: &[usize],
+    visit_list: &[(SiteIdx, &Vec<usize>)],
+) -> Vec<LonLat> {
+    let places: Vec<Place> = std::iter::once(Place::Facility(depot))
+        .chain(
+            customers
+                .iter()
+                .map(|&node| Place::Site(visit_list[node - 1].0)),
+        )
+        .chain(std::iter::once(Place::Facility(depot)))
+        .collect();
+    let mut path: Vec<LonLat> = Vec::new();
+    for leg in places.windows(2) {
+        let points = travel.leg_path(leg[0], leg[1]);
+        if points.is_empty() {
+            return Vec::new();
+        }
+        for p in points {
+            if path.last() != Some(&p) {
+                path.push(p);
+            }
+        }
+    }
+    path
 }

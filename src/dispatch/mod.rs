@@ -2,7 +2,7 @@
 
 use chrono::{NaiveDate, NaiveDateTime};
 
-use crate::scenario::{FacilityIdx, SiteIdx};
+use crate::scenario::{FacilityIdx, LonLat, SiteIdx};
 
 /// One stop on a route.
 #[derive(Clone, Debug, PartialEq)]
@@ -42,6 +42,10 @@ pub struct Route {
     pub stops: Vec<Stop>,
     /// Total driving, minutes (excluding service and waiting).
     pub drive_minutes: f64,
+    /// The driven path, depot → stops in order → depot, as longitude/latitude points
+    /// (degrees, WGS 84) joined from the travel model's leg paths; consecutive duplicate
+    /// points are dropped. Empty when the travel model has no geometry.
+    pub path: Vec<LonLat>,
 }
 
 impl Route {

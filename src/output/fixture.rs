@@ -118,6 +118,7 @@ pub fn tiny_plan() -> TinyPlan {
                 stop(1, at(tue, 8, 25), at(tue, 8, 25)),
             ],
             drive_minutes: 60.0,
+            path: Vec::new(),
         },
         Route {
             id: "R-F2-20270304-1".into(),
@@ -131,6 +132,7 @@ pub fn tiny_plan() -> TinyPlan {
                 stop(6, at(thu, 8, 45), at(thu, 8, 45)),
             ],
             drive_minutes: 55.0,
+            path: Vec::new(),
         },
     ];
     let parcel = &shipments[4];
