@@ -465,6 +465,38 @@ fn dispatch_parcels(
     }
 }
 
+/// The driven path of one route: the travel model's leg paths from the depot through the
+/// stops (`customers` are 1-based nodes into `visit_list`) and back, joined without repeating
+/// the shared end points. Empty when any leg has no geometry.
+fn route_path(
+    travel: &impl TravelTimes,
+    depot: FacilityIdx,
+    customers: &[usize],
+    visit_list: &[(SiteIdx, &Vec<usize>)],
+) -> Vec<LonLat> {
+    let places: Vec<Place> = std::iter::once(Place::Facility(depot))
+        .chain(
+            customers
+                .iter()
+                .map(|&node| Place::Site(visit_list[node - 1].0)),
+        )
+        .chain(std::iter::once(Place::Facility(depot)))
+        .collect();
+    let mut path: Vec<LonLat> = Vec::new();
+    for leg in places.windows(2) {
+        let points = travel.leg_path(leg[0], leg[1]);
+        if points.is_empty() {
+            return Vec::new();
+        }
+        for p in points {
+            if path.last() != Some(&p) {
+                path.push(p);
+            }
+        }
+    }
+    path
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -634,36 +666,4 @@ mod tests {
             vec![(1, "capacity"), (2, "window"), (3, "deadline")]
         );
     }
-}
-
-/// The driven path of one route: the travel model's leg paths from the depot through the
-/// stops (`customers` are 1-based nodes into `visit_list`) and back, joined without repeating
-/// the shared end points. Empty when any leg has no geometry.
-fn route_path(
-    travel: &impl TravelTimes,
-    depot: FacilityIdx,
-    customers: &[usize],
-    visit_list: &[(SiteIdx, &Vec<usize>)],
-) -> Vec<LonLat> {
-    let places: Vec<Place> = std::iter::once(Place::Facility(depot))
-        .chain(
-            customers
-                .iter()
-                .map(|&node| Place::Site(visit_list[node - 1].0)),
-        )
-        .chain(std::iter::once(Place::Facility(depot)))
-        .collect();
-    let mut path: Vec<LonLat> = Vec::new();
-    for leg in places.windows(2) {
-        let points = travel.leg_path(leg[0], leg[1]);
-        if points.is_empty() {
-            return Vec::new();
-        }
-        for p in points {
-            if path.last() != Some(&p) {
-                path.push(p);
-            }
-        }
-    }
-    path
 }
