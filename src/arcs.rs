@@ -89,12 +89,12 @@ pub enum Pruning {
     /// not a lossless reduction: see `docs/model.md`.
     FreshestDispatchDays,
     /// Only each pack day's freshest dispatch: about one arc per (facility, pack day, mode).
-    /// Smallest LP; loses holding vials for a later vehicle when a day's capacity binds. The
-    /// default: with a few facilities, five pack days and two modes, the other rules give the
-    /// LP 25–55 arcs a site and make it an order of magnitude slower at 5,000 sites.
-    #[default]
+    /// Smallest pool; loses holding vials for a later vehicle when a day's capacity binds.
     FreshestPerPackDay,
-    /// Every feasible pair (the full model; for checks and small scenarios).
+    /// Every feasible pair: the whole problem. The default: working-set pricing keeps the LP
+    /// small (arcs that do not pay never enter it), so the pool's size costs only the pricing
+    /// passes, and the bounds hold for the user's whole problem.
+    #[default]
     None,
 }
 
