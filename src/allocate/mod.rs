@@ -122,6 +122,9 @@ pub struct AllocOptions {
     /// Most rounding moves evaluated (default 20 million): a work budget, not a time limit,
     /// so the plan does not depend on machine speed.
     pub rounding_budget: u64,
+    /// Most subgradient steps that tighten the whole-vial bound from the LP's duals (default
+    /// 40): a work limit; 0 keeps the bound at the LP duals.
+    pub bound_steps: usize,
     /// Arcs (indices into `Arcs::arcs`) to put in the LP's first working set besides the
     /// usual choice, e.g. [`Allocation::working_set`] of an earlier solve of the same week.
     /// Pricing still certifies the bound over every arc, so the optimum is the same.
@@ -139,6 +142,7 @@ impl Default for AllocOptions {
             pricing: true,
             direct_max_arcs: 4_500,
             rounding_budget: 20_000_000,
+            bound_steps: 40,
             warm_start: BTreeSet::new(),
             solver: model::Solver::default(),
         }
@@ -282,6 +286,24 @@ fn objective_of(inst: &lp::Instance, scenario: &Scenario, shipments: &[Shipment]
         total += inst.site_value(sp, e[site.site], v[site.site]);
     }
     total
+}
+
+/// Relative gap above which a second rounding starts from the Lagrangian releases.
+const GUIDE_GAP: f64 = 0.002;
+
+/// The shipments of whole vials `x` per arc of `inst`, in [`Shipment::order_key`] order.
+fn shipments_of(inst: &lp::Instance, x: &[u32]) -> Vec<Shipment> {
+    let mut shipments: Vec<Shipment> = x
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| **v > 0)
+        .map(|(a, &v)| Shipment {
+            arc: inst.arcs[a].clone(),
+            vials: v,
+        })
+        .collect();
+    shipments.sort_by_key(Shipment::order_key);
+    shipments
 }
 
 /// The LP relaxation over every usable arc, as free MPS (maximisation, `OBJSENSE MAX`), with
@@ -437,22 +459,32 @@ pub fn allocate(
                         }))
             })
             .collect();
-        let x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
-        let bound =
-            bound::whole_vial_bound(&inst, &relax.res_dual, relax.share_dual).min(sol.objective);
+        let mut x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
+        let lower = objective_of(&inst, scenario, &shipments_of(&inst, &x));
+        let (bound, guide) = bound::whole_vial_bound(
+            &inst,
+            &relax.res_dual,
+            relax.share_dual,
+            lower,
+            opts.bound_steps,
+        );
+        let bound = bound.min(sol.objective);
+        // A second rounding from the Lagrangian releases, kept when it is better: where the
+        // LP spreads vials that whole releases cannot split, it starts from whole releases.
+        if let Some(guide) = guide.filter(|_| gap(lower, bound) > GUIDE_GAP) {
+            let cand2: Vec<bool> = (0..inst.sites.len())
+                .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| guide[a] > 0.0))
+                .collect();
+            let x2 = rounding::round(&inst, &guide, &cand2, opts.rounding_budget);
+            let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
+            if second > lower + 1e-9 * lower.abs().max(1.0) {
+                x = x2;
+            }
+        }
         working_set = relax.working_set.clone();
         (x, sol.objective, bound, marginal, binding)
     };
-    let mut shipments: Vec<Shipment> = x
-        .iter()
-        .enumerate()
-        .filter(|(_, v)| **v > 0)
-        .map(|(a, &v)| Shipment {
-            arc: inst.arcs[a].clone(),
-            vials: v,
-        })
-        .collect();
-    shipments.sort_by_key(Shipment::order_key);
+    let shipments = shipments_of(&inst, &x);
     let objective = objective_of(&inst, scenario, &shipments);
     let mut vials = vec![0u32; n];
     let mut alive = vec![0.0; n];
