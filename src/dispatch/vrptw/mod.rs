@@ -118,21 +118,22 @@ pub struct SolveOptions {
     pub max_iterations: u32,
     /// Nearest neighbours per customer considered by the local search (≥ 1).
     pub neighbours: usize,
-    /// Stop after this many perturbation rounds in a row without a new best solution
-    /// (`u32::MAX`: never). Small depot-days converge long before `max_iterations`.
+    /// Stop after this many perturbation rounds in a row without a new best solution, or 30
+    /// per customer when that is fewer (`u32::MAX`: 30 per customer). Small depot-days
+    /// converge long before `max_iterations`.
     pub stall_rounds: u32,
 }
 
 impl Default for SolveOptions {
-    /// Seed 1, no time limit, 3,000 rounds, 12 neighbours, stop after 1,000 rounds without a
-    /// new best.
+    /// Seed 1, no time limit, 6,000 rounds, 12 neighbours, stop after 3,000 rounds without a
+    /// new best (30 per customer when that is fewer).
     fn default() -> Self {
         SolveOptions {
             seed: 1,
             time_limit: None,
-            max_iterations: 3_000,
+            max_iterations: 6_000,
             neighbours: 12,
-            stall_rounds: 1_000,
+            stall_rounds: 3_000,
         }
     }
 }
