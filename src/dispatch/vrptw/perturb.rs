@@ -1,13 +1,18 @@
 //! Perturbation for the iterated local search: ruin a neighbourhood, recreate with a choice of
 //! vehicle.
 //!
-//! Two ruins, chosen at random each round:
+//! Three ruins, chosen at random each round:
 //! * **radial** — a customer and its nearest served neighbours (3–15 customers);
 //! * **strings** — 1–3 runs of consecutive customers, each from a different route, met while
 //!   walking out from a random customer through its neighbours (the string removal of
 //!   Christiaens & Vanden Berghe 2020, "Slack induction by string removals for vehicle routing
 //!   problems", Transportation Science 54(2)). Removing whole stretches frees the time between
-//!   them, which a radial ruin on wide windows rarely does.
+//!   them, which a radial ruin on wide windows rarely does;
+//! * **route** (one round in ten, when two or more routes run) — every customer of the
+//!   shorter-listed of two random routes. They are put back first onto the other routes only
+//!   (a route may still move to an unused vehicle of another kind), and only those that fit
+//!   nowhere may open a vehicle; so the search can reach a solution with one vehicle fewer
+//!   that no single move reaches, e.g. two nearly full vehicles where it had three.
 //!
 //! Two recreates, also at random:
 //! * **greedy** — customers one at a time in a random, far-first, tightest-window-first or
@@ -35,7 +40,19 @@ impl State<'_> {
             return changed;
         }
         let centre = served[rng.usize(..served.len())];
-        let removed = if rng.bool() {
+        let used: Vec<usize> = (0..self.routes.len())
+            .filter(|&r| !self.routes[r].nodes.is_empty())
+            .collect();
+        let whole_route = used.len() >= 2 && rng.usize(..10) == 0;
+        let removed = if whole_route {
+            let (a, b) = (used[rng.usize(..used.len())], used[rng.usize(..used.len())]);
+            let r = if self.routes[b].nodes.len() < self.routes[a].nodes.len() {
+                b
+            } else {
+                a
+            };
+            self.routes[r].nodes.clone()
+        } else if rng.bool() {
             self.radial(centre, rng.usize(3..=15).min(served.len()))
         } else {
             self.strings(centre, rng)
@@ -44,14 +61,32 @@ impl State<'_> {
         let mut pending: Vec<usize> = removed;
         pending.append(&mut self.unserved);
         rng.shuffle(&mut pending);
-        let left = if rng.usize(..4) == 0 {
-            self.recreate_regret(pending, &mut changed)
-        } else {
-            self.order_pending(&mut pending, rng.usize(..4));
-            self.recreate_greedy(pending, &mut changed)
-        };
+        let regret = rng.usize(..4) == 0;
+        let order = rng.usize(..4);
+        let mut left = self.recreate(pending, regret, order, !whole_route, &mut changed);
+        if whole_route && !left.is_empty() {
+            left = self.recreate(left, regret, order, true, &mut changed);
+        }
         self.unserved = left;
         changed
+    }
+
+    /// Regret or greedy (in `order`, see [`State::order_pending`]) insertion of `pending`;
+    /// `open`: unused vehicles may be opened. Returns those that fit nowhere, ascending.
+    fn recreate(
+        &mut self,
+        mut pending: Vec<usize>,
+        regret: bool,
+        order: usize,
+        open: bool,
+        changed: &mut [bool],
+    ) -> Vec<usize> {
+        if regret {
+            self.recreate_regret(pending, open, changed)
+        } else {
+            self.order_pending(&mut pending, order);
+            self.recreate_greedy(pending, open, changed)
+        }
     }
 
     /// `centre` and its nearest served neighbours, `want` in all (fewer when it has fewer).
@@ -140,11 +175,17 @@ impl State<'_> {
         }
     }
 
-    /// Inserts `pending` in order, each at its cheapest place; returns those that fit nowhere.
-    fn recreate_greedy(&mut self, pending: Vec<usize>, changed: &mut [bool]) -> Vec<usize> {
+    /// Inserts `pending` in order, each at its cheapest place (`open`: unused vehicles may be
+    /// opened); returns those that fit nowhere.
+    fn recreate_greedy(
+        &mut self,
+        pending: Vec<usize>,
+        open: bool,
+        changed: &mut [bool],
+    ) -> Vec<usize> {
         let mut left = Vec::new();
         for u in pending {
-            match self.cheapest_place(u) {
+            match self.cheapest_place(u, open) {
                 Some((_, r, k, v)) => self.place(u, (0.0, r, k, v), changed),
                 None => left.push(u),
             }
@@ -153,9 +194,15 @@ impl State<'_> {
         left
     }
 
-    /// Regret-2 insertion of `pending` (see the module doc); returns those that fit nowhere.
+    /// Regret-2 insertion of `pending` (see the module doc; `open`: unused vehicles may be
+    /// opened); returns those that fit nowhere.
     /// O(p² · (routes + kinds) · L) for p pending customers.
-    fn recreate_regret(&mut self, mut pending: Vec<usize>, changed: &mut [bool]) -> Vec<usize> {
+    fn recreate_regret(
+        &mut self,
+        mut pending: Vec<usize>,
+        open: bool,
+        changed: &mut [bool],
+    ) -> Vec<usize> {
         let mut left = Vec::new();
         while !pending.is_empty() {
             // (regret, cheapest place, index in pending); a customer with one place has
@@ -164,7 +211,7 @@ impl State<'_> {
             let mut stuck = Vec::new();
             for (i, &u) in pending.iter().enumerate() {
                 let (mut first, mut second): (Option<Place>, f64) = (None, f64::INFINITY);
-                for p in self.places(u) {
+                for p in self.places(u, open) {
                     match first {
                         Some(f) if p.0 < f.0 - EPS => {
                             second = f.0;
@@ -198,9 +245,13 @@ impl State<'_> {
         left
     }
 
-    /// The cheapest place for `u` on each route and each kind of unused vehicle.
-    fn places(&self, u: usize) -> Vec<Place> {
-        let fresh = self.empty_kinds(&[]);
+    /// The cheapest place for `u` on each route and, when `open`, each kind of unused vehicle.
+    fn places(&self, u: usize, open: bool) -> Vec<Place> {
+        let fresh = if open {
+            self.empty_kinds(&[])
+        } else {
+            Vec::new()
+        };
         (0..self.routes.len())
             .filter(|&r| !self.routes[r].nodes.is_empty() || fresh.contains(&r))
             .filter_map(|r| self.best_insert(r, u).map(|(add, k, v)| (add, r, k, v)))
