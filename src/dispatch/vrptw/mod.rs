@@ -33,10 +33,11 @@
 //!   two vehicles may swap or one route may move to an unused vehicle of another kind (one of
 //!   each distinct capacity, start and latest return is tried). One pass is O(n · k · L) for
 //!   route length L (O(n · k) for moves between routes, times the kinds tried on a failure).
-//! * `perturb.rs` — the perturbation: ruin a customer's neighbourhood (3–15 nearest) or 1–3
-//!   strings of consecutive customers from different routes (string removal), then recreate
-//!   greedily in one of four orders or by regret-2 insertion; routes may move to an unused
-//!   vehicle of another kind, and one unused vehicle of each kind is tried.
+//! * `perturb.rs` — the perturbation: ruin a customer's neighbourhood (3–15 nearest), 1–3
+//!   strings of consecutive customers from different routes (string removal) or, one round in
+//!   ten, a whole route; then recreate greedily in one of four orders or by regret-2
+//!   insertion; routes may move to an unused vehicle of another kind, and one unused vehicle
+//!   of each kind is tried (after a whole-route ruin, only for customers no route can take).
 //! * `search.rs` — the driver: the best construction, then two independent searches with
 //!   their own seeds, then the better of them goes on; each round perturbs and runs the local
 //!   search, and a late-acceptance rule (Burke & Bykov 2017, "The late acceptance
