@@ -2,14 +2,19 @@
 //! broodcast's own result on each, as JSON lines.
 //!
 //! `cargo run --release --example bench_routing_peers -- [--out FILE] [--weeks 0:1,1500:2]
-//! [--solomon C101,R101] [--seeds 1,2] [--iterations N]`
+//! [--busy 1,2] [--solomon C101,R101] [--seeds 1,2] [--day-seeds 1] [--iterations N]`
 //!
 //! Instances: the route depot-days of planned generated weeks (`SITES:SEED`; SITES 0 is the
-//! demo's shape with that seed; mixed fleets from the generator; `dispatch::depot_day_instances` of the final allocation) and the 100-customer
+//! demo's shape with that seed; mixed fleets from the generator;
+//! `dispatch::depot_day_instances` of the final allocation), the depot-days of *busy* weeks
+//! (`--busy SEED,...`: the demo's region with 2 depots, 10 vehicles, 600 blocks, 400
+//! requests and five times the supply, so a depot-day holds 20–45 stops and more vials than
+//! most single vehicles carry, and needs several of its depot's mixed vehicles) and the 100-customer
 //! Solomon files in `tests/data/solomon/`. Every time, distance and window is scaled by 100
 //! and rounded to an integer *before* any solver sees it (PyVRP and VROOM take integers), so
 //! all solvers solve the same numbers. broodcast runs with its default work limits (no time
-//! limit), one seed per `--seeds` entry, one thread.
+//! limit), one seed per `--seeds` entry (`--day-seeds` for depot-days; default the same),
+//! one thread.
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -161,7 +166,9 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut names: Vec<String> = ["C101", "C201", "R101", "R201", "RC101", "RC201"]
         .map(String::from)
         .to_vec();
+    let mut busy: Vec<u64> = Vec::new();
     let mut seeds = vec![1u64];
+    let mut day_seeds: Option<Vec<u64>> = None;
     let mut iterations = SolveOptions::default().max_iterations;
     while let Some(a) = args.next() {
         let v = args.next().ok_or(format!("{a} needs a value"))?;
@@ -184,7 +191,17 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                     .map(String::from)
                     .collect()
             }
+            "--busy" => {
+                busy = v
+                    .split(',')
+                    .filter(|s| !s.is_empty())
+                    .map(str::parse)
+                    .collect::<Result<_, _>>()?
+            }
             "--seeds" => seeds = v.split(',').map(str::parse).collect::<Result<_, _>>()?,
+            "--day-seeds" => {
+                day_seeds = Some(v.split(',').map(str::parse).collect::<Result<_, _>>()?)
+            }
             "--iterations" => iterations = v.parse()?,
             other => return Err(format!("unknown argument {other}; see the file's doc").into()),
         }
@@ -196,6 +213,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         writeln!(f, "{}", record(name, "solomon", &inst, &seeds, iterations))?;
         eprintln!("{name}");
     }
+    let day_seeds = day_seeds.unwrap_or_else(|| seeds.clone());
+    let mut all: Vec<(String, &str, GenParams)> = Vec::new();
     for (sites, seed) in weeks {
         let params = if sites == 0 {
             GenParams {
@@ -205,6 +224,21 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         } else {
             GenParams::sized(sites, seed)
         };
+        all.push((format!("week {sites}/{seed}"), "depot-day", params));
+    }
+    for seed in busy {
+        let params = GenParams {
+            seed,
+            facilities: 2,
+            vehicles: 10,
+            blocks: 600,
+            requests: 400,
+            supply_scale: 5.0,
+            ..GenParams::demo()
+        };
+        all.push((format!("busy {seed}"), "busy-day", params));
+    }
+    for (label, kind, params) in all {
         let s = generate::load(&params)?;
         let p = plan::plan(s, &PlanOptions::default())?;
         let travel = TravelModel::new(&p.scenario);
@@ -212,17 +246,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             if inst.customers.is_empty() {
                 continue;
             }
-            let name = format!(
-                "week {sites}/{seed} {} {date}",
-                p.scenario.facilities[depot].id.0
-            );
-            writeln!(
-                f,
-                "{}",
-                record(&name, "depot-day", &inst, &seeds, iterations)
-            )?;
+            let name = format!("{label} {} {date}", p.scenario.facilities[depot].id.0);
+            writeln!(f, "{}", record(&name, kind, &inst, &day_seeds, iterations))?;
         }
-        eprintln!("week {sites}/{seed}");
+        eprintln!("{label}");
     }
     f.flush()?;
     eprintln!("wrote {}", out.display());

@@ -193,11 +193,14 @@ def table(rows, args):
         f"depot-day; broodcast with its default work limits (no time limit). Drive in minutes "
         f"(Solomon: distance) after scaling by 100 and rounding; PyVRP and broodcast figures "
         f"are means over {n_seeds} seed(s). `ok` = routes that pass the independent check / "
-        f"all routes. Ratio = broodcast ÷ best peer.\n"
+        f"all routes. Ratio = broodcast ÷ best peer. Spread = largest minus smallest drive over "
+        f"the seeds (broodcast / PyVRP).\n"
     )
-    out.append("| instance | stops | broodcast drive (veh., s) | VROOM drive (veh., s) | PyVRP drive (veh., s) | ratio | served b/V/P | ok b/V/P |")
-    out.append("|---|---:|---:|---:|---:|---:|---:|---:|")
-    tot = {"b": 0, "v": 0, "p": 0, "bv": 0, "vv": 0, "pv": 0, "bs": 0.0, "vs": 0.0, "ps": 0.0, "days": 0}
+    out.append("| instance | stops | broodcast drive (veh., s) | VROOM drive (veh., s) | PyVRP drive (veh., s) | ratio | spread b / P | served b/V/P | ok b/V/P |")
+    out.append("|---|---:|---:|---:|---:|---:|---:|---:|---:|")
+    kinds = ["depot-day", "busy-day"]
+    tot = {k: {"b": 0, "v": 0, "p": 0, "best": 0, "bv": 0, "vv": 0, "pv": 0, "bs": 0.0, "vs": 0.0,
+               "ps": 0.0, "days": 0, "worse": 0, "more_veh": 0} for k in kinds}
     bad = {"b": 0, "v": 0, "p": 0}
     for r in rows:
         runs = r["runs"]
@@ -221,40 +224,51 @@ def table(rows, args):
         if okp == len(runs) and served[2] >= served[0]:
             peers.append(p)
         ratio = f"{b / min(peers):.4f}" if peers and min(peers) > 0 else "–"
+        spread = lambda key: max(x[key][0] for x in runs) / 100 - min(x[key][0] for x in runs) / 100
         out.append(
             f"| {r['name']} | {r['n']} | {b:.1f} ({bveh:g}, {bs:.2f}) | {v:.1f} ({vveh}, {vs:.2f}) | "
-            f"{p:.1f} ({pveh:g}, {ps:.2f}) | {ratio} | {served[0]}/{served[1]}/{served[2]} | "
-            f"{okb}/{len(runs)} {okv}/1 {okp}/{len(runs)} |"
+            f"{p:.1f} ({pveh:g}, {ps:.2f}) | {ratio} | {spread('b'):.1f} / {spread('p'):.1f} | "
+            f"{served[0]}/{served[1]}/{served[2]} | {okb}/{len(runs)} {okv}/1 {okp}/{len(runs)} |"
         )
         if (
-            r["kind"] == "depot-day"
+            r["kind"] in tot
             and okb == len(runs)
             and okv
             and okp == len(runs)
             and served[0] == served[1] == served[2]
         ):
-            tot["days"] += 1
-            tot["b"] += b
-            tot["v"] += v
-            tot["p"] += p
-            tot["bv"] += bveh
-            tot["vv"] += vveh
-            tot["pv"] += pveh
-            tot["bs"] += bs
-            tot["vs"] += vs
-            tot["ps"] += ps
-    sol = [r for r in rows if r["kind"] == "solomon"]
+            t = tot[r["kind"]]
+            t["days"] += 1
+            t["b"] += b
+            t["v"] += v
+            t["p"] += p
+            t["best"] += min(v, p)
+            t["bv"] += bveh
+            t["vv"] += vveh
+            t["pv"] += pveh
+            t["bs"] += bs
+            t["vs"] += vs
+            t["ps"] += ps
+            t["worse"] += int(b > 1.002 * min(v, p) + 1e-9)
+            t["more_veh"] += int(bveh > min(vveh, pveh) + 1e-9)
     out.append("")
-    if tot["days"]:
-        best = min(tot["v"], tot["p"])
+    for k in kinds:
+        t = tot[k]
+        if not t["days"]:
+            continue
+        best = min(t["v"], t["p"])
         out.append(
-            f"Depot-days where every solver's routes pass the check and serve the same stops "
-            f"({tot['days']} of {sum(1 for r in rows if r['kind'] == 'depot-day')}): broodcast "
-            f"{tot['b']:.1f} min with {tot['bv']:g} vehicles in {tot['bs']:.1f} s; VROOM "
-            f"{tot['v']:.1f} min, {tot['vv']:g} vehicles, {tot['vs']:.1f} s; PyVRP {tot['p']:.1f} "
-            f"min, {tot['pv']:g} vehicles, {tot['ps']:.1f} s. broodcast ÷ best peer: "
-            f"{tot['b'] / best:.4f}."
+            f"{'Busy depot-days' if k == 'busy-day' else 'Depot-days'} where every solver's "
+            f"routes pass the check and serve the same stops "
+            f"({t['days']} of {sum(1 for r in rows if r['kind'] == k)}): broodcast "
+            f"{t['b']:.1f} min with {t['bv']:g} vehicles in {t['bs']:.1f} s; VROOM "
+            f"{t['v']:.1f} min, {t['vv']:g} vehicles, {t['vs']:.1f} s; PyVRP {t['p']:.1f} "
+            f"min, {t['pv']:g} vehicles, {t['ps']:.1f} s. broodcast ÷ better peer's total: "
+            f"{t['b'] / best:.4f}; ÷ sum of each day's better peer: {t['b'] / t['best']:.4f}. "
+            f"Days more than 0.2 % over the day's better peer: {t['worse']}; days with more "
+            f"vehicles (seed mean) than the fewer of the peers: {t['more_veh']}.\n"
         )
+    sol = [r for r in rows if r["kind"] == "solomon"]
     if sol:
         rb = statistics.mean(
             statistics.mean(x["b"][0] for x in r["runs"]) / statistics.mean(x["p"][0] for x in r["runs"])
@@ -263,7 +277,7 @@ def table(rows, args):
         tb = sum(statistics.mean(x["bs"] for x in r["runs"]) for r in sol)
         tp = sum(statistics.mean(x["ps"] for x in r["runs"]) for r in sol)
         out.append(
-            f"\nSolomon: broodcast ÷ PyVRP distance, mean over instances of the per-instance "
+            f"Solomon: broodcast ÷ PyVRP distance, mean over instances of the per-instance "
             f"seed means: {rb:.4f}; time {tb:.1f} s against {tp:.1f} s ({tb / tp:.2f} ×)."
         )
     out.append(

@@ -11,9 +11,10 @@
 //!    window, so a kick disturbs a neighbourhood rather than the whole tour), local search from
 //!    the kick's end points only, kept when the tour gets shorter, else undone.
 //!
-//! Each kick costs O(n) plus the moves it triggers; the whole run is bounded by
-//! `max_kicks` and, when set, by `time_limit`. A binding time limit makes the result depend on
-//! the machine's speed; tests set `time_limit: None` and rely on the kick cap.
+//! Each kick costs O(n) plus the moves it triggers; the whole run is bounded by the work limit
+//! `max_kicks`, so the same matrix and seed give the same tour on any machine. A wall-clock
+//! `time_limit` exists only as an explicit option (default `None`); when it stops the search
+//! before the kick cap, [`Tour::time_limited`] says so and the result depends on the machine.
 
 use std::collections::VecDeque;
 use std::time::{Duration, Instant};
@@ -29,8 +30,9 @@ const EPS: f64 = 1e-9;
 pub struct TspOptions {
     /// Seed for the kicks (same seed, same matrix → same tour, unless `time_limit` binds).
     pub seed: u64,
-    /// Wall-clock budget for the whole search; `None` for the kick cap only. When the limit
-    /// binds, the result depends on the machine's speed.
+    /// Wall-clock budget for the whole search; `None` (the default) for the kick cap only. Set
+    /// it only on the user's request: when it binds, the result depends on the machine's speed
+    /// and [`Tour::time_limited`] is set.
     pub time_limit: Option<Duration>,
     /// Most perturbation kicks after the first local optimum.
     pub max_kicks: u32,
@@ -39,13 +41,13 @@ pub struct TspOptions {
 }
 
 impl Default for TspOptions {
-    /// Seed 1, 1 s, 3,000 kicks, 12 neighbours: on TSPLIB up to 280 nodes the kick cap, not
-    /// the clock, ends the search; 12 rather than 10 neighbours cut the mean gap over seeds
-    /// 1–5 from 0.17 % to 0.03 % (see `docs/performance-routing.md`).
+    /// Seed 1, no time limit, 3,000 kicks, 12 neighbours: 12 rather than 10 neighbours cut
+    /// the mean TSPLIB gap over seeds 1–5 from 0.17 % to 0.03 % (see
+    /// `docs/performance-routing.md`).
     fn default() -> Self {
         TspOptions {
             seed: 1,
-            time_limit: Some(Duration::from_secs(1)),
+            time_limit: None,
             max_kicks: 3_000,
             neighbours: 12,
         }
@@ -59,6 +61,9 @@ pub struct Tour {
     pub order: Vec<usize>,
     /// Depot → `order[0]` → … → `order[last]` → depot, minutes.
     pub total_minutes: f64,
+    /// Whether `time_limit` stopped the search before `max_kicks`: then another run may give
+    /// another order.
+    pub time_limited: bool,
 }
 
 /// Minutes of the closed tour depot → `order` → depot. Missing or non-finite entries count as
@@ -112,11 +117,13 @@ pub fn best_order(minutes: &[Vec<f64>], opts: &TspOptions) -> Tour {
             Tour {
                 order: rev,
                 total_minutes: b,
+                time_limited: false,
             }
         } else {
             Tour {
                 order,
                 total_minutes: a,
+                time_limited: false,
             }
         };
     }
@@ -134,10 +141,12 @@ pub fn best_order(minutes: &[Vec<f64>], opts: &TspOptions) -> Tour {
     let mut best = ls.tour.clone();
     let mut best_cost = ls.cost();
     let mut rng = fastrand::Rng::with_seed(opts.seed);
+    let mut time_limited = false;
     for _ in 0..opts.max_kicks {
         if let Some(limit) = opts.time_limit
             && started.elapsed() >= limit
         {
+            time_limited = true;
             break;
         }
         let touched = ls.double_bridge(&mut rng);
@@ -161,6 +170,7 @@ pub fn best_order(minutes: &[Vec<f64>], opts: &TspOptions) -> Tour {
     Tour {
         order,
         total_minutes,
+        time_limited,
     }
 }
 

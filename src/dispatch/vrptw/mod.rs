@@ -33,18 +33,21 @@
 //!   two vehicles may swap or one route may move to an unused vehicle of another kind (one of
 //!   each distinct capacity, start and latest return is tried). One pass is O(n · k · L) for
 //!   route length L (O(n · k) for moves between routes, times the kinds tried on a failure).
-//! * `perturb.rs` — iterated local search: remove a customer and its nearest served
-//!   neighbours (3–15), re-insert them and any unserved customer at the cheapest feasible
-//!   place (routes may move to an unused vehicle of another kind; one unused vehicle of each
-//!   kind is tried).
-//! * `search.rs` — the driver: local search after each perturbation, record-to-record
-//!   acceptance (at most 1 % worse than the best, falling to 0 over the run), always keeping
-//!   the best.
+//! * `perturb.rs` — the perturbation: ruin a customer's neighbourhood (3–15 nearest), 1–3
+//!   strings of consecutive customers from different routes (string removal) or, one round in
+//!   ten, a whole route; then recreate greedily in one of four orders or by regret-2
+//!   insertion; routes may move to an unused vehicle of another kind, and one unused vehicle
+//!   of each kind is tried (after a whole-route ruin, only for customers no route can take).
+//! * `search.rs` — the driver: the best construction, then two independent searches with
+//!   their own seeds, then the better of them goes on; each round perturbs and runs the local
+//!   search, and a late-acceptance rule (Burke & Bykov 2017, "The late acceptance
+//!   hill-climbing heuristic", EJOR 258) keeps the candidate when it is no longer than the
+//!   current solution or than the current solution of 300 rounds ago, always keeping the best.
 //!
-//! Work limits end the search: `max_iterations` perturbation rounds, or `stall_rounds` in a row
-//! without a new best. The same instance and seed give the same routes on any machine. A
-//! wall-clock `time_limit` exists only as an explicit option (default `None`); when it binds,
-//! [`Solution::time_limited`] says so.
+//! Work limits end the search: `max_iterations` perturbation rounds in all, or `stall_rounds`
+//! in a row without a new best (30 per customer when that is fewer). The same instance and
+//! seed give the same routes on any machine. A wall-clock `time_limit` exists only as an
+//! explicit option (default `None`); when it binds, [`Solution::time_limited`] says so.
 
 use std::time::Duration;
 
@@ -118,21 +121,22 @@ pub struct SolveOptions {
     pub max_iterations: u32,
     /// Nearest neighbours per customer considered by the local search (≥ 1).
     pub neighbours: usize,
-    /// Stop after this many perturbation rounds in a row without a new best solution
-    /// (`u32::MAX`: never). Small depot-days converge long before `max_iterations`.
+    /// Stop after this many perturbation rounds in a row without a new best solution, or 30
+    /// per customer when that is fewer (`u32::MAX`: 30 per customer). Small depot-days
+    /// converge long before `max_iterations`.
     pub stall_rounds: u32,
 }
 
 impl Default for SolveOptions {
-    /// Seed 1, no time limit, 3,000 rounds, 12 neighbours, stop after 1,000 rounds without a
-    /// new best.
+    /// Seed 1, no time limit, 6,000 rounds, 12 neighbours, stop after 3,000 rounds without a
+    /// new best (30 per customer when that is fewer).
     fn default() -> Self {
         SolveOptions {
             seed: 1,
             time_limit: None,
-            max_iterations: 3_000,
+            max_iterations: 6_000,
             neighbours: 12,
-            stall_rounds: 1_000,
+            stall_rounds: 3_000,
         }
     }
 }

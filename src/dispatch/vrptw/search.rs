@@ -7,6 +7,12 @@ use super::segment::{Data, EPS, Seg};
 use super::state::{Move, State};
 use super::{Solution, SolveOptions};
 
+/// Rounds of late-acceptance history: a candidate no worse than the current solution of this
+/// many rounds ago is accepted.
+const HISTORY: usize = 300;
+/// Independent searches from the construction before the best goes on.
+const STARTS: u32 = 2;
+
 impl State<'_> {
     /// One full local search to a local optimum.
     ///
@@ -74,53 +80,106 @@ impl State<'_> {
     }
 }
 
-/// The search of [`super::solve`].
+/// The search of [`super::solve`]: the best of the construction starts, then [`STARTS`]
+/// independent late-acceptance searches from it with their own seeds, each given
+/// `max_iterations / (2 · STARTS)` rounds, then the best of those goes on for the remaining
+/// rounds. Every search also stops after [`stall_limit`] rounds without a new best.
 pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
     let started = Instant::now();
     // One start per opening order of vehicle kinds; the best local optimum goes on.
     let empty = State::empty(data);
-    let mut cur: Option<State<'_>> = None;
+    let mut first: Option<State<'_>> = None;
     for order in empty.opening_orders() {
         let mut s = empty.clone();
         s.construct(&order);
         s.local_search(None);
-        if cur.as_ref().is_none_or(|c| s.key_lt(c)) {
-            cur = Some(s);
+        if first.as_ref().is_none_or(|c| s.key_lt(c)) {
+            first = Some(s);
         }
     }
-    let mut cur = cur.unwrap_or(empty);
-    let mut best = cur.clone();
-    let mut rng = fastrand::Rng::with_seed(opts.seed);
+    let first = first.unwrap_or(empty);
+    if data.n <= 2 {
+        return first.into_solution();
+    }
+    let stall = stall_limit(data, opts);
+    let per_start = opts.max_iterations / (2 * STARTS);
     let mut time_limited = false;
-    if data.n > 2 {
-        let mut last_best = 0u32;
-        for it in 0..opts.max_iterations {
-            if it - last_best >= opts.stall_rounds {
-                break;
-            }
-            if let Some(limit) = opts.time_limit
-                && started.elapsed() >= limit
-            {
-                time_limited = true;
-                break;
-            }
-            let mut cand = cur.clone();
-            let dirty = cand.ruin_and_recreate(&mut rng);
-            cand.local_search(Some(dirty));
-            let threshold = 0.01 * (1.0 - f64::from(it) / f64::from(opts.max_iterations));
-            let (bu, bd, _) = best.key();
-            let (cu, cd, _) = cand.key();
-            if cand.key_lt(&best) {
-                last_best = it;
-                best = cand.clone();
-                cur = cand;
-            } else if cu <= bu && cd <= bd * (1.0 + threshold) + EPS {
-                cur = cand;
-            }
+    let mut best: Option<State<'_>> = None;
+    for j in 0..STARTS {
+        let mut rng = fastrand::Rng::with_seed(
+            opts.seed
+                .wrapping_mul(0x9E37_79B9_7F4A_7C15)
+                .wrapping_add(u64::from(j) + 1),
+        );
+        let (b, tl) = ils(first.clone(), &mut rng, per_start, stall, started, opts);
+        time_limited |= tl;
+        if best.as_ref().is_none_or(|c| b.key_lt(c)) {
+            best = Some(b);
         }
+        if time_limited {
+            break;
+        }
+    }
+    let mut best = best.unwrap_or(first);
+    if !time_limited {
+        let mut rng = fastrand::Rng::with_seed(opts.seed);
+        let rest = opts.max_iterations - per_start * STARTS;
+        let (b, tl) = ils(best, &mut rng, rest, stall, started, opts);
+        best = b;
+        time_limited = tl;
     }
     Solution {
         time_limited,
         ..best.into_solution()
     }
+}
+
+/// Rounds without a new best after which a search stops: `opts.stall_rounds`, or 30 per
+/// customer when that is fewer (small depot-days settle long before large ones).
+fn stall_limit(data: &Data<'_>, opts: &SolveOptions) -> u32 {
+    let per_customer = u32::try_from(30 * (data.n - 1)).unwrap_or(u32::MAX);
+    opts.stall_rounds.min(per_customer).max(1)
+}
+
+/// Iterated local search from `cur` for at most `rounds` rounds, stopping after `stall` rounds
+/// without a new best; returns the best and whether the time limit stopped it.
+fn ils<'a>(
+    mut cur: State<'a>,
+    rng: &mut fastrand::Rng,
+    rounds: u32,
+    stall: u32,
+    started: Instant,
+    opts: &SolveOptions,
+) -> (State<'a>, bool) {
+    let mut best = cur.clone();
+    // Late acceptance (Burke & Bykov 2017): a candidate no worse than the current solution
+    // or than the current solution [`HISTORY`] rounds ago becomes current; the history
+    // slot then takes the current solution's drive.
+    let mut history = vec![cur.key().1; HISTORY];
+    let mut last_best = 0u32;
+    for it in 0..rounds {
+        if it - last_best >= stall {
+            break;
+        }
+        if let Some(limit) = opts.time_limit
+            && started.elapsed() >= limit
+        {
+            return (best, true);
+        }
+        let mut cand = cur.clone();
+        let dirty = cand.ruin_and_recreate(rng);
+        cand.local_search(Some(dirty));
+        let (uu, ud, _) = cur.key();
+        let (cu, cd, _) = cand.key();
+        let slot = it as usize % history.len();
+        if cand.key_lt(&best) {
+            last_best = it;
+            best = cand.clone();
+            cur = cand;
+        } else if cu < uu || (cu == uu && (cd <= ud + EPS || cd <= history[slot] + EPS)) {
+            cur = cand;
+        }
+        history[slot] = cur.key().1;
+    }
+    (best, false)
 }

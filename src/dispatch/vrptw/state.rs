@@ -165,11 +165,19 @@ impl<'a> State<'a> {
         }
     }
 
-    /// Cheapest place for `u` over every route and one unused vehicle of each kind:
-    /// (added drive, route, position, vehicle).
-    pub(super) fn cheapest_place(&self, u: usize) -> Option<(f64, usize, usize, usize)> {
+    /// Cheapest place for `u` over every route and, when `open`, one unused vehicle of each
+    /// kind: (added drive, route, position, vehicle).
+    pub(super) fn cheapest_place(
+        &self,
+        u: usize,
+        open: bool,
+    ) -> Option<(f64, usize, usize, usize)> {
         let mut best: Option<(f64, usize, usize, usize)> = None;
-        let fresh = self.empty_kinds(&[]);
+        let fresh = if open {
+            self.empty_kinds(&[])
+        } else {
+            Vec::new()
+        };
         for r in 0..self.routes.len() {
             if self.routes[r].nodes.is_empty() && !fresh.contains(&r) {
                 continue;
