@@ -511,7 +511,7 @@ fn route_sheets_print_one_page_per_route_that_fits() {
     for page in 1..=pages {
         let text = pdf_page_text(&long, page);
         assert!(
-            text.contains("Route R-") || text.contains("Parcel labels"),
+            text.contains("Route R-") || text.contains("Parcel hand-over"),
             "page {page} says which route it belongs to: {text}"
         );
     }
@@ -569,7 +569,7 @@ fn demo_report_fits_three_pages_and_route_sheets_one_page_per_route() {
         match route {
             Some(id) => *pages_of.entry(id.as_str()).or_insert(0) += 1,
             None => assert!(
-                text.contains("Parcel labels"),
+                text.contains("Parcel hand-over"),
                 "page {page} names no route: {text}"
             ),
         }
