@@ -48,15 +48,15 @@ td.tick { width: 9mm; text-align: center; }
 td.notes { width: 30mm; }
 table.route { table-layout: fixed; }
 table.route .c-seq { width: 8mm; }
-table.route .c-site { width: 27mm; }
-.ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 7pt; color: #333; word-break: break-all; }
+table.route .c-site { width: 29mm; }
+.ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 6.5pt; color: #333; white-space: nowrap; }
 a.geo { color: #000; text-decoration: underline; }
-table.route .c-arr { width: 21mm; }
+table.route .c-arr { width: 20mm; }
 .wait { font-size: 7.5pt; }
 table.route .c-vials { width: 11mm; }
-table.route .c-by { width: 21mm; }
+table.route .c-by { width: 20mm; }
 table.route .c-done { width: 11mm; }
-table.route .c-notes { width: 18mm; }
+table.route .c-notes { width: 14mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
 .map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
 .cautions { margin: 1.5mm 0; border: 0.3mm solid #000; padding: 1mm 2mm; font-size: 7.5pt; break-inside: avoid; }
@@ -283,6 +283,10 @@ fn sheet(
     Ok(())
 }
 
+/// The map shows the stops only when that draws them at least this many times larger than a
+/// map that also holds the depot (a cluster far from its depot).
+const ZOOM_FACTOR: f64 = 2.5;
+
 /// Radius of a stop-number label on the map, SVG user units (about 4.6 mm across printed).
 const LABEL_R: f64 = 8.5;
 
@@ -384,7 +388,13 @@ fn route_map(
     let map_h = map_height(r.stops.len());
     let mut extent = pts.clone();
     extent.extend_from_slice(&drive);
-    let frame = Frame::fit(&extent, MAP_W, map_h, 34.0, 1.0);
+    let whole = Frame::fit(&extent, MAP_W, map_h, 34.0, 1.0);
+    // A cluster of stops far from the depot would be a knot at one end of a long line: then
+    // the map shows the stops (and the path among them) only, and the depot sits on the map's
+    // edge in its direction with its distance.
+    let near = Frame::fit(&pts[1..], MAP_W, map_h, 34.0, 1.0);
+    let zoomed = pts.len() > 2 && near.px_per_km() > ZOOM_FACTOR * whole.px_per_km();
+    let frame = if zoomed { near } else { whole };
     let mut s = String::new();
     let _ = write!(
         s,
@@ -457,23 +467,43 @@ fn route_map(
             }
         }
     }
-    let (dx, dy) = frame.px(depot);
+    let (mut dx, mut dy) = frame.px(depot);
+    let mut depot_label = esc(depot_id);
+    if zoomed {
+        // Onto the edge, along the line from the map's centre to the depot.
+        let (cx, cy) = (MAP_W / 2.0, map_h / 2.0);
+        let (vx, vy) = (dx - cx, dy - cy);
+        let t = ((cx - 14.0) / vx.abs().max(1e-9))
+            .min((cy - 14.0) / vy.abs().max(1e-9))
+            .min(1.0);
+        (dx, dy) = (cx + vx * t, cy + vy * t);
+        let centre = LonLat {
+            lon: pts[1..].iter().map(|p| p.lon).sum::<f64>() / (pts.len() - 1) as f64,
+            lat: pts[1..].iter().map(|p| p.lat).sum::<f64>() / (pts.len() - 1) as f64,
+        };
+        depot_label = format!(
+            "{depot_label} off map, {} km",
+            fixed(crate::geodesy::distance_m(centre, depot) / 1000.0, 1)
+        );
+    }
+    let right = dx > MAP_W - 130.0;
     let _ = write!(
         s,
-        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\">{}</text>",
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text class=\"depot\" x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\"{}>{}</text>",
         f1(dx - 8.0),
         f1(dy - 8.0),
         f1(dx),
         f1(dy + 4.0),
-        f1(dx + 11.0),
+        f1(if right { dx - 11.0 } else { dx + 11.0 }),
         f1(dy + 4.0),
-        esc(depot_id)
+        if right { " text-anchor=\"end\"" } else { "" },
+        depot_label
     );
     let labels = label_layout(&stop_px, (dx, dy), MAP_W, map_h);
     for (&(x, y), _) in stop_px.iter().zip(&labels) {
         let _ = write!(
             s,
-            "<circle class=\"dot\" cx=\"{}\" cy=\"{}\" r=\"2.6\" fill=\"#1f4e9c\"/>",
+            "<circle class=\"dot\" cx=\"{}\" cy=\"{}\" r=\"3.2\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"1.3\"/>",
             f1(x),
             f1(y)
         );
