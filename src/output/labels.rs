@@ -1,5 +1,5 @@
 //! `labels.html`: parcel labels laid out to cut, [`LABELS_PER_PAGE`] to a printed page
-//! (two columns of four, 90 mm × 62 mm, dashed cut lines), on the one page size of every HTML
+//! (two columns of four, 90 mm × 58 mm, dashed cut lines), on the one page size of every HTML
 //! output ([`super::PAGE_SIZE`]; the grid keeps to the A4 text width).
 //!
 //! Each label carries the recipient (request id and street address, or "address withheld"
@@ -20,7 +20,7 @@ pub const LABELS_PER_PAGE: usize = 8;
 const CSS: &str = r#"
 * { box-sizing: border-box; }
 body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9pt; color: #000; margin: 0; }
-.page { break-before: page; display: grid; grid-template-columns: 90mm 90mm; grid-auto-rows: 62mm; gap: 0; width: 180mm; }
+.page { break-before: page; display: grid; grid-template-columns: 90mm 90mm; grid-auto-rows: 58mm; gap: 0; width: 180mm; }
 .page:first-of-type { break-before: auto; }
 h1 { font-size: 12pt; margin: 0 0 2mm 0; }
 .intro { font-size: 8pt; color: #444; margin: 0 0 2mm 0; }
