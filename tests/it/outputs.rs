@@ -144,7 +144,7 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
     };
     assert_eq!(
         fc.features.len(),
-        p.scenario.sites.len() + p.scenario.facilities.len()
+        p.scenario.sites.len() + p.scenario.facilities.len() + p.dispatch.routes.len()
     );
     assert!(!text.to_lowercase().contains("address"));
     for s in &p.scenario.sites {
@@ -155,8 +155,18 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
     let raw: serde_json::Value = serde_json::from_str(text).unwrap();
     assert!(raw.get("crs").is_none(), "RFC 7946 §4: no crs member");
     let mut polygons = 0;
+    let mut lines = 0;
     for feat in &fc.features {
         let props = feat.properties.as_ref().expect("properties");
+        if props["kind"] == "route" {
+            lines += 1;
+            let g: geo::Geometry<f64> = feat.geometry.clone().unwrap().try_into().unwrap();
+            assert!(
+                matches!(g, geo::Geometry::LineString(_)),
+                "a route is a line"
+            );
+            continue;
+        }
         for key in [
             "id",
             "kind",
@@ -184,6 +194,7 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
         }
     }
     assert_eq!(polygons, 6, "every block is a polygon");
+    assert_eq!(lines, 2, "every route is a line");
 }
 
 #[test]
@@ -631,7 +642,7 @@ fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
     let gj: serde_json::Value = serde_json::from_str(&f["plan.geojson"]).unwrap();
     for feat in gj["features"].as_array().unwrap() {
         let props = &feat["properties"];
-        if props["kind"] == "facility" {
+        if props["kind"] == "facility" || props["kind"] == "route" {
             continue;
         }
         let id = props["id"].as_str().unwrap();
