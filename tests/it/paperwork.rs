@@ -108,7 +108,11 @@ def positions(c):
         for x in c: yield from positions(x)
 for i, f in enumerate(doc["features"]):
     g = f["geometry"]
-    geom = shape(g)
+    try:
+        geom = shape(g)
+    except Exception as e:
+        problems.append(f"feature {i}: {e}")
+        continue
     if not geom.is_valid: problems.append(f"feature {i}: {shapely.validation.explain_validity(geom)}")
     for p in positions(g["coordinates"]):
         if len(p) != 2 or not all(math.isfinite(v) for v in p) or not (-180 <= p[0] <= 180 and -90 <= p[1] <= 90):
