@@ -285,7 +285,7 @@ fn sheet(
 
 /// The map shows the stops only when that draws them at least this many times larger than a
 /// map that also holds the depot (a cluster far from its depot).
-const ZOOM_FACTOR: f64 = 2.5;
+const ZOOM_FACTOR: f64 = 4.0;
 
 /// Radius of a stop-number label on the map, SVG user units (about 4.6 mm across printed).
 const LABEL_R: f64 = 8.5;
@@ -730,6 +730,33 @@ mod tests {
             assert!(a.0 >= LABEL_R && a.0 <= MAP_W - LABEL_R);
             assert!(a.1 >= LABEL_R && a.1 <= MAP_H_MIN - LABEL_R);
         }
+    }
+
+    /// Stops 30 km from their depot: the map shows the stops, and the depot sits on the edge
+    /// towards it with its distance; a depot among its stops stays where it is.
+    #[test]
+    fn a_far_depot_goes_on_the_edge_of_a_map_of_the_stops() {
+        let mut p = tiny_plan();
+        let near = html();
+        assert!(!near.contains("off map"), "F1 is near its stops");
+        p.scenario.facilities[0].location.lat += 0.27;
+        p.dispatch.routes[0].path.clear();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let far = String::from_utf8(render(&v, &plan, false).unwrap()).unwrap();
+        let map = &far[..far.find("</svg>").unwrap()];
+        let depot = &map[map.find("<text class=\"depot\"").unwrap()..];
+        let depot = &depot[..depot.find("</text>").unwrap()];
+        assert!(depot.ends_with("F1 off map, 33.0 km"), "{depot}");
+        // The depot square is on the top edge (the depot is due north).
+        let y: f64 = map[map.find("<rect x=\"").unwrap()..]
+            .split("y=\"")
+            .nth(1)
+            .and_then(|t| t.split('"').next())
+            .unwrap()
+            .parse()
+            .unwrap();
+        assert!(y < 10.0, "{y}");
     }
 
     #[test]
