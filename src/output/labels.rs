@@ -24,14 +24,15 @@ body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-si
 .page:first-of-type { break-before: auto; }
 h1 { font-size: 12pt; margin: 0 0 2mm 0; }
 .intro { font-size: 8pt; color: #444; margin: 0 0 2mm 0; }
-.label { border: 0.3mm dashed #777; padding: 2.5mm 3mm; overflow: hidden; display: flex; flex-direction: column; gap: 1mm; }
+.label { border: 0.3mm dashed #777; padding: 2.5mm 3mm; overflow: hidden; display: flex; flex-direction: column; gap: 0.7mm; }
 .top { display: flex; justify-content: space-between; font-size: 7.5pt; color: #333; }
-.to { font-size: 10.5pt; line-height: 1.2; min-height: 12mm; }
+.to { font-size: 10.5pt; line-height: 1.15; min-height: 11mm; }
 .to .k { font-size: 7pt; color: #555; display: block; }
 .ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 10pt; font-weight: bold; }
 .by { font-size: 10pt; font-weight: bold; border: 0.4mm solid #000; padding: 0.5mm 1.5mm; align-self: flex-start; }
 .live { font-size: 7.5pt; font-weight: bold; }
-.cautions { font-size: 6pt; line-height: 1.2; color: #222; margin: 0; padding-left: 3mm; }
+.label > * { flex-shrink: 0; }
+.cautions { font-size: 6pt; line-height: 1.2; color: #222; margin: 0; padding-left: 3mm; flex-shrink: 1; min-height: 0; overflow: hidden; }
 .muted { color: #555; }
 "#;
 
@@ -114,7 +115,7 @@ pub(crate) fn render(
 <div class=\"to\"><span class=\"k\">To</span>{to}</div>\
 <div class=\"ship\">{sid}</div>\
 <div class=\"by\">Release by {by}</div>\
-<div class=\"live\">LIVE BENEFICIAL INSECTS — keep cool and shaded, do not freeze</div>\
+<div class=\"live\">LIVE INSECTS — keep cool and shaded, do not freeze</div>\
 <ul class=\"cautions\">{cautions}</ul></div>",
                 vials = p.vials,
                 ship = p.ship_at.format("%a %Y-%m-%d %H:%M"),

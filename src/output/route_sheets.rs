@@ -292,8 +292,9 @@ const LABEL_R: f64 = 8.5;
 
 /// Where each stop's number goes: a greedy offset layout with leader lines. Stop `i` (in
 /// visiting order) takes the first free spot on rings of growing radius around its dot (16
-/// bearings a ring), where free means inside the canvas, clear of every label already placed
-/// (centres at least `2 × LABEL_R + 1` apart), of every stop dot and of the depot. Labels
+/// bearings a ring), where free means inside the canvas and off the north arrow (top right)
+/// and the scale bar (bottom left), clear of every label already placed (centres at least
+/// `2 × LABEL_R + 1` apart), of every stop dot and of the depot. Labels
 /// never sit on their own dot, so the dot and the block outline under it stay visible; when
 /// no ring has room (not met on the demo), the spot with the fewest clashes is taken.
 /// Deterministic. O(k² · c) for k stops and c = 16 × 12 candidate spots.
@@ -320,6 +321,11 @@ pub(crate) fn label_layout(
                     && c.1 >= LABEL_R + 2.0
                     && c.1 <= h - LABEL_R - 2.0;
                 if !inside {
+                    continue;
+                }
+                let on_furniture = (c.0 > w - 36.0 - LABEL_R && c.1 < 56.0 + LABEL_R)
+                    || (c.0 < w * 0.25 + 72.0 + LABEL_R && c.1 > h - 32.0 - LABEL_R);
+                if on_furniture {
                     continue;
                 }
                 let d = |p: (f64, f64)| (p.0 - c.0).hypot(p.1 - c.1);
@@ -489,7 +495,7 @@ fn route_map(
     let right = dx > MAP_W - 130.0;
     let _ = write!(
         s,
-        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text class=\"depot\" x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\"{}>{}</text>",
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text class=\"depot\" x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\" stroke=\"#fff\" stroke-width=\"3\" paint-order=\"stroke\"{}>{}</text>",
         f1(dx - 8.0),
         f1(dy - 8.0),
         f1(dx),
@@ -718,6 +724,14 @@ mod tests {
             })
             .collect();
         let labels = label_layout(&dots, (40.0, 150.0), MAP_W, MAP_H_MIN);
+        // The same cluster in the top-right corner, under the north arrow.
+        let corner: Vec<(f64, f64)> = dots.iter().map(|&(x, y)| (x + 350.0, y - 100.0)).collect();
+        for (x, y) in label_layout(&corner, (40.0, 150.0), MAP_W, MAP_H_MIN) {
+            assert!(
+                !(x > MAP_W - 36.0 && y < 56.0),
+                "({x}, {y}) on the north arrow"
+            );
+        }
         assert_eq!(labels.len(), dots.len());
         let d = |a: (f64, f64), b: (f64, f64)| (a.0 - b.0).hypot(a.1 - b.1);
         for (i, &a) in labels.iter().enumerate() {
@@ -729,6 +743,10 @@ mod tests {
             }
             assert!(a.0 >= LABEL_R && a.0 <= MAP_W - LABEL_R);
             assert!(a.1 >= LABEL_R && a.1 <= MAP_H_MIN - LABEL_R);
+            assert!(
+                !(a.0 > MAP_W - 36.0 && a.1 < 56.0),
+                "{a:?} on the north arrow"
+            );
         }
     }
 
