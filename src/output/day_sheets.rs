@@ -161,9 +161,9 @@ fn page(
     if !routes.is_empty() {
         h.push_str("<h2>Load lists (last stop first)</h2>\n<div class=\"lists\">\n");
         for r in &routes {
-            let _ = write!(
+            let _ = writeln!(
                 h,
-                "<section><table><thead><tr><th colspan=\"5\" class=\"mono\">{}</th></tr><tr><th>#</th><th>Shipment</th><th>Packed</th><th class=\"num\">Vials</th><th>✓</th></tr></thead><tbody>\n",
+                "<section><table><thead><tr><th colspan=\"5\" class=\"mono\">{}</th></tr><tr><th>#</th><th>Shipment</th><th>Packed</th><th class=\"num\">Vials</th><th>✓</th></tr></thead><tbody>",
                 esc(&r.id)
             );
             let mut list: Vec<&&ManifestRow> = rows

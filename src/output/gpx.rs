@@ -80,9 +80,9 @@ fn point(tag: &str, p: LonLat, name: &str, cmt: Option<&str>, desc: &str, kind: 
     if let Some(c) = cmt {
         let _ = write!(s, "<cmt>{}</cmt>", xml(c));
     }
-    let _ = write!(
+    let _ = writeln!(
         s,
-        "<desc>{}</desc><type>{}</type></{tag}>\n",
+        "<desc>{}</desc><type>{}</type></{tag}>",
         xml(desc),
         xml(kind)
     );
@@ -224,6 +224,26 @@ mod tests {
         );
         // R1 as a waypoint and as a route point.
         assert_eq!(f[0].1.matches("<cmt>address withheld</cmt>").count(), 2);
+    }
+
+    /// A route id from hostile facility ids never names a file outside `routes/`, and two ids
+    /// that clean up the same get distinct names.
+    #[test]
+    fn file_names_stay_in_the_routes_folder_and_are_unique() {
+        let mut p = tiny_plan();
+        p.dispatch.routes[0].id = "R-../../etc/x".into();
+        p.dispatch.routes[1].id = "R-..\\..\\etc\\x".into();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let names: Vec<String> = render_all(&v, &plan, false)
+            .unwrap()
+            .into_iter()
+            .map(|(n, _)| n)
+            .collect();
+        assert_eq!(
+            names,
+            ["routes/R-______etc_x.gpx", "routes/R-______etc_x-2.gpx"]
+        );
     }
 
     #[test]
