@@ -49,7 +49,7 @@ td.notes { width: 30mm; }
 table.route { table-layout: fixed; }
 table.route .c-seq { width: 8mm; }
 table.route .c-site { width: 29mm; }
-.ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 6.5pt; color: #333; white-space: nowrap; }
+.ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 6.5pt; line-height: 1.15; color: #333; white-space: nowrap; display: block; }
 a.geo { color: #000; text-decoration: underline; }
 table.route .c-arr { width: 20mm; }
 .wait { font-size: 7.5pt; }
@@ -269,7 +269,7 @@ fn sheet(
         };
         let _ = writeln!(
             h,
-            "<tr><td class=\"seq\">{seq}</td><td>{id}<br><span class=\"ship\">{ship}</span></td><td class=\"find\">{find}</td>\
+            "<tr><td class=\"seq\">{seq}</td><td>{id}<span class=\"ship\">{ship}</span></td><td class=\"find\">{find}</td>\
 <td class=\"num\">{arrive}</td><td class=\"num\">{vials}</td><td class=\"num\">{by}</td>\
 <td class=\"tick\"><span class=\"box\"></span></td><td class=\"notes\"></td></tr>",
             seq = i + 1,
