@@ -416,3 +416,33 @@ fn day_sheets_and_labels_print_in_chromium() {
     print_pdf(&fixture.join("labels.html"), &pdf);
     assert_eq!(pdf_pages(&pdf), 3, "17 labels, 8 a page");
 }
+
+/// The GPX files are under the plan folder's marker like every other output: a second plan
+/// replaces an unchanged folder, and an edited or added file in `routes/` blocks it (exit 2,
+/// nothing written).
+#[test]
+fn an_edited_or_added_gpx_file_blocks_replacing_the_plan_folder() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = plan_demo(dir.path(), "out", &[]);
+    run_ok(&["plan", "--out", s(&out)]);
+    let gpx = gpx_files(&out).remove(0);
+    let mut edited = std::fs::read(&gpx).unwrap();
+    edited.extend_from_slice(b"<!-- driver's note -->\n");
+    std::fs::write(&gpx, &edited).unwrap();
+    let o = run(&["plan", "--out", s(&out)]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("routes/") && err.contains("edited"), "{err}");
+    assert_eq!(std::fs::read(&gpx).unwrap(), edited, "the edit is kept");
+    // Put back, then a file of the user's own in routes/.
+    run_ok(&["plan", "--out", s(&dir.path().join("fresh"))]);
+    let name = gpx.file_name().unwrap();
+    std::fs::copy(dir.path().join("fresh/routes").join(name), &gpx).unwrap();
+    run_ok(&["plan", "--out", s(&out)]);
+    let mine = out.join(ROUTES_DIR).join("mine.gpx");
+    std::fs::write(&mine, b"<gpx/>").unwrap();
+    let o = run(&["plan", "--out", s(&out)]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("routes/mine.gpx"));
+    assert_eq!(std::fs::read(&mine).unwrap(), b"<gpx/>");
+}
