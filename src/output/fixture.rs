@@ -8,7 +8,7 @@ use crate::allocate::{Allocation, Binding, Shipment, SiteOutcome};
 use crate::arcs::{Arc, Mode};
 use crate::dispatch::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::eligibility::Reason;
-use crate::scenario::{Scenario, fixture};
+use crate::scenario::{LonLat, Scenario, fixture};
 
 /// Owned parts of a [`PlanView`].
 #[derive(Clone, Debug)]
@@ -50,6 +50,31 @@ const B6: usize = 5;
 const R1: usize = 6;
 const R2: usize = 7;
 const R3: usize = 8;
+
+/// A road-like driven path depot → `sites` → depot: each leg runs east–west first, then
+/// north–south, as on a grid of section-line roads, so that the path has more points than
+/// stops (as a road model's does) and its corners are not at the stops.
+fn grid_path(sc: &Scenario, depot: usize, sites: &[usize]) -> Vec<LonLat> {
+    let depot = sc.facilities[depot].location;
+    let stops = sites.iter().map(|&s| sc.sites[s].location);
+    let places: Vec<LonLat> = std::iter::once(depot)
+        .chain(stops)
+        .chain(std::iter::once(depot))
+        .collect();
+    let mut path = vec![depot];
+    for leg in places.windows(2) {
+        let corner = LonLat {
+            lon: leg[1].lon,
+            lat: leg[0].lat,
+        };
+        for p in [corner, leg[1]] {
+            if path.last() != Some(&p) {
+                path.push(p);
+            }
+        }
+    }
+    path
+}
 
 /// The plan: route `R-F1-20270302-1` (V1: B1, R1, B2), route `R-F2-20270304-1` (V2: B6, R2),
 /// a parcel to R3, and B3 allocated but undeliverable.
@@ -118,7 +143,7 @@ pub fn tiny_plan() -> TinyPlan {
                 stop(1, at(tue, 8, 25), at(tue, 8, 25)),
             ],
             drive_minutes: 60.0,
-            path: Vec::new(),
+            path: grid_path(&sc, 0, &[B1, R1, B2]),
         },
         Route {
             id: "R-F2-20270304-1".into(),
@@ -132,7 +157,7 @@ pub fn tiny_plan() -> TinyPlan {
                 stop(6, at(thu, 8, 45), at(thu, 8, 45)),
             ],
             drive_minutes: 55.0,
-            path: Vec::new(),
+            path: grid_path(&sc, 1, &[B6, R2]),
         },
     ];
     let parcel = &shipments[4];

@@ -1,5 +1,7 @@
 //! `plan.geojson`: an RFC 7946 FeatureCollection for GIS (QGIS opens it as is): every
-//! candidate site (blocks as polygons, requests as points) and every facility as a point.
+//! candidate site (blocks as polygons, requests as points), every facility as a point, and
+//! every route as a LineString of its driven path (`kind` = `route`, with vehicle, date,
+//! depot and the stop order as site ids).
 //!
 //! Longitude first, 6 decimals (about 0.1 m), exterior rings counter-clockwise and holes
 //! clockwise (RFC 7946 §3.1.6), no `crs` member (§4: WGS 84 is implied), every number finite.
@@ -50,11 +52,63 @@ fn joined(v: &[String]) -> Value {
     }
 }
 
+/// A route as a LineString feature: its driven path, or (when the travel model gave no
+/// geometry) straight legs depot → stops → depot, so that the line always has the two
+/// positions RFC 7946 §3.1.4 asks for. Site ids only: no address.
+fn route_line(view: &PlanView, r: &crate::dispatch::Route) -> Result<Value, OutputError> {
+    let sc = view.scenario;
+    let depot = sc.facilities.get(r.depot).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: depot index {} is out of range",
+            r.id, r.depot
+        ))
+    })?;
+    let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: vehicle index {} is out of range",
+            r.id, r.vehicle
+        ))
+    })?;
+    let mut order = Vec::with_capacity(r.stops.len());
+    let mut straight = vec![depot.location];
+    for st in &r.stops {
+        let site = sc
+            .sites
+            .get(st.site)
+            .ok_or_else(|| super::bad_site(st.site))?;
+        order.push(site.id.as_str().to_string());
+        straight.push(site.location);
+    }
+    straight.push(depot.location);
+    let line = if r.path.len() >= 2 {
+        &r.path
+    } else {
+        &straight
+    };
+    let coords: Vec<Value> = line.iter().map(|p| pos(p.lon, p.lat)).collect();
+    let mut props = Map::new();
+    props.insert("id".into(), json!(r.id));
+    props.insert("kind".into(), json!("route"));
+    props.insert("vehicle_id".into(), json!(vehicle.id.as_str()));
+    props.insert("date".into(), json!(r.date.to_string()));
+    props.insert("facility_id".into(), json!(depot.id.as_str()));
+    props.insert("stops".into(), json!(r.stops.len()));
+    props.insert("stop_order".into(), json!(order.join(";")));
+    props.insert("vials".into(), json!(r.vials()));
+    props.insert("drive_minutes".into(), json!(round_to(r.drive_minutes, 1)));
+    Ok(json!({
+        "type": "Feature",
+        "geometry": {"type": "LineString", "coordinates": coords},
+        "properties": props
+    }))
+}
+
 /// Property order is fixed by insertion into a `serde_json::Map` (sorted keys without the
 /// `preserve_order` feature; insertion order with it): deterministic either way. O(S + F).
 pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut features = Vec::with_capacity(sc.sites.len() + sc.facilities.len());
+    let mut features =
+        Vec::with_capacity(sc.sites.len() + sc.facilities.len() + view.dispatch.routes.len());
     for (i, site) in sc.sites.iter().enumerate() {
         let d = plan.per_site.get(i).cloned().unwrap_or_default();
         let geometry = match &site.detail {
@@ -97,6 +151,9 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         features
             .push(json!({"type": "Feature", "geometry": point(f.location), "properties": props}));
     }
+    for r in &view.dispatch.routes {
+        features.push(route_line(view, r)?);
+    }
     let doc = json!({"type": "FeatureCollection", "features": features});
     let mut bytes = serde_json::to_vec(&doc)?;
     bytes.push(b'\n');
@@ -136,8 +193,8 @@ mod tests {
         let plan = Delivered::build(&v).unwrap();
         let j: Value = serde_json::from_slice(&render(&v, &plan).unwrap()).unwrap();
         let feats = j["features"].as_array().unwrap();
-        assert_eq!(feats.len(), 10 + 2);
-        for f in feats {
+        assert_eq!(feats.len(), 10 + 2 + 2);
+        for f in feats.iter().filter(|f| f["properties"]["kind"] != "route") {
             let keys: Vec<&str> = f["properties"]
                 .as_object()
                 .unwrap()
@@ -173,5 +230,44 @@ mod tests {
         assert_eq!(r3["geometry"]["coordinates"][0], -79.99, "lon first");
         assert_eq!(r3["properties"]["route_id"], Value::Null, "parcel");
         assert!(j.get("crs").is_none());
+    }
+
+    #[test]
+    fn routes_are_lines_along_their_path_with_the_stop_order() {
+        let mut p = tiny_plan();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let j: Value = serde_json::from_slice(&render(&v, &plan).unwrap()).unwrap();
+        let routes: Vec<&Value> = j["features"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| f["properties"]["kind"] == "route")
+            .collect();
+        assert_eq!(routes.len(), 2);
+        let r1 = routes[0];
+        assert_eq!(r1["geometry"]["type"], "LineString");
+        let path = &p.dispatch.routes[0].path;
+        let coords = r1["geometry"]["coordinates"].as_array().unwrap();
+        assert_eq!(coords.len(), path.len());
+        assert_eq!(coords[1][0], round_to(path[1].lon, 6), "lon first");
+        assert_eq!(coords[1][1], round_to(path[1].lat, 6));
+        let props = &r1["properties"];
+        assert_eq!(props["id"], "R-F1-20270302-1");
+        assert_eq!(props["vehicle_id"], "V1");
+        assert_eq!(props["date"], "2027-03-02");
+        assert_eq!(props["facility_id"], "F1");
+        assert_eq!(props["stop_order"], "B1;R1;B2");
+        // Without geometry from the travel model: straight legs, depot to depot.
+        p.dispatch.routes[0].path.clear();
+        let v = p.view();
+        let j: Value = serde_json::from_slice(&render(&v, &plan).unwrap()).unwrap();
+        let line = j["features"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["properties"]["id"] == "R-F1-20270302-1")
+            .unwrap();
+        assert_eq!(line["geometry"]["coordinates"].as_array().unwrap().len(), 5);
     }
 }

@@ -35,6 +35,8 @@ pub struct ManifestRow {
     /// `S-<facility>-<yyyymmdd>-<site>` (dispatch date), with `-2`, `-3`… when the same site
     /// gets two shipments from one facility on one day (different pack days).
     pub shipment_id: String,
+    /// Index into `Allocation::shipments` of the shipment.
+    pub shipment: usize,
     /// Sending facility.
     pub facility: FacilityIdx,
     /// Sending facility id.
@@ -97,6 +99,7 @@ pub(crate) fn rows(view: &PlanView) -> Result<Vec<ManifestRow>, OutputError> {
         })?;
         Ok(ManifestRow {
             shipment_id: String::new(),
+            shipment,
             facility: sh.arc.facility,
             facility_id: f.id.0.clone(),
             pack_date: sh.arc.pack_date,

@@ -5,18 +5,23 @@
 //! puts them on disk. Rendering is deterministic: floats are written with fixed decimals, rows
 //! are sorted, maps are `BTreeMap`s, and no clock or random source is read.
 //!
-//! Personal data: the only output that carries a request's street address is
-//! `route-sheets.html` (the driver and dispatcher need it), and not even that one when
-//! [`RenderOptions::redact`] is set. Analyst outputs (`manifest.*`,
-//! `allocation.csv`, `summary.json`, `plan.geojson`, `report.html`) carry ids and coordinates
-//! only. The scenario never holds names, phones or e-mails.
+//! Personal data: the only outputs that carry a request's street address are the driver's
+//! documents ([`carries_addresses`]: `route-sheets.html`, `labels.html` and the GPX files
+//! under [`ROUTES_DIR`]; the driver and dispatcher need it), and not even those when
+//! [`RenderOptions::redact`] is set. Analyst outputs (`manifest.*`, `allocation.csv`,
+//! `summary.json`, `plan.geojson`, `report.html`, `confirmations.csv`, `day-sheets.html`)
+//! carry ids and coordinates only. The scenario never holds names, phones or e-mails.
 
 mod allocation_csv;
 mod atomic;
 mod binding;
+mod confirmations;
+mod day_sheets;
 #[doc(hidden)]
 pub mod fixture;
 mod geojson;
+mod gpx;
+mod labels;
 mod manifest;
 mod report;
 mod route_sheets;
@@ -38,6 +43,8 @@ use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 pub use allocation_csv::ALLOCATION_COLUMNS;
 pub use atomic::{write_dir_atomically, write_file_atomically};
 pub use binding::BINDING_COLUMNS;
+pub use confirmations::CONFIRMATION_COLUMNS;
+pub use labels::LABELS_PER_PAGE;
 pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
 pub use report::MAP_MARKERS_MAX;
 pub use route_sheets::ONE_PAGE_STOPS;
@@ -92,8 +99,9 @@ pub enum OutputError {
     Json(#[from] serde_json::Error),
 }
 
-/// File names of the output contract, in the order [`render_all`] returns them.
-pub const FILE_NAMES: [&str; 8] = [
+/// File names of the output contract, in the order [`render_all`] returns them; the GPX
+/// files of the routes follow them, one per route under [`ROUTES_DIR`].
+pub const FILE_NAMES: [&str; 11] = [
     "manifest.csv",
     "manifest.json",
     "allocation.csv",
@@ -102,7 +110,26 @@ pub const FILE_NAMES: [&str; 8] = [
     "plan.geojson",
     "report.html",
     "binding-constraints.csv",
+    "confirmations.csv",
+    "day-sheets.html",
+    "labels.html",
 ];
+
+/// Folder of the plan folder that holds one GPX 1.1 file per route,
+/// `routes/<route id>.gpx` (characters other than ASCII letters, digits, `-` and `_` in the
+/// route id written as `_`).
+pub const ROUTES_DIR: &str = "routes";
+
+/// Whether the output file `name` (as [`render_all`] returns it) is a driver's document that
+/// may carry a request's street address: `route-sheets.html`, `labels.html` and the GPX
+/// files under [`ROUTES_DIR`]. Every other output carries ids and coordinates only.
+pub fn carries_addresses(name: &str) -> bool {
+    name == "route-sheets.html"
+        || name == "labels.html"
+        || (name.starts_with(ROUTES_DIR)
+            && name[ROUTES_DIR.len()..].starts_with('/')
+            && name.ends_with(".gpx"))
+}
 
 /// The printed page of every HTML output (`report.html`, `route-sheets.html`, the sweep's
 /// and the season's `report.html`): US Letter, portrait, 12 mm margins. Layouts keep to the
@@ -124,15 +151,16 @@ pub const CAUTIONS: [&str; 4] = [
 /// Choices about how the outputs are written that do not change the plan.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct RenderOptions {
-    /// Withhold request street addresses from the route sheets, the one output that carries
-    /// them, so that the sheets can be shared (e.g. with a contractor or for review). Each
-    /// dooryard stop and parcel label then reads "address withheld" with the request id and
-    /// coordinates; the layout stays the same.
+    /// Withhold request street addresses from the driver's documents, the only outputs that
+    /// carry them ([`carries_addresses`]), so that they can be shared (e.g. with a contractor
+    /// or for review). Each dooryard stop and parcel label then reads "address withheld" with
+    /// the request id and coordinates; the layout stays the same.
     pub redact: bool,
 }
 
-/// Renders every output file: `(file name, bytes)` in [`FILE_NAMES`] order, with the
-/// default [`RenderOptions`] (addresses on the route sheets).
+/// Renders every output file: `(file name, bytes)` in [`FILE_NAMES`] order, then the GPX
+/// file of each route in route order, with the default [`RenderOptions`] (addresses on the
+/// driver's documents).
 ///
 /// Cost: O(S + R·k + P) for S sites, R routes of k stops and P parcels, plus sorting.
 ///
@@ -165,8 +193,14 @@ pub fn render_all_with(
         ("plan.geojson", geojson::render(view, &plan)?),
         ("report.html", report::render(view, &plan)?),
         ("binding-constraints.csv", binding::render(view)?),
+        ("confirmations.csv", confirmations::render(&plan)?),
+        ("day-sheets.html", day_sheets::render(view, &plan)?),
+        ("labels.html", labels::render(view, &plan, options.redact)?),
     ];
-    Ok(files.into_iter().map(|(n, b)| (n.to_string(), b)).collect())
+    let mut out: Vec<(String, Vec<u8>)> =
+        files.into_iter().map(|(n, b)| (n.to_string(), b)).collect();
+    out.extend(gpx::render_all(view, &plan, options.redact)?);
+    Ok(out)
 }
 
 /// What actually gets delivered: the manifest rows and per-site totals, computed once and
@@ -178,6 +212,8 @@ pub(crate) struct Delivered {
     pub per_site: Vec<SiteDelivery>,
     /// Per (facility, pack date): delivered vials.
     pub used_by_pack_day: BTreeMap<(FacilityIdx, NaiveDate), u64>,
+    /// Index into `rows` of each delivered shipment, by index into `Allocation::shipments`.
+    pub shipment_row: BTreeMap<usize, usize>,
 }
 
 /// Delivered totals for one site.
@@ -199,7 +235,9 @@ impl Delivered {
         let sc = view.scenario;
         let mut per_site = vec![SiteDelivery::default(); sc.sites.len()];
         let mut used_by_pack_day = BTreeMap::new();
-        for r in &rows {
+        let mut shipment_row = BTreeMap::new();
+        for (i, r) in rows.iter().enumerate() {
+            shipment_row.insert(r.shipment, i);
             let d = per_site.get_mut(r.site).ok_or_else(|| bad_site(r.site))?;
             d.vials += u64::from(r.vials);
             d.wasps_expected_alive += r.wasps_expected_alive;
@@ -215,7 +253,18 @@ impl Delivered {
             rows,
             per_site,
             used_by_pack_day,
+            shipment_row,
         })
+    }
+
+    /// The manifest row of a delivered shipment (index into `Allocation::shipments`).
+    pub fn row_of(&self, shipment: usize) -> Result<&ManifestRow, OutputError> {
+        self.shipment_row
+            .get(&shipment)
+            .and_then(|&i| self.rows.get(i))
+            .ok_or_else(|| {
+                OutputError::Inconsistent(format!("shipment index {shipment} has no manifest row"))
+            })
     }
 
     /// Vials delivered, all rows.
@@ -364,7 +413,16 @@ mod tests {
         let p = fixture::tiny_plan();
         let files = render_all(&p.view()).expect("renders");
         let names: Vec<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
-        assert_eq!(names, FILE_NAMES);
+        assert_eq!(names[..FILE_NAMES.len()], FILE_NAMES);
+        assert_eq!(
+            names[FILE_NAMES.len()..],
+            ["routes/R-F1-20270302-1.gpx", "routes/R-F2-20270304-1.gpx"]
+        );
         assert!(files.iter().all(|(_, b)| !b.is_empty()));
+        for n in names {
+            let driver = matches!(n, "route-sheets.html" | "labels.html") || n.ends_with(".gpx");
+            assert_eq!(carries_addresses(n), driver, "{n}");
+        }
+        assert!(!carries_addresses("routes.gpx") && !carries_addresses("x/routes/a.gpx"));
     }
 }

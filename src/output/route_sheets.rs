@@ -1,14 +1,19 @@
-//! `route-sheets.html`: one printed page per route for the driver, and a parcel label list
-//! for the dispatcher. Print-ready on the one page size of every HTML output
+//! `route-sheets.html`: one printed page per route for the driver, and a parcel hand-over
+//! list for the dispatcher (the labels themselves are `labels.html`). Print-ready on the one page size of every HTML output
 //! ([`super::PAGE_SIZE`]), a page break before every sheet. A route of up to
 //! [`ONE_PAGE_STOPS`] stops prints on one page: the map shrinks as the stop list grows. The
 //! cautions sit under each sheet's heading, so they never stand alone on a page and always
 //! carry the route id; the stop table's heading, with the route id, repeats on every page of a
 //! longer route.
 //!
-//! This is the ONLY output that carries a request's street address: a driver needs it to find
-//! a dooryard, and the dispatcher needs it on parcel labels. Blocks are found by their block
-//! id and access point. Every value from the input is HTML-escaped.
+//! Each stop line carries the shipment id (the key of `confirmations.csv`, so the "Done"
+//! ticks go back into `ledger confirm` without the manifest) and a `geo:` link (RFC 5870) to
+//! the stop. The map draws the route's driven path with numbered labels set off their stops
+//! ([`label_layout`]) so that clustered stops stay readable.
+//!
+//! One of the driver's documents, the only outputs that carry a request's street address
+//! ([`super::carries_addresses`]): a driver needs it to find a dooryard. Blocks are found by
+//! their block id and access point. Every value from the input is HTML-escaped.
 
 use std::fmt::Write;
 
@@ -43,13 +48,15 @@ td.tick { width: 9mm; text-align: center; }
 td.notes { width: 30mm; }
 table.route { table-layout: fixed; }
 table.route .c-seq { width: 8mm; }
-table.route .c-site { width: 15mm; }
-table.route .c-arr { width: 21mm; }
+table.route .c-site { width: 29mm; }
+.ship { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 6.5pt; line-height: 1.15; color: #333; white-space: nowrap; display: block; }
+a.geo { color: #000; text-decoration: underline; }
+table.route .c-arr { width: 20mm; }
 .wait { font-size: 7.5pt; }
 table.route .c-vials { width: 11mm; }
-table.route .c-by { width: 21mm; }
+table.route .c-by { width: 20mm; }
 table.route .c-done { width: 11mm; }
-table.route .c-notes { width: 18mm; }
+table.route .c-notes { width: 14mm; }
 .box { display: inline-block; width: 4.5mm; height: 4.5mm; border: 0.4mm solid #000; }
 .map { width: 100%; height: auto; border: 0.3mm solid #999; margin: 2mm 0; }
 .cautions { margin: 1.5mm 0; border: 0.3mm solid #000; padding: 1mm 2mm; font-size: 7.5pt; break-inside: avoid; }
@@ -84,7 +91,7 @@ pub(crate) const WITHHELD: &str = "address withheld";
 /// id and its coordinates (the driver can still navigate by coordinates).
 pub(crate) fn render(
     view: &PlanView,
-    _plan: &Delivered,
+    plan: &Delivered,
     redact: bool,
 ) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
@@ -108,7 +115,7 @@ pub(crate) fn render(
         );
     }
     for route in &view.dispatch.routes {
-        sheet(&mut h, sc, route, redact)?;
+        sheet(&mut h, sc, plan, route, redact)?;
     }
     if !view.dispatch.parcels.is_empty() {
         parcel_page(&mut h, view, redact)?;
@@ -163,7 +170,20 @@ fn redaction_note(redact: bool) -> &'static str {
     }
 }
 
-fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), OutputError> {
+/// A `geo:` URI (RFC 5870, WGS 84, latitude first) as a link reading `lat, lon`: tapped on a
+/// phone it opens the map app at the stop.
+fn geo_link(p: LonLat) -> String {
+    let (lat, lon) = (fixed(p.lat, 6), fixed(p.lon, 6));
+    format!("<a class=\"geo nw\" href=\"geo:{lat},{lon}\">{lat}, {lon}</a>")
+}
+
+fn sheet(
+    h: &mut String,
+    sc: &Scenario,
+    plan: &Delivered,
+    r: &Route,
+    redact: bool,
+) -> Result<(), OutputError> {
     let depot = sc.facilities.get(r.depot).ok_or_else(|| {
         OutputError::Inconsistent(format!(
             "route {}: depot index {} is out of range",
@@ -210,7 +230,7 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
         h,
         "<table class=\"stops route\"><colgroup><col class=\"c-seq\"><col class=\"c-site\"><col><col class=\"c-arr\"><col class=\"c-vials\"><col class=\"c-by\"><col class=\"c-done\"><col class=\"c-notes\"></colgroup>\
 <thead><tr><th colspan=\"8\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
-<tr><th>#</th><th>Site</th>\
+<tr><th>#</th><th>Site · shipment</th>\
 <th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
 <th>Notes</th></tr></thead><tbody>",
         esc(&r.id),
@@ -219,30 +239,25 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
     );
     for (i, st) in r.stops.iter().enumerate() {
         let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
+        let geo = geo_link(site.location);
         let find = match &site.detail {
             SiteDetail::Dooryard(_) if redact => format!(
-                "Dooryard: <em>{WITHHELD}</em> (request {})<br><span class=\"muted nw\">{}, {}</span>",
+                "Dooryard: <em>{WITHHELD}</em> (request {})<br>{geo}",
                 esc(site.id.as_str()),
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6)
             ),
-            SiteDetail::Dooryard(req) => format!(
-                "Dooryard: {}<br><span class=\"muted nw\">{}, {}</span>",
-                esc(&req.address),
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6)
-            ),
+            SiteDetail::Dooryard(req) => {
+                format!("Dooryard: {}<br>{geo}", esc(&req.address))
+            }
             SiteDetail::Block(b) => format!(
-                "Block {} · {}, {} ha · open {}–{}<br>access point <span class=\"nw\">{}, {}</span>",
+                "Block {} · {}, {} ha · open {}–{}<br>access point {geo}",
                 esc(site.id.as_str()),
                 esc(&b.crop),
                 fixed(b.area_ha, 1),
                 b.access_start.format("%H:%M"),
                 b.access_end.format("%H:%M"),
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6),
             ),
         };
+        let shipment = plan.row_of(st.shipment)?;
         let arrive = if st.service_start > st.arrival {
             format!(
                 "{}<br><span class=\"muted wait\">release {}</span>",
@@ -254,11 +269,12 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
         };
         let _ = writeln!(
             h,
-            "<tr><td class=\"seq\">{seq}</td><td>{id}</td><td class=\"find\">{find}</td>\
+            "<tr><td class=\"seq\">{seq}</td><td>{id}<span class=\"ship\">{ship}</span></td><td class=\"find\">{find}</td>\
 <td class=\"num\">{arrive}</td><td class=\"num\">{vials}</td><td class=\"num\">{by}</td>\
 <td class=\"tick\"><span class=\"box\"></span></td><td class=\"notes\"></td></tr>",
             seq = i + 1,
             id = esc(site.id.as_str()),
+            ship = esc(&shipment.shipment_id),
             vials = st.vials,
             by = time_on(st.release_by, r.date),
         );
@@ -267,8 +283,94 @@ fn sheet(h: &mut String, sc: &Scenario, r: &Route, redact: bool) -> Result<(), O
     Ok(())
 }
 
-/// The route's map: block outlines, the path depot → stops → depot (home leg dashed), numbered stops, the
-/// depot square, scale bar and north arrow. O(k) in stops plus block vertices.
+/// The map shows the stops only when that draws them at least this many times larger than a
+/// map that also holds the depot (a cluster far from its depot).
+const ZOOM_FACTOR: f64 = 4.0;
+
+/// Radius of a stop-number label on the map, SVG user units (about 4.6 mm across printed).
+const LABEL_R: f64 = 8.5;
+
+/// Where each stop's number goes: a greedy offset layout with leader lines. Stop `i` (in
+/// visiting order) takes the first free spot on rings of growing radius around its dot (16
+/// bearings a ring), where free means inside the canvas and off the north arrow (top right)
+/// and the scale bar (bottom left), clear of every label already placed (centres at least
+/// `2 × LABEL_R + 1` apart), of every stop dot and of the depot. Labels
+/// never sit on their own dot, so the dot and the block outline under it stay visible; when
+/// no ring has room (not met on the demo), the spot with the fewest clashes is taken.
+/// Deterministic. O(k² · c) for k stops and c = 16 × 12 candidate spots.
+pub(crate) fn label_layout(
+    dots: &[(f64, f64)],
+    depot: (f64, f64),
+    w: f64,
+    h: f64,
+) -> Vec<(f64, f64)> {
+    const RINGS: [f64; 12] = [
+        15.0, 24.0, 34.0, 45.0, 57.0, 70.0, 84.0, 99.0, 115.0, 132.0, 150.0, 170.0,
+    ];
+    let min_gap = 2.0 * LABEL_R + 1.0;
+    let mut placed: Vec<(f64, f64)> = Vec::with_capacity(dots.len());
+    for &(x, y) in dots {
+        let mut best: Option<((usize, f64), (f64, f64))> = None;
+        'rings: for &rad in &RINGS {
+            for k in 0..16 {
+                // Start up-right (a label reads best there), then go round.
+                let a = std::f64::consts::PI * (0.25 - f64::from(k) / 8.0);
+                let c = (x + rad * a.cos(), y - rad * a.sin());
+                let inside = c.0 >= LABEL_R + 2.0
+                    && c.0 <= w - LABEL_R - 2.0
+                    && c.1 >= LABEL_R + 2.0
+                    && c.1 <= h - LABEL_R - 2.0;
+                if !inside {
+                    continue;
+                }
+                let on_furniture = (c.0 > w - 36.0 - LABEL_R && c.1 < 56.0 + LABEL_R)
+                    || (c.0 < w * 0.25 + 72.0 + LABEL_R && c.1 > h - 32.0 - LABEL_R);
+                if on_furniture {
+                    continue;
+                }
+                let d = |p: (f64, f64)| (p.0 - c.0).hypot(p.1 - c.1);
+                let clashes = placed.iter().filter(|&&p| d(p) < min_gap).count()
+                    + dots.iter().filter(|&&p| d(p) < LABEL_R + 3.0).count()
+                    + usize::from(d(depot) < LABEL_R + 12.0);
+                let key = (clashes, rad);
+                if best.is_none_or(|(b, _)| key.0 < b.0) {
+                    best = Some((key, c));
+                }
+                if clashes == 0 {
+                    break 'rings;
+                }
+            }
+        }
+        placed.push(best.map_or((x, y), |(_, c)| c));
+    }
+    placed
+}
+
+/// Index into `path` where the drive home starts: the last point nearest to the last stop.
+fn home_start(path: &[(f64, f64)], last_stop: (f64, f64)) -> usize {
+    let mut best = (f64::INFINITY, 0);
+    for (i, p) in path.iter().enumerate() {
+        let d = (p.0 - last_stop.0).hypot(p.1 - last_stop.1);
+        if d <= best.0 {
+            best = (d, i);
+        }
+    }
+    best.1
+}
+
+fn polyline(points: &[(f64, f64)]) -> String {
+    points
+        .iter()
+        .map(|p| format!("{},{}", f1(p.0), f1(p.1)))
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// The route's map: the driven path ([`Route::path`], or straight legs when the travel
+/// model has none; the drive home dashed, arrows every 90 units along the way out), block
+/// outlines drawn over the path, small stop dots, numbered labels offset with leader lines
+/// ([`label_layout`]), the depot square, scale bar and north arrow. O(p + k² + v) for p path
+/// points, k stops and v block vertices.
 fn route_map(
     sc: &Scenario,
     r: &Route,
@@ -284,8 +386,21 @@ fn route_map(
                 .location,
         );
     }
+    let drive: Vec<LonLat> = if r.path.len() >= 2 {
+        r.path.clone()
+    } else {
+        pts.iter().copied().chain(std::iter::once(depot)).collect()
+    };
     let map_h = map_height(r.stops.len());
-    let frame = Frame::fit(&pts, MAP_W, map_h, 34.0, 1.0);
+    let mut extent = pts.clone();
+    extent.extend_from_slice(&drive);
+    let whole = Frame::fit(&extent, MAP_W, map_h, 34.0, 1.0);
+    // A cluster of stops far from the depot would be a knot at one end of a long line: then
+    // the map shows the stops (and the path among them) only, and the depot sits on the map's
+    // edge in its direction with its distance.
+    let near = Frame::fit(&pts[1..], MAP_W, map_h, 34.0, 1.0);
+    let zoomed = pts.len() > 2 && near.px_per_km() > ZOOM_FACTOR * whole.px_per_km();
+    let frame = if zoomed { near } else { whole };
     let mut s = String::new();
     let _ = write!(
         s,
@@ -295,56 +410,38 @@ fn route_map(
         hh = f1(map_h),
         id = esc(&r.id)
     );
-    for st in &r.stops {
-        if let Some(SiteDetail::Block(b)) = sc.sites.get(st.site).map(|s| &s.detail) {
-            for poly in &b.geometry.0 {
-                let d: Vec<String> = poly
-                    .exterior()
-                    .coords()
-                    .map(|c| {
-                        let (x, y) = frame.px(LonLat { lon: c.x, lat: c.y });
-                        format!("{},{}", f1(x), f1(y))
-                    })
-                    .collect();
-                let _ = write!(
-                    s,
-                    "<polygon points=\"{}\" fill=\"#cfe8c4\" stroke=\"#4d7f3a\" stroke-width=\"1\"/>",
-                    d.join(" ")
-                );
-            }
-        }
-    }
-    // Outbound legs solid with a direction arrow at mid-leg; the drive home dashed, so the
-    // order reads even where legs overlap.
-    let px: Vec<(f64, f64)> = pts.iter().map(|p| frame.px(*p)).collect();
-    let legs = px.len();
-    for i in 0..legs {
-        let (a, b) = (px[i], px[(i + 1) % legs]);
-        let home = i + 1 == legs;
-        if legs < 2 {
-            break;
-        }
+    let px: Vec<(f64, f64)> = drive.iter().map(|p| frame.px(*p)).collect();
+    let stop_px: Vec<(f64, f64)> = pts[1..].iter().map(|p| frame.px(*p)).collect();
+    let home = stop_px.last().map_or(px.len() - 1, |&l| home_start(&px, l));
+    let _ = write!(
+        s,
+        "<polyline class=\"path\" points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2.2\" stroke-linejoin=\"round\"/>",
+        polyline(&px[..=home])
+    );
+    if home + 1 < px.len() {
         let _ = write!(
             s,
-            "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"#1f4e9c\" stroke-width=\"2\"{}/>",
-            f1(a.0),
-            f1(a.1),
-            f1(b.0),
-            f1(b.1),
-            if home {
-                " stroke-dasharray=\"6 4\" stroke-opacity=\"0.7\""
-            } else {
-                ""
-            }
+            "<polyline class=\"path home\" points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2\" stroke-dasharray=\"6 4\" stroke-opacity=\"0.7\"/>",
+            polyline(&px[home..])
         );
+    }
+    // Direction arrows every 90 units along the way out, so the order reads where the path
+    // doubles back.
+    let mut since = 45.0;
+    for w in px[..=home].windows(2) {
+        let (a, b) = (w[0], w[1]);
         let (dx, dy) = (b.0 - a.0, b.1 - a.1);
         let len = dx.hypot(dy);
-        if !home && len > 40.0 {
+        if len <= 0.0 {
+            continue;
+        }
+        let mut t = 90.0 - since;
+        while t <= len {
             let (ux, uy) = (dx / len, dy / len);
-            let (mx, my) = (a.0 + dx * 0.5, a.1 + dy * 0.5);
+            let (mx, my) = (a.0 + ux * t, a.1 + uy * t);
             let tip = (mx + ux * 6.0, my + uy * 6.0);
             let l = (mx - ux * 5.0 - uy * 5.0, my - uy * 5.0 + ux * 5.0);
-            let r = (mx - ux * 5.0 + uy * 5.0, my - uy * 5.0 - ux * 5.0);
+            let rr = (mx - ux * 5.0 + uy * 5.0, my - uy * 5.0 - ux * 5.0);
             let _ = write!(
                 s,
                 "<path d=\"M{} {}L{} {}L{} {}Z\" fill=\"#1f4e9c\"/>",
@@ -352,37 +449,94 @@ fn route_map(
                 f1(tip.1),
                 f1(l.0),
                 f1(l.1),
-                f1(r.0),
-                f1(r.1)
+                f1(rr.0),
+                f1(rr.1)
             );
+            t += 90.0;
+        }
+        since = len - (t - 90.0);
+    }
+    // Block outlines over the path and under nothing else: a stop's label is set off its dot.
+    for st in &r.stops {
+        if let Some(SiteDetail::Block(b)) = sc.sites.get(st.site).map(|s| &s.detail) {
+            for poly in &b.geometry.0 {
+                let d: Vec<(f64, f64)> = poly
+                    .exterior()
+                    .coords()
+                    .map(|c| frame.px(LonLat { lon: c.x, lat: c.y }))
+                    .collect();
+                let _ = write!(
+                    s,
+                    "<polygon class=\"block\" points=\"{}\" fill=\"#cfe8c4\" fill-opacity=\"0.55\" stroke=\"#2f6a1f\" stroke-width=\"1.4\"/>",
+                    polyline(&d)
+                );
+            }
         }
     }
-    let (dx, dy) = frame.px(depot);
+    let (mut dx, mut dy) = frame.px(depot);
+    let mut depot_label = esc(depot_id);
+    if zoomed {
+        // Onto the edge, along the line from the map's centre to the depot.
+        let (cx, cy) = (MAP_W / 2.0, map_h / 2.0);
+        let (vx, vy) = (dx - cx, dy - cy);
+        let t = ((cx - 14.0) / vx.abs().max(1e-9))
+            .min((cy - 14.0) / vy.abs().max(1e-9))
+            .min(1.0);
+        (dx, dy) = (cx + vx * t, cy + vy * t);
+        let centre = LonLat {
+            lon: pts[1..].iter().map(|p| p.lon).sum::<f64>() / (pts.len() - 1) as f64,
+            lat: pts[1..].iter().map(|p| p.lat).sum::<f64>() / (pts.len() - 1) as f64,
+        };
+        depot_label = format!(
+            "{depot_label} off map, {} km",
+            fixed(crate::geodesy::distance_m(centre, depot) / 1000.0, 1)
+        );
+    }
+    let right = dx > MAP_W - 130.0;
     let _ = write!(
         s,
-        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\">{}</text>",
+        "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text class=\"depot\" x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\" stroke=\"#fff\" stroke-width=\"3\" paint-order=\"stroke\"{}>{}</text>",
         f1(dx - 8.0),
         f1(dy - 8.0),
         f1(dx),
         f1(dy + 4.0),
-        f1(dx + 11.0),
+        f1(if right { dx - 11.0 } else { dx + 11.0 }),
         f1(dy + 4.0),
-        esc(depot_id)
+        if right { " text-anchor=\"end\"" } else { "" },
+        depot_label
     );
-    for (i, st) in r.stops.iter().enumerate() {
-        let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
-        let (x, y) = frame.px(site.location);
+    let labels = label_layout(&stop_px, (dx, dy), MAP_W, map_h);
+    for (&(x, y), _) in stop_px.iter().zip(&labels) {
         let _ = write!(
             s,
-            "<circle cx=\"{x}\" cy=\"{y}\" r=\"10\" fill=\"#fff\" stroke=\"#1f4e9c\" stroke-width=\"2\"/>\
-<text x=\"{x}\" y=\"{ty}\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">{n}</text>\
-<text x=\"{lx}\" y=\"{ty}\" font-size=\"10\" fill=\"#333\">{id}</text>",
-            x = f1(x),
-            y = f1(y),
-            ty = f1(y + 4.0),
-            lx = f1(x + 13.0),
+            "<circle class=\"dot\" cx=\"{}\" cy=\"{}\" r=\"3.2\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"1.3\"/>",
+            f1(x),
+            f1(y)
+        );
+    }
+    for (i, (&(x, y), &(lx, ly))) in stop_px.iter().zip(&labels).enumerate() {
+        let (ddx, ddy) = (lx - x, ly - y);
+        let d = ddx.hypot(ddy);
+        if d > LABEL_R {
+            let k = (d - LABEL_R) / d;
+            let _ = write!(
+                s,
+                "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"#555\" stroke-width=\"0.8\"/>",
+                f1(x),
+                f1(y),
+                f1(x + ddx * k),
+                f1(y + ddy * k)
+            );
+        }
+        let _ = write!(
+            s,
+            "<circle class=\"label\" cx=\"{lx}\" cy=\"{ly}\" r=\"{LABEL_R}\" fill=\"#fff\" stroke=\"#1f4e9c\" stroke-width=\"1.6\"/>\
+<text x=\"{lx}\" y=\"{ty}\" font-size=\"{fs}\" font-weight=\"bold\" text-anchor=\"middle\">{n}</text>",
+            lx = f1(lx),
+            ly = f1(ly),
+            ty = f1(ly + 3.6),
+            fs = if i + 1 >= 10 { "9" } else { "10.5" },
             n = i + 1,
-            id = esc(site.id.as_str())
         );
     }
     s.push_str(&frame.furniture());
@@ -394,7 +548,7 @@ fn parcel_page(h: &mut String, view: &PlanView, redact: bool) -> Result<(), Outp
     let sc = view.scenario;
     let _ = write!(
         h,
-        "<section class=\"sheet\">\n<h1>Parcel labels — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one label per parcel. Pack with a cool pack, out of the sun.</p>\n{}\
+        "<section class=\"sheet\">\n<h1>Parcel hand-over — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one line per parcel; the labels to cut are in labels.html. Pack with a cool pack, out of the sun.</p>\n{}\
 <table class=\"stops\"><thead><tr><th>#</th><th>Request</th><th>Address</th><th>From</th><th>Hand over</th><th>Delivery (est.)</th><th>Vials</th><th>Release by</th><th>Packed</th></tr></thead><tbody>\n",
         sc.week_start,
         redaction_note(redact),
@@ -507,11 +661,120 @@ mod tests {
         assert!(h.contains("3 Grove Lane"), "R2 is on route 2");
         assert!(h.contains("88 Canal Street"), "R3 is the parcel");
         assert!(!h.contains("5 Dune Court"), "R4 is not served");
-        assert!(h.contains("access point <span class=\"nw\">26.980000, -80.020000</span>"));
+        assert!(h.contains(
+            "access point <a class=\"geo nw\" href=\"geo:26.980000,-80.020000\">26.980000, -80.020000</a>"
+        ));
         assert!(
             h.contains("release 08:00"),
             "R1 waits for the dooryard window"
         );
+    }
+
+    #[test]
+    fn every_stop_line_carries_its_shipment_id_and_a_geo_link() {
+        let h = html();
+        let rows: Vec<&str> = h.split("<tr><td class=\"seq\">").skip(1).collect();
+        // Three stops, two stops, one parcel line.
+        assert_eq!(rows.len(), 6);
+        for (row, ship) in rows.iter().zip([
+            "S-F1-20270302-B1",
+            "S-F1-20270302-R1",
+            "S-F1-20270302-B2",
+            "S-F2-20270304-B6",
+            "S-F2-20270304-R2",
+        ]) {
+            assert!(
+                row.contains(&format!("<span class=\"ship\">{ship}</span>")),
+                "{row}"
+            );
+            assert_eq!(row.matches("href=\"geo:").count(), 1, "{row}");
+        }
+    }
+
+    #[test]
+    fn the_map_draws_the_driven_path() {
+        let p = tiny_plan();
+        let h = html();
+        let first = &h[..h.find("</svg>").unwrap()];
+        let points: usize = first
+            .split("<polyline class=\"path")
+            .skip(1)
+            .map(|l| {
+                let l = &l[l.find("points=\"").unwrap() + 8..];
+                l[..l.find('"').unwrap()].split(' ').count()
+            })
+            .sum();
+        // Out and home share the last stop's point.
+        assert_eq!(points, p.dispatch.routes[0].path.len() + 1);
+        assert_eq!(
+            first.matches("<polygon class=\"block\"").count(),
+            2,
+            "B1, B2"
+        );
+    }
+
+    /// Twenty-eight stops within a few units of each other (a cluster of dooryards on one
+    /// street at map scale): every label finds its own spot, none on a dot or on another.
+    #[test]
+    fn clustered_stops_get_labels_that_do_not_overlap() {
+        let dots: Vec<(f64, f64)> = (0..28)
+            .map(|i| {
+                let i = f64::from(i);
+                (300.0 + (i * 1.7) % 9.0, 120.0 + (i * 2.3) % 7.0)
+            })
+            .collect();
+        let labels = label_layout(&dots, (40.0, 150.0), MAP_W, MAP_H_MIN);
+        // The same cluster in the top-right corner, under the north arrow.
+        let corner: Vec<(f64, f64)> = dots.iter().map(|&(x, y)| (x + 350.0, y - 100.0)).collect();
+        for (x, y) in label_layout(&corner, (40.0, 150.0), MAP_W, MAP_H_MIN) {
+            assert!(
+                !(x > MAP_W - 36.0 && y < 56.0),
+                "({x}, {y}) on the north arrow"
+            );
+        }
+        assert_eq!(labels.len(), dots.len());
+        let d = |a: (f64, f64), b: (f64, f64)| (a.0 - b.0).hypot(a.1 - b.1);
+        for (i, &a) in labels.iter().enumerate() {
+            for &b in &labels[i + 1..] {
+                assert!(d(a, b) >= 2.0 * LABEL_R, "{a:?} {b:?}");
+            }
+            for &p in &dots {
+                assert!(d(a, p) >= LABEL_R, "label {a:?} covers dot {p:?}");
+            }
+            assert!(a.0 >= LABEL_R && a.0 <= MAP_W - LABEL_R);
+            assert!(a.1 >= LABEL_R && a.1 <= MAP_H_MIN - LABEL_R);
+            assert!(
+                !(a.0 > MAP_W - 36.0 && a.1 < 56.0),
+                "{a:?} on the north arrow"
+            );
+        }
+    }
+
+    /// Stops 30 km from their depot: the map shows the stops, and the depot sits on the edge
+    /// towards it with its distance; a depot among its stops stays where it is.
+    #[test]
+    fn a_far_depot_goes_on_the_edge_of_a_map_of_the_stops() {
+        let mut p = tiny_plan();
+        let near = html();
+        assert!(!near.contains("off map"), "F1 is near its stops");
+        p.scenario.facilities[0].location.lat += 0.27;
+        p.dispatch.routes[0].path.clear();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let far = String::from_utf8(render(&v, &plan, false).unwrap()).unwrap();
+        let map = &far[..far.find("</svg>").unwrap()];
+        let depot = &map[map.find("<text class=\"depot\"").unwrap()..];
+        let depot = &depot[..depot.find("</text>").unwrap()];
+        assert!(depot.ends_with("F1 off map, 33.0 km"), "{depot}");
+        // The depot square is on the top edge (the depot is due north).
+        let y: f64 = map[map.find("<rect x=\"").unwrap()..]
+            .split("y=\"")
+            .nth(1)
+            .and_then(|t| t.split('"').next())
+            .unwrap()
+            .parse()
+            .unwrap();
+        assert!(y < 10.0, "{y}");
     }
 
     #[test]

@@ -71,6 +71,11 @@ impl Frame {
         }
     }
 
+    /// Scale, SVG units per km.
+    pub fn px_per_km(&self) -> f64 {
+        self.px_per_km
+    }
+
     /// Pixel position of a point.
     pub fn px(&self, p: LonLat) -> (f64, f64) {
         let x_km = (p.lon - self.lon0).to_radians() * EARTH_RADIUS_KM * self.cos_lat0;

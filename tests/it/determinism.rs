@@ -12,15 +12,22 @@ fn bin() -> &'static str {
     env!("CARGO_BIN_EXE_broodcast")
 }
 
+/// Every file under `dir`, by path relative to it (`routes/…` for the GPX files).
 fn files(dir: &Path) -> BTreeMap<String, Vec<u8>> {
-    fs::read_dir(dir)
-        .expect("read output")
-        .map(|e| {
-            let e = e.expect("entry");
-            let name = e.file_name().to_string_lossy().into_owned();
-            (name, fs::read(e.path()).expect("read output file"))
-        })
-        .collect()
+    let mut out = BTreeMap::new();
+    let mut todo = vec![dir.to_path_buf()];
+    while let Some(d) = todo.pop() {
+        for e in fs::read_dir(&d).expect("read output") {
+            let p = e.expect("entry").path();
+            if p.is_dir() {
+                todo.push(p);
+            } else {
+                let name = p.strip_prefix(dir).unwrap().to_string_lossy().into_owned();
+                out.insert(name, fs::read(&p).expect("read output file"));
+            }
+        }
+    }
+    out
 }
 
 #[test]
@@ -57,8 +64,11 @@ fn plan_writes_the_same_bytes_on_one_and_two_threads() {
         one.0.keys().collect::<Vec<_>>(),
         two.0.keys().collect::<Vec<_>>()
     );
-    // The contract's files plus the marker that lets the next run replace the folder.
-    assert_eq!(one.0.len(), broodcast::output::FILE_NAMES.len() + 1);
+    // The contract's files, a GPX file per route and the marker that lets the next run
+    // replace the folder.
+    let gpx = one.0.keys().filter(|n| n.starts_with("routes/")).count();
+    assert!(gpx > 0);
+    assert_eq!(one.0.len(), broodcast::output::FILE_NAMES.len() + gpx + 1);
     assert!(one.0.contains_key(broodcast::output::target::MARKER));
     for (name, bytes) in &one.0 {
         assert!(!bytes.is_empty(), "{name} is empty");

@@ -19,6 +19,7 @@ mod limits;
 mod loader;
 mod out_safety;
 mod outputs;
+mod paperwork;
 mod plan_check;
 mod pressure;
 mod route_feasibility;

@@ -11,7 +11,8 @@ use std::process::Command;
 
 use broodcast::output::fixture::{TinyPlan, tiny_plan};
 use broodcast::output::{
-    FILE_NAMES, ONE_PAGE_STOPS, RenderOptions, render_all, render_all_with, write_dir_atomically,
+    FILE_NAMES, ONE_PAGE_STOPS, ROUTES_DIR, RenderOptions, carries_addresses, render_all,
+    render_all_with, write_dir_atomically,
 };
 use broodcast::scenario::SiteDetail;
 use chrono::NaiveDateTime;
@@ -143,7 +144,7 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
     };
     assert_eq!(
         fc.features.len(),
-        p.scenario.sites.len() + p.scenario.facilities.len()
+        p.scenario.sites.len() + p.scenario.facilities.len() + p.dispatch.routes.len()
     );
     assert!(!text.to_lowercase().contains("address"));
     for s in &p.scenario.sites {
@@ -154,8 +155,18 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
     let raw: serde_json::Value = serde_json::from_str(text).unwrap();
     assert!(raw.get("crs").is_none(), "RFC 7946 §4: no crs member");
     let mut polygons = 0;
+    let mut lines = 0;
     for feat in &fc.features {
         let props = feat.properties.as_ref().expect("properties");
+        if props["kind"] == "route" {
+            lines += 1;
+            let g: geo::Geometry<f64> = feat.geometry.clone().unwrap().try_into().unwrap();
+            assert!(
+                matches!(g, geo::Geometry::LineString(_)),
+                "a route is a line"
+            );
+            continue;
+        }
         for key in [
             "id",
             "kind",
@@ -183,10 +194,11 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
         }
     }
     assert_eq!(polygons, 6, "every block is a polygon");
+    assert_eq!(lines, 2, "every route is a line");
 }
 
 #[test]
-fn request_addresses_appear_on_route_sheets_and_nowhere_else() {
+fn request_addresses_appear_on_driver_documents_and_nowhere_else() {
     let p = tiny_plan();
     let f = files(&p);
     let served = ["12 Palm Row", "3 Grove Lane", "88 Canal Street"];
@@ -196,12 +208,18 @@ fn request_addresses_appear_on_route_sheets_and_nowhere_else() {
             "{a} missing from route sheets"
         );
     }
+    assert!(
+        f["labels.html"].contains("88 Canal Street"),
+        "R3's parcel label"
+    );
+    assert!(f["routes/R-F1-20270302-1.gpx"].contains("12 Palm Row"));
+    assert!(f["routes/R-F2-20270304-1.gpx"].contains("3 Grove Lane"));
     for s in &p.scenario.sites {
         let SiteDetail::Dooryard(r) = &s.detail else {
             continue;
         };
         for (name, body) in &f {
-            if name != "route-sheets.html" {
+            if !carries_addresses(name) {
                 assert!(
                     !body.contains(&r.address),
                     "{} leaks into {name}",
@@ -213,27 +231,25 @@ fn request_addresses_appear_on_route_sheets_and_nowhere_else() {
 }
 
 #[test]
-fn redacted_route_sheets_hold_no_address_and_the_rest_is_unchanged() {
+fn redacted_driver_documents_hold_no_address_and_the_rest_is_unchanged() {
     let p = tiny_plan();
     let full = render_all(&p.view()).unwrap();
     let red = render_all_with(&p.view(), &RenderOptions { redact: true }).unwrap();
+    assert_eq!(full.len(), red.len());
     for ((n, a), (m, b)) in full.iter().zip(&red) {
         assert_eq!(n, m);
-        if n != "route-sheets.html" {
+        if !carries_addresses(n) {
             assert_eq!(a, b, "{n} must not change with --redact");
+            continue;
         }
-    }
-    let sheets = String::from_utf8(red[4].1.clone()).unwrap();
-    for s in &p.scenario.sites {
-        if let Some(r) = s.as_request() {
-            assert!(
-                !sheets.contains(&r.address),
-                "{} on a redacted sheet",
-                r.address
-            );
+        let text = String::from_utf8(b.clone()).unwrap();
+        for s in &p.scenario.sites {
+            if let Some(r) = s.as_request() {
+                assert!(!text.contains(&r.address), "{} in redacted {n}", r.address);
+            }
         }
+        assert!(text.contains("address withheld"), "{n}");
     }
-    assert!(sheets.contains("address withheld"));
 }
 
 /// Through the binary on the demo: the raw demo `requests.csv` has fake name, phone and
@@ -285,6 +301,12 @@ fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
                 std::fs::read_to_string(out.join(name)).unwrap(),
             );
         }
+        for e in std::fs::read_dir(out.join(ROUTES_DIR)).unwrap() {
+            let e = e.unwrap();
+            let name = format!("{ROUTES_DIR}/{}", e.file_name().to_string_lossy());
+            files.insert(name, std::fs::read_to_string(e.path()).unwrap());
+        }
+        assert!(files.keys().any(|n| n.ends_with(".gpx")));
         let mut log = String::from_utf8_lossy(&o.stdout).into_owned();
         log.push_str(&String::from_utf8_lossy(&o.stderr));
         files.insert("(terminal)".into(), log);
@@ -298,8 +320,7 @@ fn demo_outputs_keep_personal_data_where_the_table_in_docs_outputs_says() {
                 for v in personal {
                     assert!(!text.contains(v.as_str()), "{name} holds '{v}' of {req_id}");
                 }
-                let sheets = name == "route-sheets.html";
-                if !sheets || redact {
+                if !carries_addresses(name) || redact {
                     for form in [addr.clone(), escaped(addr)] {
                         assert!(
                             !text.contains(&form),
@@ -347,7 +368,12 @@ fn rendering_twice_gives_identical_bytes_and_the_folder_holds_them() {
     let b = render_all(&p.view()).unwrap();
     assert_eq!(a, b);
     let names: Vec<&str> = a.iter().map(|(n, _)| n.as_str()).collect();
-    assert_eq!(names, FILE_NAMES);
+    assert_eq!(names[..FILE_NAMES.len()], FILE_NAMES);
+    assert!(
+        names[FILE_NAMES.len()..]
+            .iter()
+            .all(|n| n.ends_with(".gpx"))
+    );
     let root = tempfile::tempdir().unwrap();
     let out = root.path().join("out");
     write_dir_atomically(&out, &a).unwrap();
@@ -388,7 +414,7 @@ fn hostile_ids_are_escaped_in_html_and_survive_csv_and_json() {
     assert!(gj.to_string().contains("alert(1)"));
 }
 
-fn have(cmd: &str) -> bool {
+pub(crate) fn have(cmd: &str) -> bool {
     Command::new("sh")
         .arg("-c")
         .arg(format!("command -v {cmd}"))
@@ -397,7 +423,7 @@ fn have(cmd: &str) -> bool {
         .unwrap_or(false)
 }
 
-fn print_pdf(html: &Path, pdf: &Path) {
+pub(crate) fn print_pdf(html: &Path, pdf: &Path) {
     let profile = tempfile::tempdir().unwrap();
     let status = Command::new("timeout")
         .arg("120")
@@ -424,7 +450,7 @@ fn print_pdf(html: &Path, pdf: &Path) {
     );
 }
 
-fn pdf_pages(pdf: &Path) -> u32 {
+pub(crate) fn pdf_pages(pdf: &Path) -> u32 {
     let out = Command::new("pdfinfo")
         .arg(pdf)
         .output()
@@ -436,7 +462,7 @@ fn pdf_pages(pdf: &Path) -> u32 {
 }
 
 /// Text of page `page` (1-based) of a PDF, by poppler's `pdftotext`.
-fn pdf_page_text(pdf: &Path, page: u32) -> String {
+pub(crate) fn pdf_page_text(pdf: &Path, page: u32) -> String {
     let out = Command::new("pdftotext")
         .args(["-f", &page.to_string(), "-l", &page.to_string()])
         .arg(pdf)
@@ -446,7 +472,7 @@ fn pdf_page_text(pdf: &Path, page: u32) -> String {
     String::from_utf8_lossy(&out.stdout).into_owned()
 }
 
-fn printing_tools() -> bool {
+pub(crate) fn printing_tools() -> bool {
     let ok = have("chromium") && have("pdfinfo") && have("pdftotext");
     if !ok {
         util::skip(
@@ -459,7 +485,7 @@ fn printing_tools() -> bool {
 
 /// With `BROODCAST_DOCS_IMG=DIR`, writes PNGs of pages `1..=last` of `pdf` (pdftoppm) for
 /// docs/img.
-fn screenshots(pdf: &Path, name: &str, last: u32) {
+pub(crate) fn screenshots(pdf: &Path, name: &str, last: u32) {
     if let Ok(img) = std::env::var("BROODCAST_DOCS_IMG") {
         std::fs::create_dir_all(&img).unwrap();
         let st = Command::new("pdftoppm")
@@ -511,7 +537,7 @@ fn route_sheets_print_one_page_per_route_that_fits() {
     for page in 1..=pages {
         let text = pdf_page_text(&long, page);
         assert!(
-            text.contains("Route R-") || text.contains("Parcel labels"),
+            text.contains("Route R-") || text.contains("Parcel hand-over"),
             "page {page} says which route it belongs to: {text}"
         );
     }
@@ -569,7 +595,7 @@ fn demo_report_fits_three_pages_and_route_sheets_one_page_per_route() {
         match route {
             Some(id) => *pages_of.entry(id.as_str()).or_insert(0) += 1,
             None => assert!(
-                text.contains("Parcel labels"),
+                text.contains("Parcel hand-over"),
                 "page {page} names no route: {text}"
             ),
         }
@@ -616,7 +642,7 @@ fn summary_geojson_and_manifest_agree_on_what_was_delivered() {
     let gj: serde_json::Value = serde_json::from_str(&f["plan.geojson"]).unwrap();
     for feat in gj["features"].as_array().unwrap() {
         let props = &feat["properties"];
-        if props["kind"] == "facility" {
+        if props["kind"] == "facility" || props["kind"] == "route" {
             continue;
         }
         let id = props["id"].as_str().unwrap();

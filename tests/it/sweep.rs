@@ -195,10 +195,12 @@ fn sweep_outputs_are_identical_on_one_and_two_threads() {
     };
     let one = render(1);
     let two = render(2);
+    let gpx = one.iter().filter(|(n, _)| n.ends_with(".gpx")).count();
+    assert!(gpx > 0, "each variant has its routes' GPX files");
     assert_eq!(
         one.len(),
-        2 + 4 + 3 * broodcast::output::FILE_NAMES.len(),
-        "csv, html, 4 charts, 3 full plan folders"
+        2 + 4 + 3 * broodcast::output::FILE_NAMES.len() + gpx,
+        "csv, html, 4 charts, 3 full plan folders with their GPX files"
     );
     for ((n1, b1), (n2, b2)) in one.iter().zip(&two) {
         assert_eq!(n1, n2);
@@ -284,6 +286,7 @@ fn sweep_binary_reproduces_plan_and_keeps_addresses_out() {
         "sweep-served.svg",
         "variants/x0.5/summary.json",
         "variants/x0.5/route-sheets.html",
+        "variants/x0.5/labels.html",
         "variants/x0.5/manifest.csv",
         "variants/x1/report.html",
     ] {

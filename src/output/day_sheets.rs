@@ -1,0 +1,234 @@
+//! `day-sheets.html`: one printed page per depot and day for whoever loads the vehicles: what
+//! goes on each vehicle (vials by pack day, per route), what goes to the carrier, and each
+//! route's load list in reverse stop order (the last stop's vials go in first). Ids, times and
+//! counts only: no address (the route sheets carry those). Same page size as every HTML output
+//! ([`super::PAGE_SIZE`]).
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::fmt::Write;
+
+use chrono::NaiveDate;
+
+use super::{Delivered, ManifestRow, OutputError, PAGE_CSS, PlanView, esc, hhmm};
+use crate::arcs::Mode;
+use crate::scenario::FacilityIdx;
+
+const CSS: &str = r#"
+* { box-sizing: border-box; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9pt; color: #000; margin: 0; }
+.day { break-before: page; }
+.day:first-of-type { break-before: auto; }
+h1 { font-size: 14pt; margin: 0 0 1mm 0; }
+h2 { font-size: 10.5pt; margin: 4mm 0 1mm 0; }
+p.sub { margin: 0 0 2mm 0; color: #444; }
+table { border-collapse: collapse; width: 100%; }
+th, td { border: 0.3mm solid #777; padding: 0.8mm 1.2mm; text-align: left; vertical-align: top; }
+th { background: #eee; font-size: 8pt; white-space: nowrap; }
+tr { break-inside: avoid; }
+td.num, th.num { text-align: right; white-space: nowrap; }
+tr.total td { font-weight: bold; border-top: 0.6mm solid #000; }
+.box { display: inline-block; width: 4mm; height: 4mm; border: 0.4mm solid #000; }
+td.tick { width: 8mm; text-align: center; }
+.mono { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 8pt; }
+.lists { columns: 2; column-gap: 5mm; }
+.lists section { break-inside: avoid; margin-bottom: 3mm; }
+"#;
+
+/// `Tue 2027-03-02`.
+fn day(d: NaiveDate) -> String {
+    d.format("%a %Y-%m-%d").to_string()
+}
+
+/// Renders one page per (dispatch day, facility) that sends anything. O(n log n) in rows.
+pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
+    let sc = view.scenario;
+    let mut h = String::new();
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Day sheets — {} — week of {}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n",
+        esc(&sc.name),
+        sc.week_start
+    );
+    let mut days: BTreeMap<(NaiveDate, FacilityIdx), Vec<&ManifestRow>> = BTreeMap::new();
+    for r in &plan.rows {
+        days.entry((r.dispatch_date, r.facility))
+            .or_default()
+            .push(r);
+    }
+    if days.is_empty() {
+        h.push_str("<section class=\"day\"><h1>Nothing to load this week</h1></section>\n");
+    }
+    for ((date, facility), rows) in &days {
+        page(&mut h, view, *date, *facility, rows)?;
+    }
+    h.push_str("</body>\n</html>\n");
+    Ok(h.into_bytes())
+}
+
+fn page(
+    h: &mut String,
+    view: &PlanView,
+    date: NaiveDate,
+    facility: FacilityIdx,
+    rows: &[&ManifestRow],
+) -> Result<(), OutputError> {
+    let sc = view.scenario;
+    let f = sc.facilities.get(facility).ok_or_else(|| {
+        OutputError::Inconsistent(format!("facility index {facility} is out of range"))
+    })?;
+    let packs: BTreeSet<NaiveDate> = rows.iter().map(|r| r.pack_date).collect();
+    let vials: u64 = rows.iter().map(|r| u64::from(r.vials)).sum();
+    let _ = write!(
+        h,
+        "<section class=\"day\">\n<h1>Day sheet — {} ({}) — {}</h1>\n<p class=\"sub\">{} vials in {} shipments. Load from the oldest pack day first; keep vials shaded and cool.</p>\n",
+        esc(&f.name),
+        esc(f.id.as_str()),
+        day(date),
+        vials,
+        rows.len()
+    );
+    // What goes on each vehicle, vials by pack day.
+    h.push_str("<h2>What to load</h2>\n<table><thead><tr><th>Route</th><th>Vehicle</th><th>Leave</th><th>Back</th><th class=\"num\">Stops</th>");
+    for p in &packs {
+        let _ = write!(h, "<th class=\"num\">Packed {}</th>", p.format("%a %m-%d"));
+    }
+    h.push_str("<th class=\"num\">Vials</th><th>Loaded</th></tr></thead><tbody>\n");
+    let routes: Vec<&crate::dispatch::Route> = view
+        .dispatch
+        .routes
+        .iter()
+        .filter(|r| r.depot == facility && r.date == date)
+        .collect();
+    let by_pack = |sel: &dyn Fn(&ManifestRow) -> bool| -> (BTreeMap<NaiveDate, u64>, u64) {
+        let mut m = BTreeMap::new();
+        let mut t = 0;
+        for r in rows.iter().filter(|r| sel(r)) {
+            *m.entry(r.pack_date).or_insert(0) += u64::from(r.vials);
+            t += u64::from(r.vials);
+        }
+        (m, t)
+    };
+    let cells = |h: &mut String, m: &BTreeMap<NaiveDate, u64>, t: u64| {
+        for p in &packs {
+            match m.get(p) {
+                Some(v) => {
+                    let _ = write!(h, "<td class=\"num\">{v}</td>");
+                }
+                None => h.push_str("<td class=\"num\">–</td>"),
+            }
+        }
+        let _ = write!(h, "<td class=\"num\">{t}</td>");
+    };
+    for r in &routes {
+        let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
+            OutputError::Inconsistent(format!(
+                "route {}: vehicle index {} is out of range",
+                r.id, r.vehicle
+            ))
+        })?;
+        let _ = write!(
+            h,
+            "<tr><td class=\"mono\">{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"num\">{}</td>",
+            esc(&r.id),
+            esc(vehicle.id.as_str()),
+            hhmm(r.depart),
+            hhmm(r.return_at),
+            r.stops.len()
+        );
+        let (m, t) = by_pack(&|x: &ManifestRow| x.route_id.as_deref() == Some(r.id.as_str()));
+        cells(h, &m, t);
+        h.push_str("<td class=\"tick\"><span class=\"box\"></span></td></tr>\n");
+    }
+    let parcels = rows.iter().filter(|r| r.mode == Mode::Parcel).count();
+    if parcels > 0 {
+        let _ = write!(
+            h,
+            "<tr><td>Parcels</td><td>carrier</td><td colspan=\"2\">see labels.html</td><td class=\"num\">{parcels}</td>"
+        );
+        let (m, t) = by_pack(&|x: &ManifestRow| x.mode == Mode::Parcel);
+        cells(h, &m, t);
+        h.push_str("<td class=\"tick\"><span class=\"box\"></span></td></tr>\n");
+    }
+    let _ = write!(
+        h,
+        "<tr class=\"total\"><td colspan=\"4\">Total</td><td class=\"num\">{}</td>",
+        rows.len()
+    );
+    let (m, t) = by_pack(&|_: &ManifestRow| true);
+    cells(h, &m, t);
+    h.push_str("<td></td></tr>\n</tbody></table>\n");
+    // Each route's load list, last stop first.
+    if !routes.is_empty() {
+        h.push_str("<h2>Load lists (last stop first)</h2>\n<div class=\"lists\">\n");
+        for r in &routes {
+            let _ = writeln!(
+                h,
+                "<section><table><thead><tr><th colspan=\"5\" class=\"mono\">{}</th></tr><tr><th>#</th><th>Shipment</th><th>Packed</th><th class=\"num\">Vials</th><th>✓</th></tr></thead><tbody>",
+                esc(&r.id)
+            );
+            let mut list: Vec<&&ManifestRow> = rows
+                .iter()
+                .filter(|x| x.route_id.as_deref() == Some(r.id.as_str()))
+                .collect();
+            list.sort_by_key(|x| std::cmp::Reverse(x.stop_seq));
+            for x in list {
+                let _ = writeln!(
+                    h,
+                    "<tr><td class=\"num\">{}</td><td class=\"mono\">{}</td><td>{}</td><td class=\"num\">{}</td><td class=\"tick\"><span class=\"box\"></span></td></tr>",
+                    x.stop_seq.unwrap_or(0),
+                    esc(&x.shipment_id),
+                    x.pack_date.format("%a %m-%d"),
+                    x.vials
+                );
+            }
+            h.push_str("</tbody></table></section>\n");
+        }
+        h.push_str("</div>\n");
+    }
+    h.push_str("</section>\n");
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::fixture::tiny_plan;
+    use super::*;
+
+    fn html() -> String {
+        let p = tiny_plan();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        String::from_utf8(render(&v, &plan).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn one_page_per_depot_day_with_vials_by_pack_day() {
+        let h = html();
+        // F2 sends the R3 parcel on Monday; F1 runs Tuesday; F2 runs Thursday.
+        assert_eq!(h.matches("<section class=\"day\">").count(), 3);
+        assert!(h.contains("Day sheet — North insectary (F1) — Tue 2027-03-02"));
+        // Route 1 carries B1 and R1 packed Tuesday (3 + 2) and B2 packed Monday (4).
+        let start = h.find("Day sheet — North insectary").unwrap();
+        let f1 = &h[start..];
+        let f1 = &f1[..f1.find("</section>").unwrap()];
+        assert!(f1.contains(
+            "<th class=\"num\">Packed Mon 03-01</th><th class=\"num\">Packed Tue 03-02</th>"
+        ));
+        assert!(f1.contains("<td class=\"num\">3</td><td class=\"num\">4</td><td class=\"num\">5</td><td class=\"num\">9</td>"), "{f1}");
+        // Load list: stop 3 first.
+        let list = &f1[f1.find("Load lists").unwrap()..];
+        let (s3, s1) = (
+            list.find("S-F1-20270302-B2").unwrap(),
+            list.find("S-F1-20270302-B1").unwrap(),
+        );
+        assert!(s3 < s1);
+    }
+
+    #[test]
+    fn no_address_on_day_sheets() {
+        let h = html();
+        for a in ["12 Palm Row", "3 Grove Lane", "88 Canal Street"] {
+            assert!(!h.contains(a), "{a}");
+        }
+    }
+}
