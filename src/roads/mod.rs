@@ -188,6 +188,23 @@ impl RoadModel {
         }
     }
 
+    /// Where a trip from `p` enters the graph: (OpenStreetMap node id, minutes from `p` to
+    /// it: off-road leg plus the share of the snapped segment). Empty when `p` is out of reach.
+    pub fn leave_nodes(&self, p: Place) -> Vec<(i64, f64)> {
+        let e = &self.ends_of(p).leave;
+        e.iter()
+            .map(|&(v, m)| (self.graph.osm_id[v as usize], m))
+            .collect()
+    }
+
+    /// Where a trip to `p` leaves the graph: (OpenStreetMap node id, minutes from it to `p`).
+    pub fn arrive_nodes(&self, p: Place) -> Vec<(i64, f64)> {
+        let e = &self.ends_of(p).arrive;
+        e.iter()
+            .map(|&(v, m)| (self.graph.osm_id[v as usize], m))
+            .collect()
+    }
+
     fn ends_of(&self, p: Place) -> &Ends {
         match p {
             Place::Facility(i) => &self.facility_ends[i],

@@ -21,6 +21,7 @@ mod out_safety;
 mod outputs;
 mod plan_check;
 mod pressure;
+mod roads;
 mod route_feasibility;
 mod routing;
 mod sweep;
