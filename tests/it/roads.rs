@@ -402,3 +402,30 @@ fn helsinki_times_match_an_independent_computation() {
         "{stdout} / broodcast arcs {arcs}"
     );
 }
+
+#[test]
+fn the_demo_plans_on_its_own_roads_with_every_place_near_one() {
+    let s = broodcast::scenario::load_embedded_demo().unwrap();
+    let net = s
+        .travel
+        .road_network
+        .as_ref()
+        .expect("the demo names roads.osm.pbf");
+    assert_eq!(net.file, "roads.osm.pbf");
+    assert!(
+        s.warnings
+            .iter()
+            .all(|w| !w.to_string().contains("nearest road")),
+        "{:?}",
+        s.warnings
+    );
+    let travel = TravelModel::new(&s);
+    let reached = (0..s.sites.len())
+        .filter(|&i| {
+            travel
+                .minutes(Place::Facility(0), Place::Site(i))
+                .is_finite()
+        })
+        .count();
+    assert_eq!(reached, s.sites.len());
+}
