@@ -250,7 +250,7 @@ pub const ROADS_FILE: &str = "roads.osm.pbf";
 /// Spacing of the generated road grid, degrees (about 890 m north–south, 790 m east–west at
 /// 27° N): no point of the grid's area is more than about 400 m from a road, under the
 /// snapping warning distance.
-const ROAD_SPACING_DEG: f64 = 0.008;
+pub const ROAD_SPACING_DEG: f64 = 0.008;
 
 /// An invented road network as an OpenStreetMap extract: a grid of straight roads
 /// [`ROAD_SPACING_DEG`] apart over the bounding box of `places` widened by 0.05° (about 5 km,
