@@ -12,7 +12,7 @@
 
 use std::fs;
 use std::hash::Hasher;
-use std::io::{self, Write};
+use std::io::{self, Read, Write};
 use std::path::{Path, PathBuf};
 
 use super::graph::{RoadGraph, Segment};
@@ -162,7 +162,12 @@ pub fn store(dir: &Path, key: (u64, u64), graph: &RoadGraph) -> io::Result<()> {
         .and_then(|()| file.sync_all());
     drop(file);
     let placed = written.and_then(|()| {
-        let ours = fs::read(&target).ok().map(|old| old.starts_with(MAGIC));
+        // Only the first bytes tell whose file it is.
+        let ours = fs::File::open(&target).ok().map(|f| {
+            let mut head = Vec::with_capacity(MAGIC.len());
+            let _ = f.take(MAGIC.len() as u64).read_to_end(&mut head);
+            head == MAGIC
+        });
         match ours {
             None => fs::hard_link(&tmp, &target),
             Some(true) => fs::rename(&tmp, &target),

@@ -6,8 +6,6 @@
 //! km/h, or a number followed by `mph`), else the class default. Each pair of consecutive way
 //! nodes is one [`Segment`]; its time is the WGS 84 geodesic length at that speed.
 
-use std::sync::atomic::{AtomicU64, Ordering};
-
 /// Drivable `highway` classes with the default speed used when `maxspeed` is absent or
 /// unreadable, km/h. Common practice, from memory: these are the free-flow defaults of widely
 /// used car routing profiles (e.g. OSRM's car profile), rounded; `track` (farm and grove
@@ -140,9 +138,6 @@ impl Csr {
     }
 }
 
-/// Source of unique graph ids, so per-thread search state is never reused across graphs.
-static NEXT_ID: AtomicU64 = AtomicU64::new(1);
-
 /// The drivable road network of an extract.
 #[derive(Debug)]
 pub struct RoadGraph {
@@ -160,8 +155,6 @@ pub struct RoadGraph {
     pub forward: Csr,
     /// Arcs reversed (head = where the arc starts), for searches towards a place.
     pub backward: Csr,
-    /// Process-unique id of this graph.
-    pub(crate) id: u64,
 }
 
 impl PartialEq for RoadGraph {
@@ -200,7 +193,6 @@ impl RoadGraph {
             fastest_kmh,
             forward,
             backward,
-            id: NEXT_ID.fetch_add(1, Ordering::Relaxed),
         }
     }
 

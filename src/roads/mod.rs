@@ -89,13 +89,18 @@ fn ends(graph: &RoadGraph, s: &Snap) -> Ends {
     e
 }
 
+/// Source of process-unique model ids: two models on one graph (e.g. sweep variants with
+/// other facilities) number their places differently, so a search is reused only by its model.
+static NEXT_MODEL: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(1);
+
 thread_local! {
-    /// This thread's search: (graph id, source place, search).
+    /// This thread's search: (model id, source place, search).
     static SEARCH: RefCell<Option<(u64, Place, Search)>> = const { RefCell::new(None) };
 }
 
 /// Drive times along roads between a scenario's facilities and sites.
 pub struct RoadModel {
+    id: u64,
     graph: Arc<RoadGraph>,
     facility_snap: Vec<Option<Snap>>,
     site_snap: Vec<Option<Snap>>,
@@ -156,6 +161,7 @@ impl RoadModel {
             })
             .unzip();
         let mut model = RoadModel {
+            id: NEXT_MODEL.fetch_add(1, std::sync::atomic::Ordering::Relaxed),
             graph,
             facility_snap,
             site_snap,
@@ -234,14 +240,14 @@ impl RoadModel {
     fn with_search<T>(&self, from: Place, f: impl FnOnce(&mut Search) -> T) -> T {
         SEARCH.with(|cell| {
             let mut slot = cell.borrow_mut();
-            let fresh = !matches!(&*slot, Some((id, p, _)) if *id == self.graph.id && *p == from);
+            let fresh = !matches!(&*slot, Some((id, p, _)) if *id == self.id && *p == from);
             if fresh {
                 let mut search = match slot.take() {
                     Some((_, _, s)) if s.nodes() == self.graph.nodes() => s,
                     _ => Search::new(self.graph.nodes()),
                 };
                 search.start(&self.ends_of(from).leave);
-                *slot = Some((self.graph.id, from, search));
+                *slot = Some((self.id, from, search));
             }
             let (_, _, search) = slot.as_mut().expect("search just set");
             f(search)
@@ -418,6 +424,20 @@ mod tests {
         assert!((p.last().unwrap().lon - 0.03).abs() < 1e-9);
         assert!(p.iter().any(|q| (q.lon - 0.02).abs() < 1e-9), "{p:?}");
         assert!(m.path(a, b, at(0.03, 10.0), at(0.015, 10.0)).is_empty());
+    }
+
+    #[test]
+    fn two_models_on_one_graph_never_share_a_search() {
+        let g = Arc::new(read::parse(&extract()).unwrap());
+        let sites = [at(0.03, 10.0), at(0.015, 10.0)];
+        // Site 0 of `a` is node 3 (no road out); site 0 of `b` is halfway along 1-2.
+        let a = RoadModel::new(Arc::clone(&g), &[], &sites);
+        let b = RoadModel::new(Arc::clone(&g), &[], &[sites[1], sites[0]]);
+        let (s0, s1) = (Place::Site(0), Place::Site(1));
+        assert_eq!(a.minutes(s0, s1), f64::INFINITY);
+        let want = g.segments[0].minutes / 2.0 + g.segments[1].minutes;
+        assert!((b.minutes(s0, s1) - want).abs() < 1e-9);
+        assert_eq!(a.minutes(s0, s1), f64::INFINITY);
     }
 
     #[test]
