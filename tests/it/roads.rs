@@ -429,3 +429,26 @@ fn the_demo_plans_on_its_own_roads_with_every_place_near_one() {
         .count();
     assert_eq!(reached, s.sites.len());
 }
+
+#[test]
+fn a_site_far_from_a_road_gets_a_warning_and_still_plans() {
+    let dir = road_scenario(Some(&covering_grid()));
+    // R4 moved to 2 km east of the grid's last street (−79.90 E).
+    util::replace(
+        dir.path(),
+        "requests.csv",
+        "26.880,-80.020",
+        "26.880,-79.880",
+    );
+    let out = tempfile::tempdir().unwrap();
+    let o = plan(dir.path(), &out.path().join("plan"));
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{stderr}");
+    let stdout = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        stdout.lines().any(|l| l.contains("requests.csv")
+            && l.contains("'R4'")
+            && l.contains("from the nearest road")),
+        "{stdout}"
+    );
+}
