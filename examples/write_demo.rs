@@ -4,7 +4,8 @@
 //!   `scenarios/demo/` (the README there is hand-written and left alone).
 //!   `tests/it/demo_files.rs` fails until this has been run after a change to the generator.
 //! - `cargo run --release --example write_demo -- --sites 35000 [--seed 1] --out DIR` writes
-//!   `generate(&GenParams::sized(35000, 1))` into DIR and reports the generation time.
+//!   `generate(&GenParams::sized(35000, 1))` into DIR and reports the generation time;
+//!   `--roads` adds the generated road network (`roads.osm.pbf`, `travel.road_network`).
 
 use std::path::PathBuf;
 use std::time::Instant;
@@ -13,13 +14,14 @@ use broodcast::generate::{GenParams, generate};
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut args = std::env::args().skip(1);
-    let (mut sites, mut seed, mut out) = (None, 1u64, None);
+    let (mut sites, mut seed, mut out, mut roads) = (None, 1u64, None, false);
     while let Some(a) = args.next() {
         let mut value = || args.next().ok_or(format!("{a} needs a value"));
         match a.as_str() {
             "--sites" => sites = Some(value()?.parse::<usize>()?),
             "--seed" => seed = value()?.parse()?,
             "--out" => out = Some(PathBuf::from(value()?)),
+            "--roads" => roads = true,
             other => return Err(format!("unknown argument {other}; see the file's doc").into()),
         }
     }
@@ -29,7 +31,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             out.unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("scenarios/demo")),
         ),
         Some(n) => (
-            GenParams::sized(n, seed),
+            GenParams {
+                roads,
+                ..GenParams::sized(n, seed)
+            },
             out.ok_or("--sites needs --out DIR")?,
         ),
     };

@@ -31,6 +31,10 @@ pub const FILES: &[(&str, &[u8])] = &[
         include_bytes!("../scenarios/demo/scouting.csv"),
     ),
     ("fleet.csv", include_bytes!("../scenarios/demo/fleet.csv")),
+    (
+        "roads.osm.pbf",
+        include_bytes!("../scenarios/demo/roads.osm.pbf"),
+    ),
     ("README.md", include_bytes!("../scenarios/demo/README.md")),
 ];
 

@@ -126,6 +126,9 @@ pub struct GenParams {
     /// Multiplier on daily supply: each facility packs U(25, 60) × `supply_scale` vials on
     /// each weekday, Monday to Friday (vials).
     pub supply_scale: f64,
+    /// Whether to write `roads.osm.pbf`, an invented road grid over the region ([`road_grid`]),
+    /// and name it in `travel.road_network`.
+    pub roads: bool,
 }
 
 impl GenParams {
@@ -151,6 +154,7 @@ impl GenParams {
             facilities: 3,
             vehicles: 7,
             supply_scale: 1.0,
+            roads: true,
         }
     }
 
@@ -185,6 +189,7 @@ impl GenParams {
             facilities,
             vehicles: 30,
             supply_scale,
+            roads: false,
         }
     }
 }
@@ -218,7 +223,7 @@ pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
     let scouting = g.scouting(&hot_spots, &block_centres);
     let fleet = g.fleet();
     let scenario = g.scenario_json();
-    vec![
+    let mut files = vec![
         ("scenario.json".into(), scenario),
         ("facilities.csv".into(), facilities_csv(&facilities)),
         ("supply.csv".into(), supply),
@@ -226,7 +231,81 @@ pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
         ("requests.csv".into(), requests),
         ("scouting.csv".into(), scouting),
         ("fleet.csv".into(), fleet),
-    ]
+    ];
+    if p.roads {
+        let places: Vec<LonLat> = facilities
+            .iter()
+            .map(|f| f.location)
+            .chain(block_centres)
+            .chain(towns.iter().map(|t| t.1))
+            .collect();
+        files.push((ROADS_FILE.into(), road_grid(&places)));
+    }
+    files
+}
+
+/// Name of the generated road network in the scenario folder.
+pub const ROADS_FILE: &str = "roads.osm.pbf";
+
+/// Spacing of the generated road grid, degrees (about 890 m north–south, 790 m east–west at
+/// 27° N): no point of the grid's area is more than about 400 m from a road, under the
+/// snapping warning distance.
+pub const ROAD_SPACING_DEG: f64 = 0.008;
+
+/// An invented road network as an OpenStreetMap extract: a grid of straight roads
+/// [`ROAD_SPACING_DEG`] apart over the bounding box of `places` widened by 0.05° (about 5 km,
+/// where dooryard requests scatter around their town centres), one way per road; every fifth
+/// road `highway=secondary`, the rest `highway=unclassified`. No randomness: the other files'
+/// bytes do not depend on it.
+pub fn road_grid(places: &[LonLat]) -> Vec<u8> {
+    use crate::roads::write::{OsmNode, OsmWay, write_pbf};
+    let pad = 0.05;
+    let (mut w, mut e, mut s, mut n) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for p in places {
+        (w, e, s, n) = (w.min(p.lon), e.max(p.lon), s.min(p.lat), n.max(p.lat));
+    }
+    // Snap the box to the grid so that the lines sit on round coordinates.
+    let lo = |x: f64| ((x - pad) / ROAD_SPACING_DEG).floor() as i64;
+    let hi = |x: f64| ((x + pad) / ROAD_SPACING_DEG).ceil() as i64;
+    let (c0, c1, r0, r1) = (lo(w), hi(e), lo(s), hi(n));
+    let cols = (c1 - c0 + 1) as usize;
+    let id = |r: i64, c: i64| (r - r0) * cols as i64 + (c - c0) + 1;
+    let mut nodes = Vec::new();
+    for r in r0..=r1 {
+        for c in c0..=c1 {
+            nodes.push(OsmNode {
+                id: id(r, c),
+                at: LonLat {
+                    lon: c as f64 * ROAD_SPACING_DEG,
+                    lat: r as f64 * ROAD_SPACING_DEG,
+                },
+            });
+        }
+    }
+    let class = |k: i64| {
+        if k % 5 == 0 {
+            "secondary"
+        } else {
+            "unclassified"
+        }
+    };
+    let mut ways = Vec::new();
+    for r in r0..=r1 {
+        ways.push((class(r), (c0..=c1).map(|c| id(r, c)).collect()));
+    }
+    for c in c0..=c1 {
+        ways.push((class(c), (r0..=r1).map(|r| id(r, c)).collect()));
+    }
+    let ways: Vec<OsmWay> = ways
+        .into_iter()
+        .enumerate()
+        .map(|(i, (class, refs))| OsmWay {
+            id: i as i64 + 1,
+            tags: vec![("highway".into(), class.into())],
+            refs,
+        })
+        .collect();
+    write_pbf(&nodes, &ways)
 }
 
 /// The week [`generate`] writes for `p`, loaded and validated as `broodcast plan` would load
@@ -717,6 +796,7 @@ impl Gen<'_> {
             travel: TravelDoc {
                 circuity: 1.3,
                 speed_kmh: 55.0,
+                road_network: self.p.roads.then_some(ROADS_FILE),
             },
             parcel: ParcelDoc {
                 transit_hours: 24.0,
@@ -819,6 +899,8 @@ struct PolicyDoc {
 struct TravelDoc {
     circuity: f64,
     speed_kmh: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    road_network: Option<&'static str>,
 }
 
 #[derive(Serialize)]

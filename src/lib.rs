@@ -22,6 +22,7 @@ pub mod ledger;
 pub mod output;
 pub mod plan;
 pub mod pressure;
+pub mod roads;
 pub mod scenario;
 pub mod sweep;
 pub mod travel;

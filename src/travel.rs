@@ -1,11 +1,15 @@
 //! The travel model: drive minutes between facilities and sites.
 //!
-//! Minutes = geodesic distance × `circuity` ÷ `speed_kmh`, unless the user travel-time matrix
-//! (`travel.matrix`) has both ends, in which case its value is used as given.
+//! Minutes = geodesic distance × `circuity` ÷ `speed_kmh`; or, when `travel.road_network`
+//! names an OpenStreetMap extract, the shortest drive along its roads ([`crate::roads`]);
+//! unless the user travel-time matrix (`travel.matrix`) has both ends, in which case its value
+//! is used as given.
 
 use std::collections::HashMap;
+use std::sync::Arc;
 
 use crate::geodesy;
+use crate::roads::RoadModel;
 use crate::scenario::{FacilityIdx, LonLat, Scenario, SiteIdx};
 
 /// A place a vehicle drives between.
@@ -19,7 +23,8 @@ pub enum Place {
 
 /// Drive times between places, minutes.
 pub trait TravelTimes {
-    /// Drive minutes from `from` to `to` (finite, ≥ 0; 0 from a place to itself).
+    /// Drive minutes from `from` to `to` (≥ 0; 0 from a place to itself; infinite when no
+    /// road leads there).
     fn minutes(&self, from: Place, to: Place) -> f64;
 
     /// The driven path from `from` to `to` as longitude/latitude points (degrees, WGS 84),
@@ -43,10 +48,13 @@ pub struct TravelModel {
     facility_slot: Vec<Option<usize>>,
     site_slot: Vec<Option<usize>>,
     matrix: Vec<Vec<f64>>,
+    /// Drive times along the extract's roads, when the scenario names one.
+    roads: Option<Arc<RoadModel>>,
 }
 
 impl TravelModel {
-    /// Builds the model for `scenario`.
+    /// Builds the model for `scenario`. With a road network this snaps every facility and
+    /// site and searches from and to every facility (see [`RoadModel::new`]).
     pub fn new(scenario: &Scenario) -> Self {
         let (slot_of, matrix) = match &scenario.travel.matrix {
             Some(m) => (
@@ -75,7 +83,27 @@ impl TravelModel {
                 .map(|s| slot_of.get(s.id.as_str()).copied())
                 .collect(),
             matrix,
+            roads: scenario.travel.road_network.as_ref().map(|net| {
+                Arc::new(RoadModel::new(
+                    Arc::clone(&net.graph),
+                    &scenario
+                        .facilities
+                        .iter()
+                        .map(|f| f.location)
+                        .collect::<Vec<_>>(),
+                    &scenario
+                        .sites
+                        .iter()
+                        .map(|s| s.location)
+                        .collect::<Vec<_>>(),
+                ))
+            }),
         }
+    }
+
+    /// The road model, when the scenario names a road network.
+    pub fn roads(&self) -> Option<&RoadModel> {
+        self.roads.as_deref()
     }
 
     fn location(&self, p: Place) -> LonLat {
@@ -106,10 +134,20 @@ impl TravelTimes for TravelModel {
         if let (Some(i), Some(j)) = (self.slot(from), self.slot(to)) {
             return self.matrix[i][j];
         }
+        if let Some(r) = &self.roads {
+            return r.minutes(from, to);
+        }
         self.road_km(from, to) / self.speed_kmh * 60.0
     }
 
     fn leg_path(&self, from: Place, to: Place) -> Vec<LonLat> {
-        vec![self.location(from), self.location(to)]
+        let (a, b) = (self.location(from), self.location(to));
+        if let Some(r) = &self.roads {
+            let p = r.path(from, to, a, b);
+            if !p.is_empty() {
+                return p;
+            }
+        }
+        vec![a, b]
     }
 }

@@ -55,7 +55,8 @@ pub(super) fn input(e: SweepError) -> Failure {
 }
 
 /// The scenario files as (name, bytes) for re-loading with overrides: the required files,
-/// `overrides.csv` and the travel matrix named by the overridden scenario.json. Files that
+/// `overrides.csv` and the travel matrix and road network named by the overridden
+/// scenario.json. Files that
 /// cannot be read are left out; the loader then names them.
 pub(super) fn scenario_files(source: &Source, settings: &[Setting]) -> Vec<(String, Vec<u8>)> {
     let dir: &Path = match source {
@@ -81,13 +82,14 @@ pub(super) fn scenario_files(source: &Source, settings: &[Setting]) -> Vec<(Stri
     .map(|s| s.to_string())
     .collect();
     let json = std::fs::read(dir.join("scenario.json")).unwrap_or_default();
-    let matrix = sweep::apply_settings(&json, settings)
+    let doc = sweep::apply_settings(&json, settings)
         .ok()
-        .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
-        .and_then(|v| v["travel"]["matrix"].as_str().map(str::to_string));
-    if let Some(m) = matrix {
-        // As the loader names it: trimmed, without a leading "./".
-        names.push(m.trim().trim_start_matches("./").to_string());
+        .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok());
+    for key in ["matrix", "road_network"] {
+        if let Some(m) = doc.as_ref().and_then(|v| v["travel"][key].as_str()) {
+            // As the loader names it: trimmed, without a leading "./".
+            names.push(m.trim().trim_start_matches("./").to_string());
+        }
     }
     names
         .into_iter()

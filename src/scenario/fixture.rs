@@ -243,6 +243,7 @@ pub fn tiny() -> Scenario {
             circuity: 1.3,
             speed_kmh: 50.0,
             matrix: None,
+            road_network: None,
         },
         parcel: Parcel {
             transit_hours: 24.0,

@@ -254,6 +254,8 @@ pub struct Travel {
     pub speed_kmh: f64,
     /// The user travel-time matrix, when `travel.matrix` names one.
     pub matrix: Option<TravelMatrix>,
+    /// The road network read from the OpenStreetMap extract `travel.road_network` names.
+    pub road_network: Option<crate::roads::RoadNetwork>,
 }
 
 /// A square travel-time matrix: `minutes[i][j]` from `ids[i]` to `ids[j]`.

@@ -22,6 +22,7 @@ mod outputs;
 mod paperwork;
 mod plan_check;
 mod pressure;
+mod roads;
 mod route_feasibility;
 mod routing;
 mod sweep;

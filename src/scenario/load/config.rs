@@ -20,6 +20,8 @@ pub(super) struct Config {
     pub(super) speed_kmh: f64,
     /// `travel.matrix` as written, relative to the scenario folder.
     pub(super) matrix: Option<String>,
+    /// `travel.road_network` as written, relative to the scenario folder.
+    pub(super) road_network: Option<String>,
     pub(super) parcel: Parcel,
     pub(super) dispatch: DispatchSettings,
 }
@@ -281,7 +283,7 @@ fn share(x: f64) -> Result<(), String> {
 /// Every key path the loader reads from scenario.json (format v1, `docs/formats.md`), dotted
 /// from the top object. Other modules derive their key lists from it (e.g. the keys
 /// `--set` may change); a test below checks that the loader reads each one.
-pub const SCENARIO_KEYS: [&str; 33] = [
+pub const SCENARIO_KEYS: [&str; 34] = [
     "name",
     "week_start",
     "agent.name",
@@ -305,6 +307,7 @@ pub const SCENARIO_KEYS: [&str; 33] = [
     "travel.circuity",
     "travel.speed_kmh",
     "travel.matrix",
+    "travel.road_network",
     "parcel.transit_hours",
     "parcel.days",
     "parcel.max_vials_per_day",
@@ -460,6 +463,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         positive_up_to(limits::MAX_SPEED_KMH, "km/h"),
     );
     let matrix = tr.string(sink, "matrix", false);
+    let road_network = tr.string(sink, "road_network", false);
 
     let pa = top.object(sink, "parcel", true);
     let parcel = Parcel {
@@ -525,6 +529,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
         circuity,
         speed_kmh,
         matrix,
+        road_network,
         parcel,
         dispatch,
     })

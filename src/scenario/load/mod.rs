@@ -18,10 +18,12 @@ mod text;
 use std::borrow::Cow;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use super::problems::Location;
 use super::{
-    InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel, TravelMatrix,
+    Facility, InputError, LonLat, Override, Scenario, Site, SiteDetail, SiteId, Supply, Travel,
+    TravelMatrix,
 };
 pub use text::{CsvLines, SwallowedRow, swallowed_row};
 
@@ -36,6 +38,8 @@ pub fn show_value(s: &str) -> String {
 }
 pub use config::SCENARIO_KEYS;
 use text::{Sink, decode};
+
+use crate::roads::{self, RoadNetwork};
 
 /// Where a scenario comes from.
 #[derive(Clone, Debug)]
@@ -59,8 +63,13 @@ pub fn load_dir(dir: &Path) -> Result<Scenario, InputError> {
     load_with(
         &|name: &str| read_limited(&dir.join(name)),
         &|name: &str| resolves_inside(dir, name),
+        Some(&dir.join(CACHE_DIR)),
     )
 }
+
+/// Folder inside the scenario folder where the parsed road network is cached
+/// ([`crate::roads::cache`]); deleting it only costs the next plan the parse.
+pub const CACHE_DIR: &str = ".broodcast-cache";
 
 /// Whether `dir/name` resolves (through any symbolic link) to a file inside `dir`. A file that
 /// does not exist yet counts as inside: it is reported missing.
@@ -122,6 +131,7 @@ pub fn load_files(files: &[(&str, &[u8])]) -> Result<Scenario, InputError> {
                 .map_or(Fetched::Missing, |(_, b)| Fetched::Found(Cow::Borrowed(*b)))
         },
         &|_: &str| true,
+        None,
     )
 }
 
@@ -215,6 +225,7 @@ fn fetch<'a>(
 fn load_with<'a>(
     get: &dyn Fn(&str) -> Fetched<'a>,
     inside: &dyn Fn(&str) -> bool,
+    cache_dir: Option<&Path>,
 ) -> Result<Scenario, InputError> {
     let mut sink = Sink::default();
     let sink = &mut sink;
@@ -404,6 +415,14 @@ fn load_with<'a>(
         }
     }
 
+    let road_network = cfg
+        .as_ref()
+        .and_then(|c| c.road_network.as_deref())
+        .and_then(|path| load_roads(get, inside, cache_dir, path, sink));
+    if let Some(net) = &road_network {
+        check_snaps(net, &facilities, &sites, &site_where, sink);
+    }
+
     if !facilities.is_empty() {
         let far = |p: LonLat| {
             facilities
@@ -457,6 +476,7 @@ fn load_with<'a>(
             circuity: cfg.circuity,
             speed_kmh: cfg.speed_kmh,
             matrix: travel_matrix,
+            road_network,
         },
         parcel: cfg.parcel,
         dispatch: cfg.dispatch,
@@ -483,16 +503,38 @@ fn load_matrix<'a>(
     path: &str,
     sink: &mut Sink,
 ) -> Option<TravelMatrix> {
+    let name = confined(
+        inside,
+        path,
+        "travel.matrix",
+        "the travel matrix",
+        "travel.csv",
+        sink,
+    )?;
+    let bytes = fetch(get, name, true, sink)?;
+    matrix::parse(name, &bytes, sink)
+}
+
+/// `path` (a `scenario.json` value under `key`) normalized, when it names a file inside the
+/// scenario folder; otherwise a problem saying so, and `None`.
+fn confined<'p>(
+    inside: &dyn Fn(&str) -> bool,
+    path: &'p str,
+    key: &str,
+    what: &str,
+    example: &str,
+    sink: &mut Sink,
+) -> Option<&'p str> {
     use std::path::Component;
     let name = normalize(path.trim());
-    let key = || Location::Key("travel.matrix".into());
+    let loc = || Location::Key(key.into());
     if name.is_empty() || Path::new(name).is_absolute() {
         sink.problem(
             "scenario.json",
-            key(),
+            loc(),
             None,
             Some(path),
-            "give the matrix file's path relative to the scenario folder, e.g. \"travel.csv\"",
+            format!("give {what}'s path relative to the scenario folder, e.g. \"{example}\""),
         );
         return None;
     }
@@ -508,15 +550,137 @@ fn load_matrix<'a>(
     if leaves || !inside(name) {
         sink.problem(
             "scenario.json",
-            key(),
+            loc(),
             None,
             Some(path),
-            "the travel matrix must be a file inside the scenario folder (no '..', no drive or \
-             absolute path, no link to a file elsewhere); copy the matrix into the folder and \
-             give its name, e.g. \"travel.csv\"",
+            format!(
+                "{what} must be a file inside the scenario folder (no '..', no drive or \
+                 absolute path, no link to a file elsewhere); copy it into the folder and \
+                 give its name, e.g. \"{example}\""
+            ),
         );
         return None;
     }
+    Some(name)
+}
+
+/// Reads the extract `travel.road_network` names into a road graph: from the cache in
+/// `cache_dir` when a valid entry for the extract's content is there, otherwise by parsing it
+/// (and then storing it in the cache; a cache that cannot be written is only a note).
+fn load_roads<'a>(
+    get: &dyn Fn(&str) -> Fetched<'a>,
+    inside: &dyn Fn(&str) -> bool,
+    cache_dir: Option<&Path>,
+    path: &str,
+    sink: &mut Sink,
+) -> Option<RoadNetwork> {
+    let name = confined(
+        inside,
+        path,
+        "travel.road_network",
+        "the road network extract",
+        "roads.osm.pbf",
+        sink,
+    )?;
     let bytes = fetch(get, name, true, sink)?;
-    matrix::parse(name, &bytes, sink)
+    let key = roads::cache::key(&bytes);
+    if let Some(graph) = cache_dir.and_then(|d| roads::cache::load(d, key)) {
+        return Some(RoadNetwork {
+            file: name.to_string(),
+            graph: Arc::new(graph),
+            from_cache: true,
+        });
+    }
+    match roads::read::parse(&bytes) {
+        Ok(graph) => {
+            if let Some(dir) = cache_dir {
+                // A read-only scenario folder only costs the next run the parse.
+                let _ = roads::cache::store(dir, key, &graph);
+            }
+            Some(RoadNetwork {
+                file: name.to_string(),
+                graph: Arc::new(graph),
+                from_cache: false,
+            })
+        }
+        Err(e) => {
+            sink.problem(name, Location::File, None, None, e.to_string());
+            None
+        }
+    }
+}
+
+/// Every facility and site must be within [`roads::snap::MAX_SNAP_M`] of a road of the extract
+/// (else the extract does not cover the scenario: a problem); beyond
+/// [`roads::snap::WARN_SNAP_M`] a warning asks for a look.
+fn check_snaps(
+    net: &RoadNetwork,
+    facilities: &[Facility],
+    sites: &[Site],
+    site_where: &[(&str, Location)],
+    sink: &mut Sink,
+) {
+    use roads::snap::{MAX_SNAP_M, Snapper, WARN_SNAP_M};
+    let snapper = Snapper::new(&net.graph, roads::mid_lat(&net.graph));
+    let places = facilities
+        .iter()
+        .map(|f| {
+            (
+                "facilities.csv",
+                Location::File,
+                "facility",
+                f.id.as_str(),
+                f.location,
+            )
+        })
+        .chain(
+            sites
+                .iter()
+                .zip(site_where)
+                .map(|(s, (file, loc))| (*file, loc.clone(), "site", s.id.as_str(), s.location)),
+        );
+    let mut far = 0usize;
+    for (file, loc, kind, id, at) in places {
+        let m = snapper
+            .snap(&net.graph, at)
+            .map_or(f64::INFINITY, |s| s.offroad_m);
+        if m > MAX_SNAP_M {
+            far += 1;
+            if far <= 20 {
+                sink.problem(
+                    &net.file,
+                    Location::File,
+                    None,
+                    None,
+                    format!(
+                        "the extract does not cover {kind} '{id}' ({file}): its nearest road \
+                         is {:.0} km away, more than the {:.0} km limit; use an extract that \
+                         covers the whole scenario, or correct the {kind}'s coordinates",
+                        m / 1000.0,
+                        MAX_SNAP_M / 1000.0
+                    ),
+                );
+            }
+        } else if m > WARN_SNAP_M {
+            sink.warning(
+                file,
+                loc,
+                format!(
+                    "{kind} '{id}' is {m:.0} m from the nearest road of {}; the off-road leg is \
+                     timed at {} km/h. Check its coordinates or the extract",
+                    net.file,
+                    roads::snap::OFFROAD_KMH
+                ),
+            );
+        }
+    }
+    if far > 20 {
+        sink.problem(
+            &net.file,
+            Location::File,
+            None,
+            None,
+            format!("… and {} more places the extract does not cover", far - 20),
+        );
+    }
 }
