@@ -9,7 +9,7 @@ use std::fmt::Write;
 
 use chrono::NaiveDate;
 
-use super::{Delivered, ManifestRow, OutputError, PAGE_CSS, PlanView, esc, hhmm};
+use super::{Delivered, ManifestRow, OutputError, PlanView, esc, hhmm};
 use crate::arcs::Mode;
 use crate::scenario::FacilityIdx;
 
@@ -42,13 +42,7 @@ fn day(d: NaiveDate) -> String {
 /// Renders one page per (dispatch day, facility) that sends anything. O(n log n) in rows.
 pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut h = String::new();
-    let _ = write!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Day sheets — {} — week of {}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n",
-        esc(&sc.name),
-        sc.week_start
-    );
+    let mut h = super::week_page_head(sc, "Day sheets", false, CSS);
     let mut days: BTreeMap<(NaiveDate, FacilityIdx), Vec<&ManifestRow>> = BTreeMap::new();
     for r in &plan.rows {
         days.entry((r.dispatch_date, r.facility))
@@ -120,12 +114,7 @@ fn page(
         let _ = write!(h, "<td class=\"num\">{t}</td>");
     };
     for r in &routes {
-        let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
-            OutputError::Inconsistent(format!(
-                "route {}: vehicle index {} is out of range",
-                r.id, r.vehicle
-            ))
-        })?;
+        let (_, vehicle) = super::route_depot_vehicle(sc, r)?;
         let _ = write!(
             h,
             "<tr><td class=\"mono\">{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"num\">{}</td>",

@@ -57,18 +57,7 @@ fn joined(v: &[String]) -> Value {
 /// positions RFC 7946 §3.1.4 asks for. Site ids only: no address.
 fn route_line(view: &PlanView, r: &crate::dispatch::Route) -> Result<Value, OutputError> {
     let sc = view.scenario;
-    let depot = sc.facilities.get(r.depot).ok_or_else(|| {
-        OutputError::Inconsistent(format!(
-            "route {}: depot index {} is out of range",
-            r.id, r.depot
-        ))
-    })?;
-    let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
-        OutputError::Inconsistent(format!(
-            "route {}: vehicle index {} is out of range",
-            r.id, r.vehicle
-        ))
-    })?;
+    let (depot, vehicle) = super::route_depot_vehicle(sc, r)?;
     let mut order = Vec::with_capacity(r.stops.len());
     let mut straight = vec![depot.location];
     for st in &r.stops {

@@ -10,7 +10,7 @@
 use std::fmt::Write;
 
 use super::route_sheets::WITHHELD;
-use super::{CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, bad_site, esc, fixed};
+use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed};
 use crate::scenario::SiteDetail;
 
 /// Labels on one printed page (2 columns × 4 rows; measured in headless Chromium on Letter
@@ -44,18 +44,7 @@ pub(crate) fn render(
     redact: bool,
 ) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut h = String::new();
-    let _ = write!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Parcel labels — {} — week of {}{}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n",
-        esc(&sc.name),
-        sc.week_start,
-        if redact {
-            " — addresses withheld"
-        } else {
-            ""
-        }
-    );
+    let mut h = super::week_page_head(sc, "Parcel labels", redact, CSS);
     let parcels = &view.dispatch.parcels;
     if parcels.is_empty() {
         let _ = writeln!(

@@ -314,6 +314,43 @@ fn push_unique(v: &mut Vec<String>, s: &str) {
     }
 }
 
+/// The depot and vehicle of route `r`, or an internal-consistency error naming the route.
+pub(crate) fn route_depot_vehicle<'s>(
+    sc: &'s Scenario,
+    r: &crate::dispatch::Route,
+) -> Result<(&'s crate::scenario::Facility, &'s crate::scenario::Vehicle), OutputError> {
+    let depot = sc.facilities.get(r.depot).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: depot index {} is out of range",
+            r.id, r.depot
+        ))
+    })?;
+    let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
+        OutputError::Inconsistent(format!(
+            "route {}: vehicle index {} is out of range",
+            r.id, r.vehicle
+        ))
+    })?;
+    Ok((depot, vehicle))
+}
+
+/// The opening of a printable week document, up to and including `<body>`: its title is
+/// "`kind` — scenario — week of Monday", with " — addresses withheld" when `redact`, and its
+/// style the shared page rules plus `css`.
+pub(crate) fn week_page_head(sc: &Scenario, kind: &str, redact: bool, css: &str) -> String {
+    format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{kind} — {} — week of {}{}</title>\n<style>{}{css}</style>\n</head>\n<body>\n",
+        esc(&sc.name),
+        sc.week_start,
+        if redact {
+            " — addresses withheld"
+        } else {
+            ""
+        },
+        PAGE_CSS
+    )
+}
+
 pub(crate) fn bad_site(i: SiteIdx) -> OutputError {
     OutputError::Inconsistent(format!("site index {i} is out of range"))
 }

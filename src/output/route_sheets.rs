@@ -20,7 +20,7 @@ use std::fmt::Write;
 use chrono::{NaiveDate, NaiveDateTime};
 
 use super::svg::{Frame, f1};
-use super::{CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, bad_site, esc, fixed, hhmm};
+use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed, hhmm};
 use crate::dispatch::Route;
 use crate::scenario::{LonLat, Scenario, SiteDetail};
 
@@ -95,18 +95,7 @@ pub(crate) fn render(
     redact: bool,
 ) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut h = String::new();
-    let _ = write!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Route sheets — {} — week of {}{}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n",
-        esc(&sc.name),
-        sc.week_start,
-        if redact {
-            " — addresses withheld"
-        } else {
-            ""
-        }
-    );
+    let mut h = super::week_page_head(sc, "Route sheets", redact, CSS);
     if view.dispatch.routes.is_empty() && view.dispatch.parcels.is_empty() {
         let _ = writeln!(
             h,
@@ -184,18 +173,7 @@ fn sheet(
     r: &Route,
     redact: bool,
 ) -> Result<(), OutputError> {
-    let depot = sc.facilities.get(r.depot).ok_or_else(|| {
-        OutputError::Inconsistent(format!(
-            "route {}: depot index {} is out of range",
-            r.id, r.depot
-        ))
-    })?;
-    let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
-        OutputError::Inconsistent(format!(
-            "route {}: vehicle index {} is out of range",
-            r.id, r.vehicle
-        ))
-    })?;
+    let (depot, vehicle) = super::route_depot_vehicle(sc, r)?;
     let wasps: f64 = r.stops.iter().map(|s| s.wasps_expected_alive).sum();
     let _ = write!(
         h,
