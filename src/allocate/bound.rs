@@ -50,15 +50,14 @@ pub(crate) fn whole_vial_bound(
         .collect();
     let mut lambda = (-share_dual).max(0.0);
     let mut at = lagrangian(inst, &y, lambda, true);
-    let mut best = at.value;
-    let mut guide = guide_of(inst, &at);
+    // The best evaluation and its prices: every step starts from `at`, and a stall goes back
+    // to the best point without evaluating it again.
+    let mut best = (at.clone(), y.clone(), lambda);
     // Polyak's step towards the target `lower`, with its factor halved, and the prices taken
     // back to the best point, after a few steps without a new best (the usual safeguards of
     // subgradient methods). The target is usually far below the bound, so the factor starts
     // small.
     let mut theta = 0.1;
-    let mut best_at = (y.clone(), lambda);
-    let mut best_eval = None;
     let mut since_best = 0;
     let mut stalls = 0;
     for _ in 0..steps {
@@ -84,7 +83,7 @@ pub(crate) fn whole_vial_bound(
                 g_share * g_share
             };
         let excess = at.value - lower.max(0.0);
-        if norm2 <= 1e-12 || excess <= 1e-9 * best.abs().max(1.0) {
+        if norm2 <= 1e-12 || excess <= 1e-9 * best.0.value.abs().max(1.0) {
             break;
         }
         let t = theta * excess / norm2;
@@ -93,11 +92,8 @@ pub(crate) fn whole_vial_bound(
         }
         lambda = (lambda - t * g_share).max(0.0);
         at = lagrangian(inst, &y, lambda, true);
-        if at.value < best - 1e-9 * best.abs().max(1.0) {
-            best = at.value;
-            guide = guide_of(inst, &at);
-            best_at = (y.clone(), lambda);
-            best_eval = None;
+        if at.value < best.0.value - 1e-9 * best.0.value.abs().max(1.0) {
+            best = (at.clone(), y.clone(), lambda);
             since_best = 0;
             stalls = 0;
         } else {
@@ -110,22 +106,13 @@ pub(crate) fn whole_vial_bound(
             if since_best >= 3 {
                 theta *= 0.5;
                 since_best = 0;
-                y.clone_from(&best_at.0);
-                lambda = best_at.1;
-                at = match best_eval.take() {
-                    Some(e) => e,
-                    None => lagrangian(inst, &y, lambda, true),
-                };
-                best_eval = Some(Evaluation {
-                    value: at.value,
-                    usage: at.usage.clone(),
-                    share_usage: at.share_usage,
-                    chosen: at.chosen.clone(),
-                });
+                at = best.0.clone();
+                y.clone_from(&best.1);
+                lambda = best.2;
             }
         }
     }
-    (best, guide)
+    (best.0.value, guide_of(inst, &best.0))
 }
 
 /// Vials per arc of the maximising releases of `at`, when complete.
@@ -139,6 +126,7 @@ fn guide_of(inst: &Instance, at: &Evaluation) -> Option<Vec<f64>> {
 }
 
 /// One evaluation of the Lagrangian dual function.
+#[derive(Clone)]
 struct Evaluation {
     /// Σ_r y_r b_r + Σ_s (site maximum), objective units.
     value: f64,
