@@ -11,6 +11,7 @@ use std::collections::BTreeMap;
 
 use chrono::NaiveDate;
 
+use super::constraint::ConstraintKind;
 use super::model::{LinearModel, ModelError, ModelSolution, Sense};
 use super::{AllocError, AllocOptions};
 use crate::arcs::{Arc, Arcs, Mode};
@@ -357,13 +358,19 @@ impl<'a> Instance<'a> {
         })
     }
 
-    /// MPS-safe name of a resource row.
-    pub fn resource_name(&self, r: usize) -> String {
-        let f = |i: FacilityIdx| self.scenario.facilities[i].id.as_str().to_string();
+    /// The kind (and so the model name) of a resource row.
+    pub fn resource_kind(&self, r: usize) -> ConstraintKind {
+        let f = |i: FacilityIdx| self.scenario.facilities[i].id.clone();
         match &self.resources[r] {
-            Resource::Supply(i, d) => format!("supply_{}_{}", f(*i), date(*d)),
-            Resource::Capacity(i, d) => format!("vehicles_{}_{}", f(*i), date(*d)),
-            Resource::Parcel(d) => format!("parcel_{}", date(*d)),
+            Resource::Supply(i, d) => ConstraintKind::Supply {
+                facility: f(*i),
+                date: *d,
+            },
+            Resource::Capacity(i, d) => ConstraintKind::Vehicles {
+                depot: f(*i),
+                date: *d,
+            },
+            Resource::Parcel(d) => ConstraintKind::Parcel { date: *d },
         }
     }
 
@@ -442,6 +449,8 @@ pub(crate) struct SiteRows {
 #[derive(Clone, Debug)]
 pub(crate) struct Built {
     pub model: LinearModel,
+    /// What each row of `model` limits, by row index.
+    pub row_kind: Vec<ConstraintKind>,
     /// Column of each usable arc (None outside the working set).
     pub arc_col: Vec<Option<usize>>,
     /// Rows of each site position (None outside the working set).
@@ -463,6 +472,21 @@ pub(crate) fn share_coef(inst: &Instance, a: usize) -> f64 {
     }
 }
 
+/// Adds a row named after `kind` to `m` and records the kind in `kinds` (by row index).
+fn add_row(
+    m: &mut LinearModel,
+    kinds: &mut Vec<ConstraintKind>,
+    kind: ConstraintKind,
+    terms: &[(usize, f64)],
+    sense: Sense,
+    rhs: f64,
+) -> usize {
+    let r = m.add_row(&kind.to_string(), terms, sense, rhs);
+    debug_assert_eq!(r, kinds.len(), "every row of the model has its kind");
+    kinds.push(kind);
+    r
+}
+
 /// Builds the LP over the arcs with `arc_in[a]`; a site is in the model when one of its arcs
 /// is. O(A + S) columns and rows.
 pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
@@ -472,13 +496,15 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
     let mut res_terms: Vec<Vec<(usize, f64)>> = vec![Vec::new(); inst.resources.len()];
     let mut share_terms = Vec::new();
     let mut force_rows = Vec::new();
+    let mut row_kind = Vec::new();
     let span = (inst.max - inst.target).max(0.0);
     let target = inst.target.min(inst.max).max(0.0);
     for (sp, site) in inst.sites.iter().enumerate() {
         if !site.arcs.iter().any(|&a| arc_in[a]) {
             continue;
         }
-        let id = inst.scenario.sites[site.site].id.as_str();
+        let site_id = &inst.scenario.sites[site.site].id;
+        let id = site_id.as_str();
         let mut alive_terms = Vec::with_capacity(site.arcs.len() + 2);
         let mut vial_terms = Vec::with_capacity(site.arcs.len());
         for &a in site.arcs.iter().filter(|&&a| arc_in[a]) {
@@ -505,16 +531,33 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
         let mut b: Vec<(usize, f64)> = alive_terms.iter().map(|&(c, v)| (c, -v)).collect();
         b.push((u1, 1.0));
         b.push((u2, 1.0));
-        let benefit = m.add_row(&format!("benefit_{id}"), &b, Sense::Le, 0.0);
-        let max_release = m.add_row(
-            &format!("maxrelease_{id}"),
+        let benefit = add_row(
+            &mut m,
+            &mut row_kind,
+            ConstraintKind::Benefit {
+                site: site_id.clone(),
+            },
+            &b,
+            Sense::Le,
+            0.0,
+        );
+        let max_release = add_row(
+            &mut m,
+            &mut row_kind,
+            ConstraintKind::MaxRelease {
+                site: site_id.clone(),
+            },
             &alive_terms,
             Sense::Le,
             inst.max,
         );
         let request = (site.kind == SiteKind::Dooryard).then(|| {
-            m.add_row(
-                &format!("request_{id}"),
+            add_row(
+                &mut m,
+                &mut row_kind,
+                ConstraintKind::Request {
+                    site: site_id.clone(),
+                },
                 &vial_terms,
                 Sense::Le,
                 f64::from(inst.per_request),
@@ -532,7 +575,16 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
             let slack = m.add_column(&format!("short_{id}"), 0.0, rhs, -pen, false);
             let mut t = terms;
             t.push((slack, 1.0));
-            let r = m.add_row(&format!("force_{id}"), &t, Sense::Ge, rhs);
+            let r = add_row(
+                &mut m,
+                &mut row_kind,
+                ConstraintKind::Force {
+                    site: site_id.clone(),
+                },
+                &t,
+                Sense::Ge,
+                rhs,
+            );
             force_rows.push((sp, slack, r));
             r
         });
@@ -546,17 +598,30 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
     let mut res_row = vec![None; inst.resources.len()];
     for (r, terms) in res_terms.iter().enumerate() {
         if !terms.is_empty() {
-            res_row[r] = Some(m.add_row(&inst.resource_name(r), terms, Sense::Le, inst.res_rhs[r]));
+            res_row[r] = Some(add_row(
+                &mut m,
+                &mut row_kind,
+                inst.resource_kind(r),
+                terms,
+                Sense::Le,
+                inst.res_rhs[r],
+            ));
         }
     }
     let share_row = match inst.share {
-        Some(_) if !share_terms.is_empty() => {
-            Some(m.add_row("dooryard_share", &share_terms, Sense::Ge, 0.0))
-        }
+        Some(_) if !share_terms.is_empty() => Some(add_row(
+            &mut m,
+            &mut row_kind,
+            ConstraintKind::DooryardShare,
+            &share_terms,
+            Sense::Ge,
+            0.0,
+        )),
         _ => None,
     };
     Built {
         model: m,
+        row_kind,
         arc_col,
         site_rows,
         res_row,

@@ -50,8 +50,12 @@ pub struct SiteOutcome {
 /// A constraint that holds with equality at the LP optimum and has a non-zero dual.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Binding {
-    /// Constraint name as in the exported model (e.g. `supply_F1_2027-03-02`).
+    /// Constraint name as in the exported model (e.g. `supply_F1_2027-03-02`): the kind's
+    /// name, MPS-sanitised.
     pub name: String,
+    /// What the constraint limits, with its facility, day or site.
+    #[serde(skip)]
+    pub kind: ConstraintKind,
     /// Objective gained per unit of slack, from the LP dual.
     pub dual: f64,
 }
@@ -86,6 +90,7 @@ pub struct Allocation {
     pub working_set: Vec<usize>,
 }
 
+pub mod constraint;
 pub mod model;
 pub mod mps;
 
@@ -93,6 +98,7 @@ mod bound;
 mod lp;
 mod rounding;
 
+pub use constraint::ConstraintKind;
 pub use model::Solver;
 
 use std::collections::BTreeSet;
@@ -412,10 +418,12 @@ pub fn allocate(
             .model
             .rows
             .iter()
+            .zip(&relax.built.row_kind)
             .zip(&sol.duals)
             .filter(|(_, d)| d.abs() > tol)
-            .map(|(r, d)| Binding {
+            .map(|((r, kind), d)| Binding {
                 name: r.name.clone(),
+                kind: kind.clone(),
                 dual: *d,
             })
             .collect();

@@ -4,7 +4,7 @@
 use chrono::{NaiveDate, NaiveDateTime};
 
 use super::PlanView;
-use crate::allocate::{Allocation, Binding, Shipment, SiteOutcome};
+use crate::allocate::{Allocation, Binding, ConstraintKind, Shipment, SiteOutcome};
 use crate::arcs::{Arc, Mode};
 use crate::dispatch::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::eligibility::Reason;
@@ -209,10 +209,18 @@ pub fn tiny_plan() -> TinyPlan {
         binding: vec![
             Binding {
                 name: "supply_F1_2027-03-02".into(),
+                kind: ConstraintKind::Supply {
+                    facility: sc.facilities[0].id.clone(),
+                    date: d(1),
+                },
                 dual: 12.5,
             },
             Binding {
-                name: "capacity_V2_2027-03-04".into(),
+                name: "vehicles_F2_2027-03-04".into(),
+                kind: ConstraintKind::Vehicles {
+                    depot: sc.facilities[1].id.clone(),
+                    date: d(3),
+                },
                 dual: 3.25,
             },
         ],
