@@ -13,6 +13,7 @@ use chrono::NaiveDate;
 
 use super::constraint::ConstraintKind;
 use super::model::{LinearModel, ModelError, ModelSolution, Sense};
+use super::note::{Note, NoteKind};
 use super::{AllocError, AllocOptions};
 use crate::arcs::{Arc, Arcs, Mode};
 use crate::scenario::{FacilityIdx, OverrideAction, Scenario, SiteIdx, SiteKind};
@@ -81,7 +82,7 @@ pub(crate) struct Instance<'a> {
     /// Releases (arcs with vials) a site may get this week, ≥ 1
     /// (`policy.releases_per_site_week`).
     pub releases_per_site: u32,
-    pub notes: Vec<String>,
+    pub notes: Vec<Note>,
 }
 
 fn date(d: NaiveDate) -> String {
@@ -234,40 +235,29 @@ impl<'a> Instance<'a> {
             source.push(i);
         }
         if excluded > 0 {
-            notes.push(format!(
-                "{excluded} arc(s) excluded by request (dispatch could not serve them)"
-            ));
+            notes.push(Note::new(NoteKind::ArcsExcluded { arcs: excluded }));
         }
         if dead > 0 {
-            notes.push(format!(
-                "{dead} arc(s) left out: no live wasps on arrival, past release-by, or a site \
-                 with priority 0"
-            ));
+            notes.push(Note::new(NoteKind::ArcsWithoutValue { arcs: dead }));
         }
         if no_resource > 0 {
-            notes.push(format!(
-                "{no_resource} arc(s) left out: no vials packed that day, or no vehicle/parcel \
-                 capacity on the dispatch day"
-            ));
+            notes.push(Note::new(NoteKind::ArcsWithoutCapacity {
+                arcs: no_resource,
+            }));
         }
         let mut by_site: BTreeMap<SiteIdx, Vec<usize>> = BTreeMap::new();
         for (i, a) in usable.iter().enumerate() {
             by_site.entry(a.site).or_default().push(i);
         }
         for &s in force.keys() {
+            let site = scenario.sites[s].id.clone();
             if forbidden[s] {
-                notes.push(format!(
-                    "site {} is both forced and forbidden: forbid wins",
-                    scenario.sites[s].id
-                ));
+                notes.push(Note::new(NoteKind::ForcedAndForbidden { site }));
             } else if !by_site.contains_key(&s) {
-                let why = arcs.no_arc_reason[s]
-                    .map(|r| r.code())
-                    .unwrap_or("every arc was excluded or carries no live wasps");
-                notes.push(format!(
-                    "force of site {} cannot be met: no usable arc ({why})",
-                    scenario.sites[s].id
-                ));
+                notes.push(Note::new(NoteKind::ForceWithoutArc {
+                    site,
+                    reason: arcs.no_arc_reason[s],
+                }));
             }
         }
         let mut sites = Vec::new();
@@ -304,22 +294,21 @@ impl<'a> Instance<'a> {
                     .sum();
                 if supply > 0.0 && share * supply > absorb {
                     let lowered = absorb / supply;
-                    notes.push(format!(
-                        "dooryard share lowered from {share:.2} to {lowered:.4}: the {requests} \
-                         reachable request(s) can take at most {absorb} vials, less than {share:.2} \
-                         of the week's {supply} vials; the rest may go to blocks rather than \
-                         stay at the facilities"
-                    ));
+                    notes.push(Note::new(NoteKind::ShareLowered {
+                        from: share,
+                        to: lowered,
+                        requests: requests as usize,
+                        absorb_vials: absorb as u64,
+                        supply_vials: supply as u64,
+                    }));
                     Some(lowered)
                 } else {
                     Some(share)
                 }
             } else {
-                notes.push(format!(
-                    "dooryard share {:.2} dropped: no dooryard request can be reached this week, \
-                     so keeping it would forbid every block release",
-                    policy.dooryard_share_min
-                ));
+                notes.push(Note::new(NoteKind::ShareDropped {
+                    share: policy.dooryard_share_min,
+                }));
                 None
             }
         } else {

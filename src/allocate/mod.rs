@@ -83,8 +83,9 @@ pub struct Allocation {
     pub marginal_value_per_vial: Vec<f64>,
     /// Binding constraints, largest dual first.
     pub binding: Vec<Binding>,
-    /// Human-readable notes (e.g. "dooryard share 0.30 cannot be met: ...").
-    pub notes: Vec<String>,
+    /// Notes for the analyst, each a typed kind with its text (e.g. "dooryard share 0.20
+    /// binds: ...").
+    pub notes: Vec<Note>,
     /// The LP's final working set, as indices into `Arcs::arcs` (see
     /// [`AllocOptions::warm_start`]).
     pub working_set: Vec<usize>,
@@ -93,6 +94,7 @@ pub struct Allocation {
 pub mod constraint;
 pub mod model;
 pub mod mps;
+pub mod note;
 
 mod bound;
 mod lp;
@@ -100,6 +102,7 @@ mod rounding;
 
 pub use constraint::ConstraintKind;
 pub use model::Solver;
+pub use note::{Note, NoteKind, Shortfall};
 
 use std::collections::BTreeSet;
 
@@ -353,12 +356,11 @@ pub fn allocate(
     let n = scenario.sites.len();
     let mut working_set = Vec::new();
     let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
-        notes.push(if scenario.total_supply_vials() == 0 {
-            "no vials are packed this week: nothing to allocate".to_string()
+        notes.push(Note::new(if scenario.total_supply_vials() == 0 {
+            NoteKind::NoSupply
         } else {
-            "no site can be reached with live wasps and a priority above 0: nothing to allocate"
-                .to_string()
-        });
+            NoteKind::NothingReachable
+        }));
         (
             Vec::new(),
             0.0,
@@ -372,39 +374,32 @@ pub fn allocate(
             source,
         })?;
         if relax.priced {
-            let priced = relax.in_set.iter().filter(|b| **b).count();
-            notes.push(format!(
-                "LP solved on {} of {} arcs ({priced} of {} reachable sites) in {} round(s); no \
-                 other arc has a positive reduced cost, so the bound holds for the whole pool",
-                relax.working_set.len(),
-                inst.arcs.len(),
-                inst.sites.len(),
-                relax.rounds
-            ));
+            notes.push(Note::new(NoteKind::LpPriced {
+                working_arcs: relax.working_set.len(),
+                arcs: inst.arcs.len(),
+                working_sites: relax.in_set.iter().filter(|b| **b).count(),
+                sites: inst.sites.len(),
+                rounds: relax.rounds,
+            }));
         } else if opts.pricing {
-            notes.push(format!(
-                "LP solved on all {} arcs at once: a pool this small solves faster whole than \
-                 by rounds of pricing",
-                inst.arcs.len()
-            ));
+            notes.push(Note::new(NoteKind::LpWhole {
+                arcs: inst.arcs.len(),
+            }));
         }
         let scale = inst.force_penalty_per_vial / 10.0;
         let tol = 1e-6 * scale.max(1e-9);
         let sol = &relax.solution;
         for &(sp, slack, _) in &relax.built.force_rows {
-            if sol.values[slack] > 1e-6 {
-                notes.push(format!(
-                    "force of site {} cannot be met in full: short by {:.1} {} (supply, \
-                     capacity or policy limits); a penalty of {:.1} per vial of shortfall keeps \
-                     the plan valid",
-                    scenario.sites[inst.sites[sp].site].id,
-                    sol.values[slack],
-                    match inst.sites[sp].force {
-                        Some(lp::Force::Wasps(_)) => "wasps",
-                        _ => "vials",
+            let short = sol.values[slack];
+            if short > 1e-6 {
+                notes.push(Note::new(NoteKind::ForceShort {
+                    site: scenario.sites[inst.sites[sp].site].id.clone(),
+                    shortfall: match inst.sites[sp].force {
+                        Some(lp::Force::Wasps(_)) => Shortfall::Wasps(short),
+                        _ => Shortfall::Vials(short),
                     },
-                    inst.force_penalty_per_vial
-                ));
+                    penalty_per_vial: inst.force_penalty_per_vial,
+                }));
             }
         }
         let mut marginal = vec![0.0f64; scenario.facilities.len()];
@@ -441,14 +436,12 @@ pub fn allocate(
                 .iter()
                 .filter(|s| s.kind == crate::scenario::SiteKind::Dooryard)
                 .count() as u64;
-            notes.push(format!(
-                "dooryard share {s:.2} binds: the plan serves more requests than value alone \
-                 would ({requests} reachable request(s) × {} vials could take up to {} vials); \
-                 each vial the floor demands costs {:.1} objective units",
-                inst.per_request,
-                requests * u64::from(inst.per_request),
-                -relax.share_dual
-            ));
+            notes.push(Note::new(NoteKind::ShareBinds {
+                share: s,
+                requests,
+                per_request: inst.per_request,
+                cost_per_vial: -relax.share_dual,
+            }));
         }
         // Rounding candidates: the LP's support (≥ 0.02 vials), forced sites, and near misses
         // (a first vial within 5 % of paying for the shared rows' duals): the alternates a
@@ -540,10 +533,7 @@ pub fn allocate(
     let supply = scenario.total_supply_vials();
     let shipped: u64 = shipments.iter().map(|s| u64::from(s.vials)).sum();
     if supply > 0 && shipped < supply && !inst.arcs.is_empty() {
-        notes.push(format!(
-            "{shipped} of {supply} vials shipped; no whole vial more adds value within the release \
-             limits, vehicle and parcel capacity, shelf life and the dooryard share"
-        ));
+        notes.push(Note::new(NoteKind::SupplyUnused { shipped, supply }));
     }
     check_bound_order(&scenario.name, objective, bound, lp_bound)?;
     let gap = gap(objective, bound);

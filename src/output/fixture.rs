@@ -4,7 +4,7 @@
 use chrono::{NaiveDate, NaiveDateTime};
 
 use super::PlanView;
-use crate::allocate::{Allocation, Binding, ConstraintKind, Shipment, SiteOutcome};
+use crate::allocate::{Allocation, Binding, ConstraintKind, Note, NoteKind, Shipment, SiteOutcome};
 use crate::arcs::{Arc, Mode};
 use crate::dispatch::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::eligibility::Reason;
@@ -224,7 +224,12 @@ pub fn tiny_plan() -> TinyPlan {
                 dual: 3.25,
             },
         ],
-        notes: vec!["dooryard share 0.10 met: 6 of 19 vials".into()],
+        notes: vec![Note::new(NoteKind::ShareBinds {
+            share: 0.1,
+            requests: 3,
+            per_request: 2,
+            cost_per_vial: 4.0,
+        })],
         working_set: Vec::new(),
     };
     let dispatch = Dispatch {
