@@ -1,4 +1,4 @@
-//! Step 3 of the allocation: the restricted master LP (formulation: `docs/model.md`, "Rows"
+//! Step 2 of the allocation: the restricted master LP (formulation: `docs/model.md`, "Rows"
 //! and "Working-set pricing").
 //!
 //! [`build_model`] writes the LP over a working set of arc columns, each row named by its

@@ -1,8 +1,8 @@
-//! Step 2 of the allocation: pricing (formulation: `docs/model.md`, "Working-set pricing").
+//! Step 3 of the allocation: pricing (formulation: `docs/model.md`, "Working-set pricing").
 //!
 //! The first working set of arc columns ([`initial_arcs`]), the reduced cost of an arc against
 //! the master LP's duals ([`arc_reduced_cost`], and [`reduced_cost`] against the shared rows
-//! alone, which the rounding uses to pick near misses), the arcs each round adds
+//! alone, with which `allocate` picks the rounding's near misses), the arcs each round adds
 //! ([`add_priced_arcs`]), and whether to price at all or solve the whole pool at once
 //! ([`use_pricing`]).
 
