@@ -7,7 +7,7 @@
 
 use std::time::Instant;
 
-use broodcast::allocate::{AllocOptions, allocate, export_mps, synthetic};
+use broodcast::allocate::{AllocOptions, NoteKind, allocate, export_mps, synthetic};
 
 /// Peak resident set of this process so far, MB (Linux `/proc/self/status` VmHWM; 0 elsewhere).
 fn peak_mb() -> f64 {
@@ -63,10 +63,17 @@ fn main() {
         let rounds = a
             .notes
             .iter()
-            .find(|n| n.starts_with("LP solved"))
-            .map(|n| {
-                let w: Vec<&str> = n.split_whitespace().collect();
-                format!("{} of {} sites, {} round(s)", w[3], w[5], w[9])
+            .find_map(|n| match n.kind {
+                NoteKind::LpPriced {
+                    working_sites,
+                    sites,
+                    rounds,
+                    ..
+                } => Some(format!(
+                    "{working_sites} of {sites} sites, {rounds} round(s)"
+                )),
+                NoteKind::LpWhole { arcs } => Some(format!("whole ({arcs} arcs at once)")),
+                _ => None,
             })
             .unwrap_or_else(|| "off (one LP over all sites)".to_string());
         let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();

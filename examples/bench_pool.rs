@@ -7,7 +7,7 @@
 //! demo always runs first). Prints a Markdown table.
 use std::time::Instant;
 
-use broodcast::allocate::{AllocOptions, Allocation, allocate};
+use broodcast::allocate::{AllocOptions, Allocation, NoteKind, allocate};
 use broodcast::generate::{self, GenParams};
 use broodcast::scenario::{self, Scenario};
 use broodcast::sweep::{Multiplier, scale_supply};
@@ -47,12 +47,16 @@ fn row(label: &str, s: &Scenario) {
     let rounds = priced
         .notes
         .iter()
-        .find_map(|n| {
-            let at = n.find(" round(s)")?;
-            n[..at].rsplit(' ').next().map(str::to_string)
+        .find_map(|n| match n.kind {
+            NoteKind::LpPriced { rounds, .. } => Some(rounds.to_string()),
+            _ => None,
         })
         .unwrap_or_else(|| "?".into());
-    let chose = if default.notes.iter().any(|n| n.contains("at once")) {
+    let chose = if default
+        .notes
+        .iter()
+        .any(|n| matches!(n.kind, NoteKind::LpWhole { .. }))
+    {
         "whole"
     } else {
         "priced"

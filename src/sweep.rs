@@ -576,20 +576,6 @@ pub struct Sweep {
     pub saturation: Saturation,
 }
 
-/// Kinds of constraint as named in the model (the prefix of a row name), for reporting what
-/// binds. Shared rows (supply, vehicles, parcel, share) limit many sites at once.
-pub fn constraint_kind(name: &str) -> &str {
-    if name == "dooryard_share" {
-        return name;
-    }
-    name.split('_').next().unwrap_or(name)
-}
-
-/// Whether a constraint kind is shared by many sites (rather than one site's own limit).
-pub fn is_shared_kind(kind: &str) -> bool {
-    matches!(kind, "supply" | "vehicles" | "parcel" | "dooryard_share")
-}
-
 impl Sweep {
     /// The 1× variant.
     pub fn reference(&self) -> Option<&VariantResult> {
@@ -961,14 +947,5 @@ mod tests {
         assert_eq!(saturation(&v, 0.05).at, None);
         let flat = [result("1", 0.0), result("2", 0.0)];
         assert_eq!(saturation(&flat, 0.25).at, Some(0), "saturated at 1×");
-    }
-
-    #[test]
-    fn constraint_kinds_come_from_row_names() {
-        assert_eq!(constraint_kind("supply_F1_2027-03-02"), "supply");
-        assert_eq!(constraint_kind("vehicles_F2_2027-03-03"), "vehicles");
-        assert_eq!(constraint_kind("dooryard_share"), "dooryard_share");
-        assert_eq!(constraint_kind("maxrelease_B0001"), "maxrelease");
-        assert!(is_shared_kind("parcel") && !is_shared_kind("request"));
     }
 }

@@ -17,7 +17,7 @@
 //! weaker than the LP bound. It is tighter where the LP fills a release to its maximum with a
 //! fraction of a vial that no whole number of vials reaches.
 
-use super::lp::{Force, Instance, share_coef};
+use super::instance::{Force, Instance, share_coef};
 use crate::scenario::SiteKind;
 
 const EPS: f64 = 1e-9;

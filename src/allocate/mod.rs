@@ -1,106 +1,36 @@
 //! The allocation: an LP relaxation over the candidate arcs (good_lp; clarabel backend, or
 //! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
-//! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`.
+//! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`,
+//! whose steps are the files here: `instance.rs` (1), `master.rs` (2), `pricing.rs` (3),
+//! `rounding.rs` (4), `bound.rs` (5), `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6);
+//! [`allocate`] runs them in order.
 
-use serde::Serialize;
-
-use crate::arcs::Arc;
-use crate::eligibility::Reason;
-use crate::scenario::SiteIdx;
-
-/// Whole vials sent on one arc.
-#[derive(Clone, Debug, PartialEq)]
-pub struct Shipment {
-    /// The arc (facility, pack day, dispatch day, site, mode).
-    pub arc: Arc,
-    /// Vials, ≥ 1.
-    pub vials: u32,
-}
-
-impl Shipment {
-    /// Expected live wasps at the arc's ETA.
-    pub fn wasps_expected_alive(&self) -> f64 {
-        self.arc.wasps_alive_per_vial * f64::from(self.vials)
-    }
-
-    /// The order of `Allocation::shipments`: (facility, dispatch date, site, pack date, mode).
-    pub fn order_key(&self) -> (usize, chrono::NaiveDate, SiteIdx, chrono::NaiveDate, Mode) {
-        let a = &self.arc;
-        (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode)
-    }
-}
-
-/// What one site got, and why not when it got nothing.
-#[derive(Clone, Debug, PartialEq)]
-pub struct SiteOutcome {
-    /// The site.
-    pub site: SiteIdx,
-    /// Priority used in the objective (≥ 0).
-    pub priority: f64,
-    /// Whether the site had any arc at all.
-    pub eligible: bool,
-    /// Why it got nothing (`None` when served).
-    pub reason: Option<Reason>,
-    /// Vials it got.
-    pub vials: u32,
-    /// Expected live wasps it got.
-    pub wasps_expected_alive: f64,
-}
-
-/// A constraint that holds with equality at the LP optimum and has a non-zero dual.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct Binding {
-    /// Constraint name as in the exported model (e.g. `supply_F1_2027-03-02`).
-    pub name: String,
-    /// Objective gained per unit of slack, from the LP dual.
-    pub dual: f64,
-}
-
-/// The week's whole-vial plan.
-#[derive(Clone, Debug)]
-pub struct Allocation {
-    /// Shipments sorted by (facility, dispatch_date, site, pack_date, mode).
-    pub shipments: Vec<Shipment>,
-    /// One per site, indexed by `SiteIdx`.
-    pub sites: Vec<SiteOutcome>,
-    /// LP relaxation optimum (an upper bound on any whole-vial plan's objective).
-    pub lp_bound: f64,
-    /// The whole-vial plan's objective under the same function.
-    pub objective: f64,
-    /// Upper bound on any whole-vial plan's objective: the smaller of `lp_bound` and the
-    /// Lagrangian bound of the LP's duals with whole-vial site subproblems (`docs/model.md`,
-    /// "Bounds"). At most `lp_bound`.
-    pub bound: f64,
-    /// `1 - objective / bound` (0 when `bound` is 0): how far the plan can be from the best
-    /// whole-vial plan, at most.
-    pub gap: f64,
-    /// Objective gained per extra vial at each facility (indexed by `FacilityIdx`), from the
-    /// supply-row duals (the best day of the week).
-    pub marginal_value_per_vial: Vec<f64>,
-    /// Binding constraints, largest dual first.
-    pub binding: Vec<Binding>,
-    /// Human-readable notes (e.g. "dooryard share 0.30 cannot be met: ...").
-    pub notes: Vec<String>,
-    /// The LP's final working set, as indices into `Arcs::arcs` (see
-    /// [`AllocOptions::warm_start`]).
-    pub working_set: Vec<usize>,
-}
-
+pub mod constraint;
 pub mod model;
 pub mod mps;
+pub mod note;
+pub mod result;
+#[doc(hidden)]
+pub mod synthetic;
 
 mod bound;
-mod lp;
+mod instance;
+mod master;
+mod pricing;
 mod rounding;
 
+pub use constraint::ConstraintKind;
 pub use model::Solver;
+pub use note::{Note, NoteKind, Shortfall};
+pub use result::{Allocation, Binding, Shipment, SiteOutcome};
 
 use std::collections::BTreeSet;
 
 use chrono::NaiveDate;
 
 use crate::arcs::{Arcs, Mode};
-use crate::scenario::{FacilityIdx, OverrideAction, Scenario};
+use crate::eligibility::Reason;
+use crate::scenario::{FacilityIdx, OverrideAction, Scenario, SiteIdx};
 
 /// An arc as the dispatch feedback loop names it: (facility, dispatch date, site, mode).
 pub type ArcKey = (FacilityIdx, NaiveDate, SiteIdx, Mode);
@@ -223,7 +153,7 @@ pub fn share_floor(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<Option<f64>, AllocError> {
-    Ok(lp::Instance::new(scenario, priority, arcs, opts)?.share)
+    Ok(instance::Instance::new(scenario, priority, arcs, opts)?.share)
 }
 
 /// Checks objective ≤ bound ≤ lp_bound up to a relative 1e-6 (interior-point tolerance).
@@ -264,11 +194,11 @@ pub fn plan_objective(
     opts: &AllocOptions,
     shipments: &[Shipment],
 ) -> Result<f64, AllocError> {
-    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
+    let inst = instance::Instance::new(scenario, priority, arcs, opts)?;
     Ok(objective_of(&inst, scenario, shipments))
 }
 
-fn objective_of(inst: &lp::Instance, scenario: &Scenario, shipments: &[Shipment]) -> f64 {
+fn objective_of(inst: &instance::Instance, scenario: &Scenario, shipments: &[Shipment]) -> f64 {
     let n = scenario.sites.len();
     let mut e = vec![0.0; n];
     let mut v = vec![0u32; n];
@@ -292,7 +222,7 @@ fn objective_of(inst: &lp::Instance, scenario: &Scenario, shipments: &[Shipment]
 const GUIDE_GAP: f64 = 0.002;
 
 /// The shipments of whole vials `x` per arc of `inst`, in [`Shipment::order_key`] order.
-fn shipments_of(inst: &lp::Instance, x: &[u32]) -> Vec<Shipment> {
+fn shipments_of(inst: &instance::Instance, x: &[u32]) -> Vec<Shipment> {
     let mut shipments: Vec<Shipment> = x
         .iter()
         .enumerate()
@@ -315,8 +245,8 @@ pub fn export_mps(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<String, AllocError> {
-    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
-    let built = lp::build_model(&inst, &vec![true; inst.arcs.len()]);
+    let inst = instance::Instance::new(scenario, priority, arcs, opts)?;
+    let built = master::build_model(&inst, &vec![true; inst.arcs.len()]);
     Ok(mps::write_mps(&built.model))
 }
 
@@ -342,17 +272,16 @@ pub fn allocate(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<Allocation, AllocError> {
-    let inst = lp::Instance::new(scenario, priority, arcs, opts)?;
+    let inst = instance::Instance::new(scenario, priority, arcs, opts)?;
     let mut notes = inst.notes.clone();
     let n = scenario.sites.len();
     let mut working_set = Vec::new();
     let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
-        notes.push(if scenario.total_supply_vials() == 0 {
-            "no vials are packed this week: nothing to allocate".to_string()
+        notes.push(Note::new(if scenario.total_supply_vials() == 0 {
+            NoteKind::NoSupply
         } else {
-            "no site can be reached with live wasps and a priority above 0: nothing to allocate"
-                .to_string()
-        });
+            NoteKind::NothingReachable
+        }));
         (
             Vec::new(),
             0.0,
@@ -361,49 +290,42 @@ pub fn allocate(
             Vec::new(),
         )
     } else {
-        let relax = lp::solve_relaxation(&inst, opts).map_err(|source| AllocError::Solver {
+        let relax = master::solve_relaxation(&inst, opts).map_err(|source| AllocError::Solver {
             scenario: scenario.name.clone(),
             source,
         })?;
         if relax.priced {
-            let priced = relax.in_set.iter().filter(|b| **b).count();
-            notes.push(format!(
-                "LP solved on {} of {} arcs ({priced} of {} reachable sites) in {} round(s); no \
-                 other arc has a positive reduced cost, so the bound holds for the whole pool",
-                relax.working_set.len(),
-                inst.arcs.len(),
-                inst.sites.len(),
-                relax.rounds
-            ));
+            notes.push(Note::new(NoteKind::LpPriced {
+                working_arcs: relax.working_set.len(),
+                arcs: inst.arcs.len(),
+                working_sites: relax.in_set.iter().filter(|b| **b).count(),
+                sites: inst.sites.len(),
+                rounds: relax.rounds,
+            }));
         } else if opts.pricing {
-            notes.push(format!(
-                "LP solved on all {} arcs at once: a pool this small solves faster whole than \
-                 by rounds of pricing",
-                inst.arcs.len()
-            ));
+            notes.push(Note::new(NoteKind::LpWhole {
+                arcs: inst.arcs.len(),
+            }));
         }
         let scale = inst.force_penalty_per_vial / 10.0;
         let tol = 1e-6 * scale.max(1e-9);
         let sol = &relax.solution;
         for &(sp, slack, _) in &relax.built.force_rows {
-            if sol.values[slack] > 1e-6 {
-                notes.push(format!(
-                    "force of site {} cannot be met in full: short by {:.1} {} (supply, \
-                     capacity or policy limits); a penalty of {:.1} per vial of shortfall keeps \
-                     the plan valid",
-                    scenario.sites[inst.sites[sp].site].id,
-                    sol.values[slack],
-                    match inst.sites[sp].force {
-                        Some(lp::Force::Wasps(_)) => "wasps",
-                        _ => "vials",
+            let short = sol.values[slack];
+            if short > 1e-6 {
+                notes.push(Note::new(NoteKind::ForceShort {
+                    site: scenario.sites[inst.sites[sp].site].id.clone(),
+                    shortfall: match inst.sites[sp].force {
+                        Some(instance::Force::Wasps(_)) => Shortfall::Wasps(short),
+                        _ => Shortfall::Vials(short),
                     },
-                    inst.force_penalty_per_vial
-                ));
+                    penalty_per_vial: inst.force_penalty_per_vial,
+                }));
             }
         }
         let mut marginal = vec![0.0f64; scenario.facilities.len()];
         for (r, res) in inst.resources.iter().enumerate() {
-            if let lp::Resource::Supply(f, _) = res {
+            if let instance::Resource::Supply(f, _) = res {
                 marginal[*f] = marginal[*f].max(relax.res_dual[r].max(0.0));
             }
         }
@@ -412,10 +334,12 @@ pub fn allocate(
             .model
             .rows
             .iter()
+            .zip(&relax.built.row_kind)
             .zip(&sol.duals)
             .filter(|(_, d)| d.abs() > tol)
-            .map(|(r, d)| Binding {
+            .map(|((r, kind), d)| Binding {
                 name: r.name.clone(),
+                kind: kind.clone(),
                 dual: *d,
             })
             .collect();
@@ -433,14 +357,12 @@ pub fn allocate(
                 .iter()
                 .filter(|s| s.kind == crate::scenario::SiteKind::Dooryard)
                 .count() as u64;
-            notes.push(format!(
-                "dooryard share {s:.2} binds: the plan serves more requests than value alone \
-                 would ({requests} reachable request(s) × {} vials could take up to {} vials); \
-                 each vial the floor demands costs {:.1} objective units",
-                inst.per_request,
-                requests * u64::from(inst.per_request),
-                -relax.share_dual
-            ));
+            notes.push(Note::new(NoteKind::ShareBinds {
+                share: s,
+                requests,
+                per_request: inst.per_request,
+                cost_per_vial: -relax.share_dual,
+            }));
         }
         // Rounding candidates: the LP's support (≥ 0.02 vials), forced sites, and near misses
         // (a first vial within 5 % of paying for the shared rows' duals): the alternates a
@@ -454,7 +376,7 @@ pub fn allocate(
                     && (site.force.is_some()
                         || site.arcs.iter().map(|&a| relax.x[a]).sum::<f64>() >= 0.02
                         || site.arcs.iter().any(|&a| {
-                            lp::reduced_cost(&inst, a, &relax.res_dual, relax.share_dual)
+                            pricing::reduced_cost(&inst, a, &relax.res_dual, relax.share_dual)
                                 >= -0.05 * site.priority * inst.arcs[a].wasps_alive_per_vial
                         }))
             })
@@ -532,10 +454,7 @@ pub fn allocate(
     let supply = scenario.total_supply_vials();
     let shipped: u64 = shipments.iter().map(|s| u64::from(s.vials)).sum();
     if supply > 0 && shipped < supply && !inst.arcs.is_empty() {
-        notes.push(format!(
-            "{shipped} of {supply} vials shipped; no whole vial more adds value within the release \
-             limits, vehicle and parcel capacity, shelf life and the dooryard share"
-        ));
+        notes.push(Note::new(NoteKind::SupplyUnused { shipped, supply }));
     }
     check_bound_order(&scenario.name, objective, bound, lp_bound)?;
     let gap = gap(objective, bound);
@@ -551,180 +470,6 @@ pub fn allocate(
         notes,
         working_set,
     })
-}
-
-/// Seeded synthetic allocation inputs for tests and benchmarks (not a demo, not a reference):
-/// the `tiny()` fixture's policy, agent and fleet with generated sites, supply and arcs.
-#[doc(hidden)]
-pub mod synthetic {
-    use chrono::{Datelike, Days, NaiveTime};
-
-    use crate::arcs::{Arc, Arcs, Mode};
-    use crate::scenario::{Scenario, Site, SiteDetail, SiteId, Supply, fixture::tiny};
-
-    /// SplitMix64: a tiny seeded generator, enough for test data.
-    #[derive(Clone, Debug)]
-    pub struct Rng(pub u64);
-
-    impl Rng {
-        /// Next 64 random bits.
-        pub fn next_u64(&mut self) -> u64 {
-            self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-            let mut z = self.0;
-            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-            z ^ (z >> 31)
-        }
-        /// Uniform in [0, 1).
-        pub fn unit(&mut self) -> f64 {
-            (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
-        }
-        /// Uniform in 0..n (n ≥ 1).
-        pub fn below(&mut self, n: u64) -> u64 {
-            self.next_u64() % n.max(1)
-        }
-    }
-
-    /// `n_sites` sites (about one in five a dooryard request), `supply_vials` vials over the
-    /// five weekdays of both facilities, two or three arcs a site, skewed priorities (one in
-    /// ten 0). Returns (scenario, priority per site, arcs).
-    pub fn generate(seed: u64, n_sites: usize, supply_vials: u32) -> (Scenario, Vec<f64>, Arcs) {
-        let mut rng = Rng(seed);
-        let mut s = tiny();
-        let block = s.sites[0].clone();
-        let request = s.sites[6].clone();
-        s.sites = (0..n_sites)
-            .map(|i| {
-                let door = rng.below(5) == 0;
-                let mut site = if door { request.clone() } else { block.clone() };
-                site.id = SiteId(format!("{}{:05}", if door { "R" } else { "B" }, i + 1));
-                site.location.lon += rng.unit() * 0.4 - 0.2;
-                site.location.lat += rng.unit() * 0.4 - 0.2;
-                if let SiteDetail::Dooryard(r) = &mut site.detail {
-                    r.delivery = match rng.below(3) {
-                        0 => crate::scenario::Delivery::Route,
-                        1 => crate::scenario::Delivery::Parcel,
-                        _ => crate::scenario::Delivery::Either,
-                    };
-                }
-                site
-            })
-            .collect::<Vec<Site>>();
-        let per = supply_vials / 10;
-        let mut extra = supply_vials - per * 10;
-        s.supply = (0..2)
-            .flat_map(|f| (0..5u64).map(move |d| (f, d)))
-            .map(|(f, d)| {
-                let add = u32::from(extra > 0);
-                extra = extra.saturating_sub(1);
-                Supply {
-                    facility: f,
-                    date: s.week_start + Days::new(d),
-                    vials: per + add,
-                }
-            })
-            .collect();
-        // Vehicle capacity: most of a day's supply, so capacity binds on some days.
-        let daily = f64::from(supply_vials) / 5.0;
-        s.fleet[0].capacity_vials = (daily * 0.45).ceil() as u32 + 1;
-        s.fleet[1].capacity_vials = (daily * 0.6).ceil() as u32 + 1;
-        s.parcel.max_vials_per_day = (daily * 0.2).ceil() as u32 + 2;
-        let priority: Vec<f64> = (0..n_sites)
-            .map(|_| {
-                if rng.below(10) == 0 {
-                    0.0
-                } else {
-                    0.05 + rng.unit().powi(3) * 10.0
-                }
-            })
-            .collect();
-        let pack =
-            |d: chrono::NaiveDate| d.and_time(NaiveTime::from_hms_opt(6, 0, 0).expect("valid"));
-        let mut arcs = Vec::new();
-        for (i, site) in s.sites.iter().enumerate() {
-            let door = matches!(site.detail, SiteDetail::Dooryard(_));
-            let k = 2 + rng.below(2);
-            for _ in 0..k {
-                let facility = rng.below(2) as usize;
-                let day = rng.below(5);
-                let dispatch = s.week_start + Days::new(day);
-                let wd = dispatch.weekday();
-                let parcel_ok = door && s.parcel.days.contains(&wd) && rng.below(2) == 0;
-                let route_ok = s
-                    .fleet
-                    .iter()
-                    .any(|v| v.depot == facility && v.runs_on(dispatch));
-                let mode = if parcel_ok {
-                    Mode::Parcel
-                } else if route_ok {
-                    Mode::Route
-                } else {
-                    continue;
-                };
-                let held = if day > 0 { rng.below(2) } else { 0 };
-                let pack_date = dispatch - Days::new(held);
-                let drive = 10.0 + rng.unit() * 80.0;
-                let eta = match mode {
-                    Mode::Route => {
-                        dispatch.and_hms_opt(8, 0, 0).expect("valid")
-                            + chrono::Duration::minutes(drive as i64)
-                    }
-                    Mode::Parcel => {
-                        dispatch.and_hms_opt(15, 0, 0).expect("valid") + chrono::Duration::hours(24)
-                    }
-                };
-                let hours = (eta - pack(pack_date)).num_minutes() as f64 / 60.0;
-                let survival = s.agent.survival_at(hours);
-                let release_by =
-                    pack(pack_date) + chrono::Duration::hours(s.agent.shelf_life_hours as i64);
-                if survival <= 0.0 || eta > release_by {
-                    continue;
-                }
-                arcs.push(Arc {
-                    facility,
-                    pack_date,
-                    dispatch_date: dispatch,
-                    site: i,
-                    mode,
-                    eta,
-                    release_by,
-                    survival,
-                    wasps_alive_per_vial: f64::from(s.facilities[facility].wasps_per_vial)
-                        * survival,
-                    drive_minutes: if mode == Mode::Route { drive } else { 0.0 },
-                });
-            }
-        }
-        arcs.sort_by(|a, b| {
-            (a.site, a.facility, a.pack_date, a.dispatch_date, a.mode).cmp(&(
-                b.site,
-                b.facility,
-                b.pack_date,
-                b.dispatch_date,
-                b.mode,
-            ))
-        });
-        arcs.dedup_by(|a, b| {
-            (a.site, a.facility, a.pack_date, a.dispatch_date, a.mode)
-                == (b.site, b.facility, b.pack_date, b.dispatch_date, b.mode)
-        });
-        let mut has = vec![false; n_sites];
-        for a in &arcs {
-            has[a.site] = true;
-        }
-        let no_arc_reason = has
-            .iter()
-            .map(|&h| (!h).then_some(crate::eligibility::Reason::OutOfReach))
-            .collect();
-        (
-            s,
-            priority,
-            Arcs {
-                arcs,
-                no_arc_reason,
-            },
-        )
-    }
 }
 
 #[cfg(test)]

@@ -23,7 +23,7 @@
 
 use std::collections::BTreeSet;
 
-use super::lp::{Force, Instance};
+use super::instance::{Force, Instance};
 use crate::scenario::SiteKind;
 
 const EPS: f64 = 1e-9;

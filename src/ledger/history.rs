@@ -18,7 +18,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use chrono::NaiveDate;
 
 use super::{Ledger, LedgerError, Status, parse_date};
-use crate::allocate::{AllocOptions, Allocation};
+use crate::allocate::{AllocOptions, Allocation, NoteKind};
 use crate::arcs::Mode;
 use crate::eligibility::Reason;
 use crate::scenario::{Scenario, SiteDetail, SiteIdx};
@@ -182,8 +182,12 @@ impl LedgerMarks {
         // The ledger's exclusions travel in the same option as dispatch feedback, so the
         // allocation's count of excluded arcs would otherwise credit them all to dispatch.
         if !self.excluded.is_empty() {
-            for n in &mut allocation.notes {
-                *n = n.replace(
+            let excluded = allocation
+                .notes
+                .iter_mut()
+                .filter(|n| matches!(n.kind, NoteKind::ArcsExcluded { .. }));
+            for n in excluded {
+                n.text = n.text.replace(
                     "(dispatch could not serve them)",
                     "(sites the season ledger excludes, and any stops dispatch could not serve)",
                 );
@@ -374,7 +378,9 @@ mod tests {
                 .allocation
                 .notes
                 .iter()
-                .any(|n| n.contains("arc(s) excluded by request (sites the season ledger")),
+                .any(|n| matches!(n.kind, NoteKind::ArcsExcluded { .. })
+                    && n.text
+                        .contains("arc(s) excluded by request (sites the season ledger")),
             "{:?}",
             second.allocation.notes
         );

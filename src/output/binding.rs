@@ -1,6 +1,6 @@
 //! `binding-constraints.csv`: every constraint that binds at the LP optimum, with its kind
-//! read from the name the allocation gives it, for analysts. The report summarises the same
-//! list by kind in plain words.
+//! and ids taken from the allocation's typed [`ConstraintKind`], for analysts. The report
+//! summarises the same list by kind in plain words.
 //!
 //! Constraint names are those of the exported model (`docs/model.md`): `supply_<facility>_<date>`,
 //! `vehicles_<facility>_<date>`, `parcel_<date>`, `dooryard_share`, and per site
@@ -9,6 +9,8 @@
 use chrono::NaiveDate;
 
 use super::{OutputError, PlanView, fixed};
+use crate::allocate::{Binding, ConstraintKind};
+use crate::scenario::{FacilityId, SiteId};
 
 /// The `binding-constraints.csv` header, in column order.
 pub const BINDING_COLUMNS: [&str; 6] = [
@@ -39,8 +41,6 @@ pub(crate) enum Kind {
     Force,
     /// A site's value row (not a limit: it binds at every served site).
     SiteValue,
-    /// A name this module does not know.
-    Other,
 }
 
 impl Kind {
@@ -55,12 +55,11 @@ impl Kind {
             Kind::MaxRelease => "max-release",
             Kind::Force => "force",
             Kind::SiteValue => "site-value",
-            Kind::Other => "other",
         }
     }
 }
 
-/// One binding constraint with its name taken apart.
+/// One binding constraint with its kind's ids.
 #[derive(Clone, Debug, PartialEq)]
 pub(crate) struct Parsed<'a> {
     /// The constraint name as in the model.
@@ -77,60 +76,32 @@ pub(crate) struct Parsed<'a> {
     pub dual: f64,
 }
 
-/// Takes a constraint name apart. Facility ids may hold `_`, so the date is read from the end.
-pub(crate) fn parse(name: &str, dual: f64) -> Parsed<'_> {
-    let mut p = Parsed {
-        name,
-        kind: Kind::Other,
-        facility: None,
-        date: None,
-        site: None,
-        dual,
+/// A binding constraint in the report's words, from its typed kind (never from its name).
+pub(crate) fn parse(b: &Binding) -> Parsed<'_> {
+    let kind = match b.kind {
+        ConstraintKind::Supply { .. } => Kind::Supply,
+        ConstraintKind::Vehicles { .. } => Kind::Vehicles,
+        ConstraintKind::Parcel { .. } => Kind::Parcel,
+        ConstraintKind::DooryardShare => Kind::DooryardShare,
+        ConstraintKind::Request { .. } => Kind::RequestVials,
+        ConstraintKind::MaxRelease { .. } => Kind::MaxRelease,
+        ConstraintKind::Force { .. } => Kind::Force,
+        ConstraintKind::Benefit { .. } => Kind::SiteValue,
     };
-    if name == "dooryard_share" {
-        p.kind = Kind::DooryardShare;
-    } else if let Some(rest) = name.strip_prefix("supply_") {
-        if let Some((f, d)) = facility_day(rest) {
-            (p.kind, p.facility, p.date) = (Kind::Supply, Some(f), Some(d));
-        }
-    } else if let Some(rest) = name.strip_prefix("vehicles_") {
-        if let Some((f, d)) = facility_day(rest) {
-            (p.kind, p.facility, p.date) = (Kind::Vehicles, Some(f), Some(d));
-        }
-    } else if let Some(rest) = name.strip_prefix("parcel_") {
-        if let Ok(d) = NaiveDate::parse_from_str(rest, "%Y-%m-%d") {
-            (p.kind, p.date) = (Kind::Parcel, Some(d));
-        }
-    } else {
-        for (prefix, kind) in [
-            ("benefit_", Kind::SiteValue),
-            ("maxrelease_", Kind::MaxRelease),
-            ("request_", Kind::RequestVials),
-            ("force_", Kind::Force),
-        ] {
-            if let Some(site) = name.strip_prefix(prefix) {
-                (p.kind, p.site) = (kind, Some(site));
-                break;
-            }
-        }
+    Parsed {
+        name: &b.name,
+        kind,
+        facility: b.kind.facility().map(FacilityId::as_str),
+        date: b.kind.date(),
+        site: b.kind.site().map(SiteId::as_str),
+        dual: b.dual,
     }
-    p
-}
-
-/// `<facility>_<date>`, the date read from the end (facility ids may hold `_`).
-fn facility_day(rest: &str) -> Option<(&str, NaiveDate)> {
-    let (f, d) = rest.rsplit_once('_')?;
-    Some((f, NaiveDate::parse_from_str(d, "%Y-%m-%d").ok()?))
 }
 
 /// Every binding constraint of the view, parsed, in the allocation's order (largest dual
 /// first).
 pub(crate) fn all<'a>(view: &PlanView<'a>) -> Vec<Parsed<'a>> {
-    view.allocation
-        .binding
-        .iter()
-        .map(|b| parse(&b.name, b.dual))
-        .collect()
+    view.allocation.binding.iter().map(parse).collect()
 }
 
 /// Renders `binding-constraints.csv`: one row per binding constraint, largest dual first;
@@ -157,24 +128,75 @@ pub(crate) fn render(view: &PlanView) -> Result<Vec<u8>, OutputError> {
 mod tests {
     use super::*;
 
+    fn binding(name: &str, kind: ConstraintKind) -> Binding {
+        Binding {
+            name: name.into(),
+            kind,
+            dual: 2.0,
+        }
+    }
+
+    /// Kind, facility, day and site come from the typed kind: a row whose name reads as
+    /// something else (a facility id holding `_`, or any name at all) is still read right.
     #[test]
-    fn names_come_apart_by_kind() {
+    fn kind_and_ids_come_from_the_typed_kind_not_the_name() {
         let d = NaiveDate::from_ymd_opt(2027, 3, 2).unwrap();
-        let p = parse("supply_F_1_2027-03-02", 2.0);
-        assert_eq!(
-            (p.kind, p.facility, p.date),
-            (Kind::Supply, Some("F_1"), Some(d))
+        let b = binding(
+            "vehicles_F_1_2027-03-02",
+            ConstraintKind::Supply {
+                facility: FacilityId("F_1".into()),
+                date: d,
+            },
         );
-        let p = parse("vehicles_F2_2027-03-02", 1.0);
-        assert_eq!((p.kind, p.facility), (Kind::Vehicles, Some("F2")));
-        assert_eq!(parse("parcel_2027-03-02", 1.0).kind, Kind::Parcel);
-        assert_eq!(parse("dooryard_share", 1.0).kind, Kind::DooryardShare);
-        let p = parse("request_R0137", 1.0);
-        assert_eq!((p.kind, p.site), (Kind::RequestVials, Some("R0137")));
-        assert_eq!(parse("maxrelease_B1", 1.0).kind, Kind::MaxRelease);
-        assert_eq!(parse("benefit_B1", 1.0).kind, Kind::SiteValue);
-        assert_eq!(parse("force_B1", 1.0).kind, Kind::Force);
-        assert_eq!(parse("supply_F1_notadate", 1.0).kind, Kind::Other);
-        assert_eq!(parse("mystery", 1.0).kind, Kind::Other);
+        let p = parse(&b);
+        assert_eq!(
+            (p.name, p.kind, p.facility, p.date, p.site),
+            (
+                "vehicles_F_1_2027-03-02",
+                Kind::Supply,
+                Some("F_1"),
+                Some(d),
+                None
+            )
+        );
+        let b = binding(
+            "row7",
+            ConstraintKind::Request {
+                site: SiteId("R 0137".into()),
+            },
+        );
+        let p = parse(&b);
+        assert_eq!((p.kind, p.site), (Kind::RequestVials, Some("R 0137")));
+        for (kind, want) in [
+            (
+                ConstraintKind::Vehicles {
+                    depot: FacilityId("F2".into()),
+                    date: d,
+                },
+                Kind::Vehicles,
+            ),
+            (ConstraintKind::Parcel { date: d }, Kind::Parcel),
+            (ConstraintKind::DooryardShare, Kind::DooryardShare),
+            (
+                ConstraintKind::MaxRelease {
+                    site: SiteId("B1".into()),
+                },
+                Kind::MaxRelease,
+            ),
+            (
+                ConstraintKind::Benefit {
+                    site: SiteId("B1".into()),
+                },
+                Kind::SiteValue,
+            ),
+            (
+                ConstraintKind::Force {
+                    site: SiteId("B1".into()),
+                },
+                Kind::Force,
+            ),
+        ] {
+            assert_eq!(parse(&binding("x", kind)).kind, want);
+        }
     }
 }

@@ -4,7 +4,7 @@
 use chrono::{NaiveDate, NaiveDateTime};
 
 use super::PlanView;
-use crate::allocate::{Allocation, Binding, Shipment, SiteOutcome};
+use crate::allocate::{Allocation, Binding, ConstraintKind, Note, NoteKind, Shipment, SiteOutcome};
 use crate::arcs::{Arc, Mode};
 use crate::dispatch::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::eligibility::Reason;
@@ -209,14 +209,27 @@ pub fn tiny_plan() -> TinyPlan {
         binding: vec![
             Binding {
                 name: "supply_F1_2027-03-02".into(),
+                kind: ConstraintKind::Supply {
+                    facility: sc.facilities[0].id.clone(),
+                    date: d(1),
+                },
                 dual: 12.5,
             },
             Binding {
-                name: "capacity_V2_2027-03-04".into(),
+                name: "vehicles_F2_2027-03-04".into(),
+                kind: ConstraintKind::Vehicles {
+                    depot: sc.facilities[1].id.clone(),
+                    date: d(3),
+                },
                 dual: 3.25,
             },
         ],
-        notes: vec!["dooryard share 0.10 met: 6 of 19 vials".into()],
+        notes: vec![Note::new(NoteKind::ShareBinds {
+            share: 0.1,
+            requests: 3,
+            per_request: 2,
+            cost_per_vial: 4.0,
+        })],
         working_set: Vec::new(),
     };
     let dispatch = Dispatch {

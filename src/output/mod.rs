@@ -81,7 +81,11 @@ impl<'a> PlanView<'a> {
 
     /// The plan's notes: the allocation's, then the route search's (plain text).
     pub fn notes(&self) -> impl Iterator<Item = &'a String> {
-        self.allocation.notes.iter().chain(&self.dispatch.notes)
+        self.allocation
+            .notes
+            .iter()
+            .map(|n| &n.text)
+            .chain(&self.dispatch.notes)
     }
 }
 

@@ -857,14 +857,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
             format!("{} per unit", range(v)),
         );
     }
-    if let Some(v) = week.binding.get(&Kind::Other) {
-        row(
-            h,
-            "Other",
-            count(v.len(), "constraint", "constraints"),
-            range(v),
-        );
-    }
     if !any {
         h.push_str("<tr><td colspan=\"3\" class=\"muted\">Nothing binds: every site got what it could use.</td></tr>");
     }

@@ -14,7 +14,11 @@ use super::sweep_chart::{self, LineChart, Series};
 use super::{OutputError, PAGE_CSS, PlanView, RenderOptions, esc, fixed, render_all_with};
 
 const REDACTED: RenderOptions = RenderOptions { redact: true };
-use crate::sweep::{Sweep, VariantResult, constraint_kind, is_shared_kind};
+use crate::allocate::ConstraintKind::{self, Parcel, Supply, Vehicles};
+use crate::sweep::{Sweep, VariantResult};
+
+/// Whether a binding row is of one kind.
+type IsKind = fn(&ConstraintKind) -> bool;
 
 /// The `sweep.csv` header, in column order.
 pub const SWEEP_COLUMNS: [&str; 13] = [
@@ -85,11 +89,7 @@ fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
 /// when one binds, else the sites' own limits (every reachable site has what it can use).
 /// `plan` gives the policy figures for the sentence; without it the sentence is shorter.
 pub fn limit(v: &VariantResult, plan: Option<&crate::plan::Plan>) -> (String, String) {
-    let binds = |kind: &str| {
-        v.binding
-            .iter()
-            .any(|b| constraint_kind(&b.name) == kind && b.dual.abs() > 1e-9)
-    };
+    let binds = |is: IsKind| v.binding.iter().any(|b| is(&b.kind) && b.dual.abs() > 1e-9);
     let n = |x: u64| sweep_chart::tick_label(x as f64, 1.0);
     if v.supply_vials > 0 && v.shipped_vials >= v.supply_vials {
         return (
@@ -97,7 +97,7 @@ pub fn limit(v: &VariantResult, plan: Option<&crate::plan::Plan>) -> (String, St
             format!("supply: all {} vials shipped", n(v.supply_vials)),
         );
     }
-    if binds("dooryard_share") {
+    if binds(|k| *k == ConstraintKind::DooryardShare) {
         let sentence = match plan {
             Some(p) if p.scenario.policy.dooryard_share_min > 0.0 => {
                 let per = p.scenario.policy.dooryard_vials_per_request;
@@ -120,11 +120,24 @@ pub fn limit(v: &VariantResult, plan: Option<&crate::plan::Plan>) -> (String, St
         };
         return ("dooryard floor".into(), sentence);
     }
-    for (kind, short, words) in [
-        ("supply", "supply", "supply on some days"),
-        ("vehicles", "vehicles", "vehicle capacity"),
-        ("parcel", "parcel cap", "the daily parcel cap"),
-    ] {
+    let shared: [(IsKind, _, _); 3] = [
+        (
+            |k| matches!(k, Supply { .. }),
+            "supply",
+            "supply on some days",
+        ),
+        (
+            |k| matches!(k, Vehicles { .. }),
+            "vehicles",
+            "vehicle capacity",
+        ),
+        (
+            |k| matches!(k, Parcel { .. }),
+            "parcel cap",
+            "the daily parcel cap",
+        ),
+    ];
+    for (kind, short, words) in shared {
         if binds(kind) {
             return (
                 short.into(),
@@ -152,16 +165,13 @@ pub fn binding_text(v: &VariantResult) -> String {
     let shared: Vec<String> = v
         .binding
         .iter()
-        .filter(|b| is_shared_kind(constraint_kind(&b.name)))
+        .filter(|b| b.kind.is_shared())
         .take(3)
         .map(|b| format!("{} (dual {})", b.name, fixed(b.dual, 1)))
         .collect();
     let mut site_rows: BTreeMap<&str, usize> = BTreeMap::new();
-    for b in &v.binding {
-        let k = constraint_kind(&b.name);
-        if !is_shared_kind(k) {
-            *site_rows.entry(k).or_insert(0) += 1;
-        }
+    for b in v.binding.iter().filter(|b| !b.kind.is_shared()) {
+        *site_rows.entry(b.kind.family()).or_insert(0) += 1;
     }
     let site_text = site_rows
         .iter()
@@ -505,25 +515,57 @@ mod tests {
         }
     }
 
-    fn b(name: &str, dual: f64) -> Binding {
+    fn b(kind: ConstraintKind, dual: f64) -> Binding {
         Binding {
-            name: name.into(),
+            name: kind.to_string(),
+            kind,
             dual,
         }
     }
 
+    fn site(s: &str) -> crate::scenario::SiteId {
+        crate::scenario::SiteId(s.into())
+    }
+
+    fn on_f1(day: u32) -> (crate::scenario::FacilityId, chrono::NaiveDate) {
+        let date = chrono::NaiveDate::from_ymd_opt(2027, 3, day).unwrap();
+        (crate::scenario::FacilityId("F1".into()), date)
+    }
+
     fn sample() -> Sweep {
         let variants = vec![
-            variant("0.5", 50.0, 120.0, vec![b("supply_F1_2027-03-01", 120.0)]),
-            variant("1", 90.0, 100.0, vec![b("request_R1", 300.0)]),
+            variant(
+                "0.5",
+                50.0,
+                120.0,
+                vec![b(
+                    ConstraintKind::Supply {
+                        facility: on_f1(1).0,
+                        date: on_f1(1).1,
+                    },
+                    120.0,
+                )],
+            ),
+            variant(
+                "1",
+                90.0,
+                100.0,
+                vec![b(ConstraintKind::Request { site: site("R1") }, 300.0)],
+            ),
             variant(
                 "2",
                 120.0,
                 10.0,
                 vec![
-                    b("maxrelease_B1", 50.0),
-                    b("vehicles_F1_2027-03-02", 40.0),
-                    b("maxrelease_B2", 30.0),
+                    b(ConstraintKind::MaxRelease { site: site("B1") }, 50.0),
+                    b(
+                        ConstraintKind::Vehicles {
+                            depot: on_f1(2).0,
+                            date: on_f1(2).1,
+                        },
+                        40.0,
+                    ),
+                    b(ConstraintKind::MaxRelease { site: site("B2") }, 30.0),
                 ],
             ),
         ];

@@ -1,0 +1,430 @@
+//! Step 1 of the allocation: the instance (formulation and symbols: `docs/model.md`).
+//!
+//! [`Instance`] gathers, once, everything the LP, the pricing, the rounding and the bound
+//! share: the usable arcs (excluded, forbidden and worthless arcs removed, each class counted
+//! in a note), the shared resources each arc draws on (supply per facility and pack day;
+//! vehicle capacity per depot and day, or the parcel cap per day), the site release limits,
+//! the forces and the dooryard share floor as kept (lowered or dropped with a note).
+
+use std::collections::BTreeMap;
+
+use chrono::NaiveDate;
+
+use super::constraint::ConstraintKind;
+use super::note::{Note, NoteKind};
+use super::{AllocError, AllocOptions};
+use crate::arcs::{Arc, Arcs, Mode};
+use crate::scenario::{FacilityIdx, OverrideAction, Scenario, SiteIdx, SiteKind};
+
+/// A shared resource row.
+#[derive(Clone, Debug, PartialEq, Eq, PartialOrd, Ord)]
+pub(crate) enum Resource {
+    /// Vials packed at a facility on a day.
+    Supply(FacilityIdx, NaiveDate),
+    /// Vials the depot's vehicles carry on a dispatch day.
+    Capacity(FacilityIdx, NaiveDate),
+    /// Vials the parcel service takes on a dispatch day.
+    Parcel(NaiveDate),
+}
+
+/// What a force override asks of a site, in the LP's units.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) enum Force {
+    /// Σ vials ≥ this many vials.
+    Vials(f64),
+    /// Σ expected live wasps ≥ this many wasps (a block forced without a count: the minimum).
+    Wasps(f64),
+}
+
+/// One site's data for the model.
+#[derive(Clone, Debug)]
+pub(crate) struct SiteData {
+    pub site: SiteIdx,
+    pub kind: SiteKind,
+    pub priority: f64,
+    /// Usable arc indices (into `Instance::arcs`).
+    pub arcs: Vec<usize>,
+    pub force: Option<Force>,
+}
+
+/// Everything the LP and the rounding share.
+#[derive(Clone, Debug)]
+pub(crate) struct Instance<'a> {
+    pub scenario: &'a Scenario,
+    /// Usable arcs, in `Arcs` order.
+    pub arcs: Vec<&'a Arc>,
+    /// Index into `Arcs::arcs` of each usable arc.
+    pub source: Vec<usize>,
+    /// Travel cost per vial on each usable arc, objective units.
+    pub cost: Vec<f64>,
+    /// Resource indices each usable arc draws one vial from: supply, then capacity or parcel.
+    pub arc_res: Vec<[usize; 2]>,
+    pub resources: Vec<Resource>,
+    /// Vials available per resource.
+    pub res_rhs: Vec<f64>,
+    /// Sites with at least one usable arc (or a force), by ascending `SiteIdx`.
+    pub sites: Vec<SiteData>,
+    /// Position in `sites` of each usable arc's site.
+    pub arc_site: Vec<usize>,
+    /// Dooryard share floor when the row is kept.
+    pub share: Option<f64>,
+    /// Objective penalty per vial (per wasp for `Force::Wasps`, divided by the best wasps per
+    /// vial) of shortfall on a force row.
+    pub force_penalty_per_vial: f64,
+    pub best_alive_per_vial: f64,
+    pub target: f64,
+    pub max: f64,
+    pub min: f64,
+    pub weight2: f64,
+    pub per_request: u32,
+    /// Releases (arcs with vials) a site may get this week, ≥ 1
+    /// (`policy.releases_per_site_week`).
+    pub releases_per_site: u32,
+    pub notes: Vec<Note>,
+}
+
+fn date(d: NaiveDate) -> String {
+    d.format("%Y-%m-%d").to_string()
+}
+
+impl<'a> Instance<'a> {
+    /// Checks inputs and gathers the instance. O(A log A) for A arcs.
+    pub fn new(
+        scenario: &'a Scenario,
+        priority: &[f64],
+        arcs: &'a Arcs,
+        opts: &AllocOptions,
+    ) -> Result<Self, AllocError> {
+        let n = scenario.sites.len();
+        if priority.len() != n {
+            return Err(AllocError::PriorityLength {
+                scenario: scenario.name.clone(),
+                got: priority.len(),
+                sites: n,
+            });
+        }
+        if let Some((i, p)) = priority
+            .iter()
+            .enumerate()
+            .find(|(_, p)| !p.is_finite() || **p < 0.0)
+        {
+            return Err(AllocError::BadPriority {
+                scenario: scenario.name.clone(),
+                site: scenario.sites[i].id.to_string(),
+                value: *p,
+            });
+        }
+        if arcs.no_arc_reason.len() != n {
+            return Err(AllocError::ArcsMismatch {
+                scenario: scenario.name.clone(),
+                message: format!(
+                    "no_arc_reason has {} entries for {n} sites",
+                    arcs.no_arc_reason.len()
+                ),
+            });
+        }
+        let mut notes = Vec::new();
+        let agent = &scenario.agent;
+        let policy = &scenario.policy;
+        let mut forbidden = vec![false; n];
+        let mut force: BTreeMap<SiteIdx, Force> = BTreeMap::new();
+        for o in &scenario.overrides {
+            if o.site >= n {
+                continue;
+            }
+            match o.action {
+                OverrideAction::Forbid => forbidden[o.site] = true,
+                OverrideAction::Force { vials } => {
+                    let f = match (scenario.sites[o.site].kind(), vials) {
+                        (SiteKind::Dooryard, _) => {
+                            Force::Vials(f64::from(policy.dooryard_vials_per_request))
+                        }
+                        (SiteKind::Block, Some(v)) => Force::Vials(f64::from(v)),
+                        (SiteKind::Block, None) => Force::Wasps(agent.min_release_wasps),
+                    };
+                    force.insert(o.site, f);
+                }
+            }
+        }
+        let mut supply: BTreeMap<(FacilityIdx, NaiveDate), f64> = BTreeMap::new();
+        for s in &scenario.supply {
+            *supply.entry((s.facility, s.date)).or_default() += f64::from(s.vials);
+        }
+        let mut capacity: BTreeMap<(FacilityIdx, NaiveDate), f64> = BTreeMap::new();
+        for v in &scenario.fleet {
+            for d in scenario.week_dates() {
+                if v.runs_on(d) {
+                    *capacity.entry((v.depot, d)).or_default() += f64::from(v.capacity_vials);
+                }
+            }
+        }
+        let mut res_index: BTreeMap<Resource, usize> = BTreeMap::new();
+        let mut resources = Vec::new();
+        let mut res_rhs = Vec::new();
+        let mut res_of = |r: Resource, rhs: f64| -> usize {
+            *res_index.entry(r.clone()).or_insert_with(|| {
+                resources.push(r);
+                res_rhs.push(rhs);
+                resources.len() - 1
+            })
+        };
+        let mut usable: Vec<&Arc> = Vec::new();
+        let mut source: Vec<usize> = Vec::new();
+        let mut arc_res = Vec::new();
+        let mut cost = Vec::new();
+        let (mut excluded, mut dead, mut no_resource) = (0usize, 0usize, 0usize);
+        for (i, a) in arcs.arcs.iter().enumerate() {
+            if a.site >= n || a.facility >= scenario.facilities.len() {
+                return Err(AllocError::ArcsMismatch {
+                    scenario: scenario.name.clone(),
+                    message: format!(
+                        "arc to site {} from facility {} is out of range",
+                        a.site, a.facility
+                    ),
+                });
+            }
+            if forbidden[a.site] {
+                continue;
+            }
+            if opts
+                .excluded
+                .contains(&(a.facility, a.dispatch_date, a.site, a.mode))
+            {
+                excluded += 1;
+                continue;
+            }
+            // An arc is worth nothing when its vials arrive dead or late, or when the site
+            // has no priority and no force.
+            if a.wasps_alive_per_vial.is_nan()
+                || a.wasps_alive_per_vial <= 0.0
+                || a.eta > a.release_by
+                || a.dispatch_date < a.pack_date
+                || (priority[a.site] == 0.0 && !force.contains_key(&a.site))
+            {
+                dead += 1;
+                continue;
+            }
+            let sup = supply
+                .get(&(a.facility, a.pack_date))
+                .copied()
+                .unwrap_or(0.0);
+            let second = match a.mode {
+                Mode::Route => (
+                    Resource::Capacity(a.facility, a.dispatch_date),
+                    capacity
+                        .get(&(a.facility, a.dispatch_date))
+                        .copied()
+                        .unwrap_or(0.0),
+                ),
+                Mode::Parcel => (
+                    Resource::Parcel(a.dispatch_date),
+                    f64::from(scenario.parcel.max_vials_per_day),
+                ),
+            };
+            if sup <= 0.0 || second.1 <= 0.0 {
+                no_resource += 1;
+                continue;
+            }
+            let r0 = res_of(Resource::Supply(a.facility, a.pack_date), sup);
+            let r1 = res_of(second.0, second.1);
+            arc_res.push([r0, r1]);
+            cost.push(policy.travel_cost_per_hour * a.drive_minutes.max(0.0) / 60.0);
+            usable.push(a);
+            source.push(i);
+        }
+        if excluded > 0 {
+            notes.push(Note::new(NoteKind::ArcsExcluded { arcs: excluded }));
+        }
+        if dead > 0 {
+            notes.push(Note::new(NoteKind::ArcsWithoutValue { arcs: dead }));
+        }
+        if no_resource > 0 {
+            notes.push(Note::new(NoteKind::ArcsWithoutCapacity {
+                arcs: no_resource,
+            }));
+        }
+        let mut by_site: BTreeMap<SiteIdx, Vec<usize>> = BTreeMap::new();
+        for (i, a) in usable.iter().enumerate() {
+            by_site.entry(a.site).or_default().push(i);
+        }
+        for &s in force.keys() {
+            let site = scenario.sites[s].id.clone();
+            if forbidden[s] {
+                notes.push(Note::new(NoteKind::ForcedAndForbidden { site }));
+            } else if !by_site.contains_key(&s) {
+                notes.push(Note::new(NoteKind::ForceWithoutArc {
+                    site,
+                    reason: arcs.no_arc_reason[s],
+                }));
+            }
+        }
+        let mut sites = Vec::new();
+        let mut arc_site = vec![0; usable.len()];
+        for (s, list) in by_site {
+            for &a in &list {
+                arc_site[a] = sites.len();
+            }
+            sites.push(SiteData {
+                site: s,
+                kind: scenario.sites[s].kind(),
+                priority: priority[s],
+                arcs: list,
+                force: force.get(&s).copied(),
+            });
+        }
+        let has_door = sites.iter().any(|s| s.kind == SiteKind::Dooryard);
+        let share = if policy.dooryard_share_min > 0.0 {
+            if has_door {
+                // The floor never makes vials stay home: when the reachable requests cannot
+                // absorb the share of the week's supply, it is lowered to what they can take
+                // (docs/model.md, "Dooryard share").
+                let share = policy.dooryard_share_min.min(1.0);
+                let requests = sites
+                    .iter()
+                    .filter(|s| s.kind == SiteKind::Dooryard)
+                    .count() as f64;
+                let absorb = requests * f64::from(policy.dooryard_vials_per_request);
+                let supply: f64 = resources
+                    .iter()
+                    .zip(&res_rhs)
+                    .filter(|(r, _)| matches!(r, Resource::Supply(..)))
+                    .map(|(_, v)| *v)
+                    .sum();
+                if supply > 0.0 && share * supply > absorb {
+                    let lowered = absorb / supply;
+                    notes.push(Note::new(NoteKind::ShareLowered {
+                        from: share,
+                        to: lowered,
+                        requests: requests as usize,
+                        absorb_vials: absorb as u64,
+                        supply_vials: supply as u64,
+                    }));
+                    Some(lowered)
+                } else {
+                    Some(share)
+                }
+            } else {
+                notes.push(Note::new(NoteKind::ShareDropped {
+                    share: policy.dooryard_share_min,
+                }));
+                None
+            }
+        } else {
+            None
+        };
+        let best_alive_per_vial = usable
+            .iter()
+            .map(|a| a.wasps_alive_per_vial)
+            .fold(0.0, f64::max);
+        let pmax = sites
+            .iter()
+            .map(|s| s.priority)
+            .fold(0.0, f64::max)
+            .max(1.0);
+        Ok(Instance {
+            scenario,
+            arcs: usable,
+            source,
+            cost,
+            arc_res,
+            resources,
+            res_rhs,
+            sites,
+            arc_site,
+            share,
+            // Ten times what any vial can earn elsewhere: a force is met whenever it can be.
+            force_penalty_per_vial: 10.0 * pmax * best_alive_per_vial.max(1.0),
+            best_alive_per_vial,
+            target: agent.target_release_wasps,
+            max: agent.max_release_wasps,
+            min: agent.min_release_wasps,
+            weight2: agent.above_target_weight,
+            per_request: policy.dooryard_vials_per_request,
+            releases_per_site: policy.releases_per_site_week.max(1),
+            notes,
+        })
+    }
+
+    /// The kind (and so the model name) of a resource row.
+    pub fn resource_kind(&self, r: usize) -> ConstraintKind {
+        let f = |i: FacilityIdx| self.scenario.facilities[i].id.clone();
+        match &self.resources[r] {
+            Resource::Supply(i, d) => ConstraintKind::Supply {
+                facility: f(*i),
+                date: *d,
+            },
+            Resource::Capacity(i, d) => ConstraintKind::Vehicles {
+                depot: f(*i),
+                date: *d,
+            },
+            Resource::Parcel(d) => ConstraintKind::Parcel { date: *d },
+        }
+    }
+
+    /// MPS-safe name of an arc column.
+    pub fn arc_name(&self, a: usize) -> String {
+        let arc = self.arcs[a];
+        format!(
+            "x_{}_{}_{}_{}_{}",
+            self.scenario.facilities[arc.facility].id,
+            date(arc.pack_date),
+            date(arc.dispatch_date),
+            self.scenario.sites[arc.site].id,
+            arc.mode.as_str()
+        )
+    }
+
+    /// Piecewise-linear benefit of `wasps` expected alive at site position `s`, objective
+    /// units (priority-weighted wasps).
+    pub fn benefit(&self, s: usize, wasps: f64) -> f64 {
+        let e = wasps.clamp(0.0, self.max);
+        let first = e.min(self.target);
+        let second = (e - self.target).max(0.0);
+        self.sites[s].priority * (first + self.weight2 * second)
+    }
+
+    /// Benefit less force shortfall penalties of site position `sp` holding `e` live wasps in
+    /// `v` vials: a site's part of the whole-vial objective (the rounding, the whole-vial
+    /// bound and `plan_objective` all value sites with it).
+    pub fn site_value(&self, sp: usize, e: f64, v: u32) -> f64 {
+        let mut val = self.benefit(sp, e);
+        match self.sites[sp].force {
+            Some(Force::Vials(need)) => {
+                val -= self.force_penalty_per_vial * (need - f64::from(v)).max(0.0);
+            }
+            Some(Force::Wasps(need)) => {
+                val -= self.force_penalty_per_vial / self.best_alive_per_vial.max(1.0)
+                    * (need - e).max(0.0);
+            }
+            None => {}
+        }
+        val
+    }
+
+    /// Whether `e` live wasps in `v` vials is a valid whole-vial release at site position
+    /// `sp`: nothing, or at most the maximum and, for a block, at least the minimum, for a
+    /// request exactly the standard count (relative tolerance 1e-9).
+    pub fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
+        const TOL: f64 = 1e-9;
+        if v == 0 {
+            return true;
+        }
+        if e > self.max * (1.0 + TOL) + TOL {
+            return false;
+        }
+        match self.sites[sp].kind {
+            SiteKind::Block => e >= self.min * (1.0 - TOL) - TOL,
+            SiteKind::Dooryard => v == self.per_request,
+        }
+    }
+}
+
+/// Coefficient of arc `a` (one vial) in the dooryard share row Σ (door − share·all) ≥ 0.
+pub(crate) fn share_coef(inst: &Instance, a: usize) -> f64 {
+    let s = inst.share.unwrap_or(0.0);
+    if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
+        1.0 - s
+    } else {
+        -s
+    }
+}
