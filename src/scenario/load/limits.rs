@@ -83,9 +83,12 @@ pub const MAX_SCOUT_COUNT: f64 = 1e6;
 /// Largest distance setting, km (`policy.pressure_radius_km`, `policy.pressure_bandwidth_km`).
 pub const MAX_KM: f64 = 1000.0;
 
-/// Largest `policy.travel_cost_per_hour`, in priority-weighted wasps: a million times the
-/// default (measured: 1e300 made the LP solver fail numerically).
-pub const MAX_TRAVEL_COST_PER_HOUR: f64 = 1e6;
+/// Largest `policy.travel_cost_per_hour`, in priority-weighted wasps: ten thousand times the
+/// default, when an hour's drive already costs more than a whole release at priority 1 is
+/// worth. Measured on tests/data/minimal with its forced block: 1e5 and 1e6 left the LP
+/// solver's optimum 3e-6 and 1e-4 below a whole-vial plan's objective (exit 1), 3e4 solves;
+/// 1e300 made it fail outright.
+pub const MAX_TRAVEL_COST_PER_HOUR: f64 = 1e4;
 
 /// Largest `travel.circuity` (road over straight-line distance).
 pub const MAX_CIRCUITY: f64 = 10.0;
