@@ -288,17 +288,24 @@ impl<'a> Instance<'a> {
                 force,
             });
         }
-        let has_door = sites.iter().any(|s| s.kind == SiteKind::Dooryard);
+        // A request is served with exactly its standard vials on one arc, so one whose every
+        // arc would carry more than max_release_wasps that way can never count toward the
+        // share floor (e.g. 10,000 vials a request: the floor held every vial at home).
+        let servable = |s: &&SiteData| {
+            s.kind == SiteKind::Dooryard
+                && s.arcs.iter().any(|&a| {
+                    f64::from(policy.dooryard_vials_per_request) * usable[a].wasps_alive_per_vial
+                        <= agent.max_release_wasps * (1.0 + 1e-9)
+                })
+        };
+        let has_door = sites.iter().any(|s| servable(&s));
         let share = if policy.dooryard_share_min > 0.0 {
             if has_door {
                 // The floor never makes vials stay home: when the reachable requests cannot
                 // absorb the share of the week's supply, it is lowered to what they can take
                 // (docs/model.md, "Dooryard share").
                 let share = policy.dooryard_share_min.min(1.0);
-                let requests = sites
-                    .iter()
-                    .filter(|s| s.kind == SiteKind::Dooryard)
-                    .count() as f64;
+                let requests = sites.iter().filter(servable).count() as f64;
                 let absorb = requests * f64::from(policy.dooryard_vials_per_request);
                 let supply: f64 = resources
                     .iter()
@@ -320,7 +327,8 @@ impl<'a> Instance<'a> {
                 }
             } else {
                 notes.push(format!(
-                    "dooryard share {:.2} dropped: no dooryard request can be reached this week, \
+                    "dooryard share {:.2} dropped: no dooryard request can be reached this week \
+                     with its standard vials within max_release_wasps, \
                      so keeping it would forbid every block release",
                     policy.dooryard_share_min
                 ));

@@ -673,11 +673,16 @@ fn unmeetable_force_is_relaxed_and_explained() {
     }];
     let a = allocate(&s, &p, &arcs, &AllocOptions::default()).expect("valid");
     check_invariants(&s, &p, &arcs, &a);
+    // 500 vials are more than one release within the maximum holds: the force is trimmed to
+    // what exists, and what is still short (supply, capacity) is explained, never "infeasible".
     assert!(
-        a.notes.iter().any(|n| n.contains("cannot be met in full")),
+        a.notes
+            .iter()
+            .any(|n| n.contains("the force is trimmed to")),
         "{:?}",
         a.notes
     );
+    assert!(!a.notes.iter().any(|n| n.contains("infeasible")));
 }
 
 #[test]
