@@ -264,25 +264,37 @@ impl<'a> Instance<'a> {
             for &a in &list {
                 arc_site[a] = sites.len();
             }
+            // A force asking for more vials than the site can hold or reach is trimmed to
+            // what exists, with a note, so the LP never sees a count it cannot meet.
+            let force = force
+                .get(&s)
+                .map(|&f| trim_force(scenario, &usable, &list, &res_rhs, &arc_res, f, &mut notes));
             sites.push(SiteData {
                 site: s,
                 kind: scenario.sites[s].kind(),
                 priority: priority[s],
                 arcs: list,
-                force: force.get(&s).copied(),
+                force,
             });
         }
-        let has_door = sites.iter().any(|s| s.kind == SiteKind::Dooryard);
+        // A request is served with exactly its standard vials on one arc, so one whose every
+        // arc would carry more than max_release_wasps that way can never count toward the
+        // share floor (e.g. 10,000 vials a request: the floor held every vial at home).
+        let servable = |s: &&SiteData| {
+            s.kind == SiteKind::Dooryard
+                && s.arcs.iter().any(|&a| {
+                    f64::from(policy.dooryard_vials_per_request) * usable[a].wasps_alive_per_vial
+                        <= agent.max_release_wasps * (1.0 + 1e-9)
+                })
+        };
+        let has_door = sites.iter().any(|s| servable(&s));
         let share = if policy.dooryard_share_min > 0.0 {
             if has_door {
                 // The floor never makes vials stay home: when the reachable requests cannot
                 // absorb the share of the week's supply, it is lowered to what they can take
                 // (docs/model.md, "Dooryard share").
                 let share = policy.dooryard_share_min.min(1.0);
-                let requests = sites
-                    .iter()
-                    .filter(|s| s.kind == SiteKind::Dooryard)
-                    .count() as f64;
+                let requests = sites.iter().filter(servable).count() as f64;
                 let absorb = requests * f64::from(policy.dooryard_vials_per_request);
                 let supply: f64 = resources
                     .iter()
@@ -427,4 +439,49 @@ pub(crate) fn share_coef(inst: &Instance, a: usize) -> f64 {
     } else {
         -s
     }
+}
+
+/// A force of `vials` on a block trimmed to what exists: the most whole vials its allowed
+/// releases (`policy.releases_per_site_week`, one arc each) can carry, each at most what one
+/// release within max_release_wasps holds on every one of its arcs (max_release_wasps ÷ the
+/// most live wasps a vial brings; so any arc can meet it) and the vials of the supply and
+/// vehicle or parcel rows it draws on. A force of live wasps (a block forced without a count: the minimum
+/// release) is never above the maximum. Pushes a note when it trims. O(k log k) for the k
+/// usable arcs of the site (`list`).
+fn trim_force(
+    scenario: &Scenario,
+    usable: &[&Arc],
+    list: &[usize],
+    res_rhs: &[f64],
+    arc_res: &[[usize; 2]],
+    force: Force,
+    notes: &mut Vec<Note>,
+) -> Force {
+    let Force::Vials(asked) = force else {
+        return force;
+    };
+    let max = scenario.agent.max_release_wasps;
+    let richest = list
+        .iter()
+        .map(|&a| usable[a].wasps_alive_per_vial)
+        .fold(0.0, f64::max);
+    let hold = (max * (1.0 + 1e-9) / richest).floor();
+    let mut per_arc: Vec<f64> = list
+        .iter()
+        .map(|&a| hold.min(res_rhs[arc_res[a][0]]).min(res_rhs[arc_res[a][1]]))
+        .collect();
+    per_arc.sort_by(|x, y| y.total_cmp(x));
+    let releases = scenario.policy.releases_per_site_week.max(1) as usize;
+    let most = per_arc.iter().take(releases).sum::<f64>().min(hold);
+    if asked <= most {
+        return force;
+    }
+    notes.push(Note::new(NoteKind::ForceTrimmed {
+        site: scenario.sites[usable[list[0]].site].id.clone(),
+        asked,
+        most,
+        releases,
+        max_release_wasps: max,
+    }));
+    Force::Vials(most)
 }

@@ -78,6 +78,19 @@ pub enum NoteKind {
         /// carries no live wasps).
         reason: Option<Reason>,
     },
+    /// A force asking for more whole vials than can reach the site: trimmed to what exists.
+    ForceTrimmed {
+        /// The site.
+        site: SiteId,
+        /// Vials the override asks for.
+        asked: f64,
+        /// Most whole vials that can reach the site; the force is trimmed to this.
+        most: f64,
+        /// Releases the site may get this week.
+        releases: usize,
+        /// `max_release_wasps`, wasps.
+        max_release_wasps: f64,
+    },
     /// A forced site the LP cannot give all it asks for (supply, capacity or policy).
     ForceShort {
         /// The site.
@@ -207,10 +220,24 @@ impl fmt::Display for NoteKind {
                  week's {supply_vials} vials; the rest may go to blocks rather than stay at the \
                  facilities"
             ),
+            NoteKind::ForceTrimmed {
+                site,
+                asked,
+                most,
+                releases,
+                max_release_wasps,
+            } => write!(
+                f,
+                "force of site {site} asks for {asked} vials, more than exist for it: at most \
+                 {most} whole vials reach it in {releases} release(s) within max_release_wasps \
+                 ({max_release_wasps}) and the vials packed and carried on its days; the force \
+                 is trimmed to {most} vials"
+            ),
             NoteKind::ShareDropped { share } => write!(
                 f,
                 "dooryard share {share:.2} dropped: no dooryard request can be reached this \
-                 week, so keeping it would forbid every block release"
+                 week with its standard vials within max_release_wasps, so keeping it would \
+                 forbid every block release"
             ),
             NoteKind::ShareBinds {
                 share,

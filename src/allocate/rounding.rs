@@ -704,8 +704,15 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                     } else {
                         xa
                     };
-                    let mut counts =
-                        vec![xa, same_wasps, same_wasps + 1, same_wasps.saturating_sub(1)];
+                    // Saturating: an arc with almost no live wasps a vial (a half-life of
+                    // minutes) makes `same_wasps` u32::MAX, and + 1 overflowed (proptest in
+                    // tests/it/extremes.rs, half_life_hours 0.5).
+                    let mut counts = vec![
+                        xa,
+                        same_wasps,
+                        same_wasps.saturating_add(1),
+                        same_wasps.saturating_sub(1),
+                    ];
                     if inst.sites[sp].kind == SiteKind::Dooryard {
                         counts = vec![xa];
                     }

@@ -298,7 +298,7 @@ fn every_configuration_number_at_its_limit_plans_and_past_it_is_refused() {
     // (key index in NUMBER_KEYS, lowest accepted, highest accepted, first refused above)
     let edges: [(usize, &str, &str, &str); 18] = [
         (0, "1e-9", "8760", "8760.5"),
-        (3, "400", "1000000000", "1000000001"),
+        (3, "400", "1000000", "1000001"),
         (4, "0", "1", "1.01"),
         (5, "1e-9", "8760", "8761"),
         (6, "0", "1", "1.5"),
@@ -306,7 +306,7 @@ fn every_configuration_number_at_its_limit_plans_and_past_it_is_refused() {
         (8, "0", "3660", "3661"),
         (9, "1e-9", "1000", "1000.1"),
         (10, "1e-9", "1000", "1001"),
-        (11, "0", "1000000", "1000001"),
+        (11, "0", "10000", "10001"),
         (12, "0", "3660", "3661"),
         (13, "1", "10", "10.5"),
         (14, "1e-9", "200", "201"),

@@ -54,8 +54,11 @@ pub const MAX_INTERVAL_DAYS: u64 = 3660;
 /// table points, `parcel.transit_hours`): one year, far past any live shipment.
 pub const MAX_HOURS: f64 = 8760.0;
 
-/// Most wasps in one release (`agent.*_release_wasps`).
-pub const MAX_RELEASE_WASPS: f64 = 1e9;
+/// Most wasps in one release (`agent.*_release_wasps`): a million. A release is hundreds to a
+/// few thousand wasps (common practice); a million at one site is a typing or unit mistake.
+/// Measured: 1e9 with a hundred million vials a day left the LP solver without progress
+/// (exit 1); 1e6 and 1e7 solve.
+pub const MAX_RELEASE_WASPS: f64 = 1e6;
 
 /// Most vials one dooryard request gets (`policy.dooryard_vials_per_request`).
 pub const MAX_VIALS_PER_REQUEST: u64 = 10_000;
@@ -64,12 +67,28 @@ pub const MAX_VIALS_PER_REQUEST: u64 = 10_000;
 /// fits a 32-bit count.
 pub const MAX_VIALS_PER_DAY: u64 = 100_000_000;
 
+/// Most vials one facility packs on one day (`supply.csv`, rows of the same facility and day
+/// added up) and most vials one vehicle carries (`fleet.csv` `capacity_vials`): the same
+/// hundred million as [`MAX_VIALS_PER_DAY`]. A vial holds a few hundred wasps, so that is tens
+/// of billions of wasps a day, far past any rearing program; the planner's whole-vial counts
+/// stay well inside 32 bits.
+pub const MAX_VIALS_PER_ROW: u32 = 100_000_000;
+
+/// Largest scouting count (`scouting.csv` `value` for `tap_adults` and `greening_positive`):
+/// a million adults in one tap sample or trees positive at one point is a typing or unit
+/// mistake (common practice: a tap sample counts from 0 to a few dozen adults). Pest pressure
+/// and priority then stay finite (measured: a count of 1e308 made the objective infinite).
+pub const MAX_SCOUT_COUNT: f64 = 1e6;
+
 /// Largest distance setting, km (`policy.pressure_radius_km`, `policy.pressure_bandwidth_km`).
 pub const MAX_KM: f64 = 1000.0;
 
-/// Largest `policy.travel_cost_per_hour`, in priority-weighted wasps: a million times the
-/// default (measured: 1e300 made the LP solver fail numerically).
-pub const MAX_TRAVEL_COST_PER_HOUR: f64 = 1e6;
+/// Largest `policy.travel_cost_per_hour`, in priority-weighted wasps: ten thousand times the
+/// default, when an hour's drive already costs more than a whole release at priority 1 is
+/// worth. Measured on tests/data/minimal with its forced block: 1e5 and 1e6 left the LP
+/// solver's optimum 3e-6 and 1e-4 below a whole-vial plan's objective (exit 1), 3e4 solves;
+/// 1e300 made it fail outright.
+pub const MAX_TRAVEL_COST_PER_HOUR: f64 = 1e4;
 
 /// Largest `travel.circuity` (road over straight-line distance).
 pub const MAX_CIRCUITY: f64 = 10.0;

@@ -11,6 +11,7 @@ use chrono::NaiveDate;
 use super::fields::{
     parse_date, parse_days, parse_enum, parse_f64, parse_lat, parse_lon, parse_time, parse_u32,
 };
+use super::limits;
 use super::text::{Sink, Table, parse_id, read_table};
 use crate::scenario::problems::Location;
 use crate::scenario::{
@@ -142,6 +143,19 @@ pub(super) fn facilities(
     (out, Some(index))
 }
 
+/// A whole number of vials, at most [`limits::MAX_VIALS_PER_ROW`] (supply a day, a vehicle's
+/// load).
+fn vials_up_to_limit(s: &str) -> Result<u32, String> {
+    let n = parse_u32(s)?;
+    if n > limits::MAX_VIALS_PER_ROW {
+        return Err(format!(
+            "more than the limit of {} vials; a larger value is a typing mistake",
+            limits::MAX_VIALS_PER_ROW
+        ));
+    }
+    Ok(n)
+}
+
 /// One supply row: facility index, date, vials.
 pub(super) struct SupplyRow {
     pub(super) facility: usize,
@@ -162,6 +176,7 @@ pub(super) fn supply(
     };
     let mut out = Vec::new();
     let mut seen: BTreeMap<(usize, NaiveDate), u64> = BTreeMap::new();
+    let mut total: BTreeMap<(usize, NaiveDate), u64> = BTreeMap::new();
     for (line, rec) in &t.rows {
         let line = *line;
         let facility = facility_ref(&t, line, rec, "facility_id", facilities, sink);
@@ -176,13 +191,28 @@ pub(super) fn supply(
                 _ => Ok(d),
             }
         });
-        let vials = t.parse(line, rec, "vials", sink, parse_u32);
+        let vials = t.parse(line, rec, "vials", sink, vials_up_to_limit);
         if let (Some(facility), Some(date), Some(vials)) = (facility, date, vials) {
             if let Some(first) = seen.insert((facility, date), line) {
                 sink.warning(
                     file,
                     Location::Line(line),
                     format!("same facility and date as line {first}; the vials are added up"),
+                );
+            }
+            let day = total.entry((facility, date)).or_insert(0u64);
+            *day += u64::from(vials);
+            if *day > u64::from(limits::MAX_VIALS_PER_ROW) {
+                t.problem(
+                    line,
+                    rec,
+                    "vials",
+                    sink,
+                    format!(
+                        "with the rows above for the same facility and date, {day} vials, more \
+                         than the limit of {} a day; check the counts",
+                        limits::MAX_VIALS_PER_ROW
+                    ),
                 );
             }
             out.push(SupplyRow {
@@ -341,6 +371,13 @@ pub(super) fn scouting(file: &str, text: &str, sink: &mut Sink) -> Vec<(u64, Sco
             if kind == Some(ScoutKind::FlushInfestedPct) && v > 100.0 {
                 return Err("flush_infested_pct is a percentage: 0 to 100".into());
             }
+            if v > limits::MAX_SCOUT_COUNT {
+                return Err(format!(
+                    "a count is at most {} (limit of the format); a larger value is a typing \
+                     or unit mistake",
+                    limits::MAX_SCOUT_COUNT
+                ));
+            }
             Ok(v)
         });
         if let (Some(id), true, Some(date), Some(location), Some(kind), Some(value)) =
@@ -389,7 +426,7 @@ pub(super) fn fleet(
             .is_some_and(|id| unique(&t, &mut seen, id, line, "vehicle_id", sink));
         let depot = facility_ref(&t, line, rec, "depot_id", facilities, sink);
         let days = t.parse(line, rec, "days", sink, parse_days);
-        let capacity = t.parse(line, rec, "capacity_vials", sink, parse_u32);
+        let capacity = t.parse(line, rec, "capacity_vials", sink, vials_up_to_limit);
         let shift_start = t.parse(line, rec, "shift_start", sink, parse_time);
         let shift_hours = t.parse(line, rec, "shift_hours", sink, |s| {
             let h = parse_f64(s)?;
