@@ -90,6 +90,7 @@ pub mod model;
 pub mod mps;
 
 mod bound;
+mod improve;
 mod lp;
 mod rounding;
 
