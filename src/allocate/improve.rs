@@ -248,6 +248,9 @@ pub(super) fn swap(st: &mut State, rows: &Rows, s: usize, t: usize, budget: u64)
     settle(st, before, &[s, t])
 }
 
+/// Work (moves evaluated) one pass of release moves may use, besides 64 per candidate site.
+const PASS_WORK: u64 = 400_000;
+
 /// Most releases a supply row may hold now to take part in the row assignment.
 const ASSIGN_MAX_RELEASES: usize = 2;
 
@@ -363,7 +366,7 @@ pub(super) fn assign_rows(st: &mut State, rows: &Rows, cand: &[usize], budget: u
                 }
             }
         }
-        st.work += (set.len() * all.len() * all.len().max(set.len())) as u64;
+        st.work += (set.len() * all.len()) as u64;
         let matched = max_weight_assignment(&weight);
         let mut touched: Vec<usize> = sites.clone();
         for (i, j) in matched.into_iter().enumerate() {
@@ -475,9 +478,12 @@ pub(super) fn max_weight_assignment(weight: &[Vec<f64>]) -> Vec<Option<usize>> {
 
 /// One pass of release moves over the served candidate sites: for each, a relocation, else
 /// a swap with a served site on one of its other supply rows that has an arc on its own.
-/// Returns whether the plan improved. Work: O(served × (arcs + partners) × refill).
+/// Returns whether the plan improved. Work: at most [`PASS_WORK`] + 64 per candidate site.
 pub(super) fn release_moves(st: &mut State, cand: &[usize], budget: u64) -> bool {
     let inst = st.inst;
+    // Each pass has its own share of the budget, so that weeks of large rows (where whole
+    // releases rarely need to move) do not spend the vial search's budget on it.
+    let budget = budget.min(st.work.saturating_add(PASS_WORK + 64 * cand.len() as u64));
     let rows = Rows::new(inst, cand);
     let mut improved = assign_rows(st, &rows, cand, budget);
     let served: Vec<usize> = cand
