@@ -14,7 +14,10 @@
 //!    site and refill greedily when that gains. Stops when a pass finds nothing or the work
 //!    budget is spent (a count of evaluated moves, so results do not depend on machine speed).
 //!
-//! 4. **Exact polish** on small candidate sets (≤ 60 arcs): the whole-vial MIP over the
+//!    When a pass finds nothing, the release moves of `improve.rs` (row assignment,
+//!    relocate, swap) run, and the local search resumes if they gained.
+//!
+//! 4. **Exact polish** on small candidate sets (≤ 40 arcs): the whole-vial MIP over the
 //!    candidate sites with microlp, kept only when it is better.
 //!
 //! Every step keeps every LP row satisfied (supply, vehicle and parcel capacity, dooryard
