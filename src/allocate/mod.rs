@@ -14,6 +14,7 @@ pub mod result;
 pub mod synthetic;
 
 mod bound;
+mod improve;
 mod instance;
 mod master;
 mod pricing;

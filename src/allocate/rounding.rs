@@ -14,7 +14,10 @@
 //!    site and refill greedily when that gains. Stops when a pass finds nothing or the work
 //!    budget is spent (a count of evaluated moves, so results do not depend on machine speed).
 //!
-//! 4. **Exact polish** on small candidate sets (≤ 60 arcs): the whole-vial MIP over the
+//!    When a pass finds nothing, the release moves of `improve.rs` (row assignment,
+//!    relocate, swap) run, and the local search resumes if they gained.
+//!
+//! 4. **Exact polish** on small candidate sets (≤ 40 arcs): the whole-vial MIP over the
 //!    candidate sites with microlp, kept only when it is better.
 //!
 //! Every step keeps every LP row satisfied (supply, vehicle and parcel capacity, dooryard
@@ -38,27 +41,27 @@ type VialMove = (f64, usize, Option<(usize, usize)>);
 /// Integer plan under construction, with running totals so a move is checked in O(arcs it
 /// touches).
 pub(crate) struct State<'i, 'a> {
-    inst: &'i Instance<'a>,
+    pub(super) inst: &'i Instance<'a>,
     /// Vials per usable arc.
     pub x: Vec<u32>,
-    used: Vec<f64>,
-    site_e: Vec<f64>,
-    site_v: Vec<u32>,
+    pub(super) used: Vec<f64>,
+    pub(super) site_e: Vec<f64>,
+    pub(super) site_v: Vec<u32>,
     /// Releases at each site: its arcs with vials.
-    site_n: Vec<u32>,
-    door: f64,
-    total: f64,
+    pub(super) site_n: Vec<u32>,
+    pub(super) door: f64,
+    pub(super) total: f64,
     /// Moves evaluated so far (the work budget's unit).
-    work: u64,
+    pub(super) work: u64,
     /// Objective of the current plan (benefit − travel − force penalties), kept by `apply`.
-    obj: f64,
+    pub(super) obj: f64,
     /// Moves committed since the last `checkpoint`, for `rollback`; None outside one.
-    journal: Option<Vec<(usize, i64)>>,
+    pub(super) journal: Option<Vec<(usize, i64)>>,
     /// Per site position: its growth moves at its current state, best gain per vial first,
     /// ignoring supply, capacity and the share floor (checked when a move is taken). A site's
     /// moves depend only on its own vials, so only `apply` at that site makes them stale
     /// (None).
-    growth: Vec<Option<Vec<Growth>>>,
+    pub(super) growth: Vec<Option<Vec<Growth>>>,
 }
 
 impl<'i, 'a> State<'i, 'a> {
@@ -83,19 +86,19 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// See [`Instance::site_value`].
-    fn site_value(&self, sp: usize, e: f64, v: u32) -> f64 {
+    pub(super) fn site_value(&self, sp: usize, e: f64, v: u32) -> f64 {
         self.inst.site_value(sp, e, v)
     }
 
     /// See [`Instance::release_ok`].
-    fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
+    pub(super) fn release_ok(&self, sp: usize, e: f64, v: u32) -> bool {
         self.inst.release_ok(sp, e, v)
     }
 
     /// Whether site position `sp` holds a valid week: at most `releases_per_site` releases,
     /// each within the release rules when there may be several (with one release the site's
     /// total is that release).
-    fn site_ok(&self, sp: usize) -> bool {
+    pub(super) fn site_ok(&self, sp: usize) -> bool {
         let inst = self.inst;
         if self.site_n[sp] > inst.releases_per_site {
             return false;
@@ -113,15 +116,15 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// Whether one more vial on arc `a` of a served site keeps its count of releases allowed.
-    fn release_room(&self, a: usize) -> bool {
+    pub(super) fn release_room(&self, a: usize) -> bool {
         self.x[a] > 0 || self.site_n[self.inst.arc_site[a]] < self.inst.releases_per_site
     }
 
-    fn share_ok(&self) -> bool {
+    pub(super) fn share_ok(&self) -> bool {
         self.share_ok_at(self.door, self.total)
     }
 
-    fn share_ok_at(&self, door: f64, total: f64) -> bool {
+    pub(super) fn share_ok_at(&self, door: f64, total: f64) -> bool {
         match self.inst.share {
             Some(s) => door >= s * total - 1e-7,
             None => true,
@@ -130,7 +133,7 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// Changes the vials on arc `a` by `d` without bookkeeping (objective, journal, growth
     /// moves): callers restore or account for it.
-    fn apply_raw(&mut self, a: usize, d: i64) {
+    pub(super) fn apply_raw(&mut self, a: usize, d: i64) {
         let inst = self.inst;
         let sp = inst.arc_site[a];
         let df = d as f64;
@@ -157,7 +160,7 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// Changes the vials on arc `a` by `d`, keeping the objective, the journal and the site's
     /// growth moves up to date.
-    fn apply(&mut self, a: usize, d: i64) {
+    pub(super) fn apply(&mut self, a: usize, d: i64) {
         let sp = self.inst.arc_site[a];
         let before = self.site_value(sp, self.site_e[sp], self.site_v[sp]);
         self.apply_raw(a, d);
@@ -170,13 +173,17 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// Objective gain of applying `moves` (arc, change in vials) if the result is feasible.
-    fn try_moves(&mut self, moves: &[(usize, i64)]) -> Option<f64> {
+    pub(super) fn try_moves(&mut self, moves: &[(usize, i64)]) -> Option<f64> {
         self.try_moves_with(moves, true)
     }
 
     /// As `try_moves`; `check_resources` false skips supply/capacity checks (used while
     /// repairing an over-full resource by removals). Leaves the state bit for bit as it was.
-    fn try_moves_with(&mut self, moves: &[(usize, i64)], check_resources: bool) -> Option<f64> {
+    pub(super) fn try_moves_with(
+        &mut self,
+        moves: &[(usize, i64)],
+        check_resources: bool,
+    ) -> Option<f64> {
         self.work += moves.len() as u64;
         let inst = self.inst;
         for &(a, d) in moves {
@@ -233,19 +240,19 @@ impl<'i, 'a> State<'i, 'a> {
         ok.then_some(after - before - cost)
     }
 
-    fn commit(&mut self, moves: &[(usize, i64)]) {
+    pub(super) fn commit(&mut self, moves: &[(usize, i64)]) {
         for &(a, d) in moves {
             self.apply(a, d);
         }
     }
 
     /// Starts recording commits, so that `rollback` can undo them.
-    fn checkpoint(&mut self) {
+    pub(super) fn checkpoint(&mut self) {
         self.journal = Some(Vec::new());
     }
 
     /// Undoes every commit since `checkpoint`, and stops recording.
-    fn rollback(&mut self) {
+    pub(super) fn rollback(&mut self) {
         let journal = self.journal.take().unwrap_or_default();
         for &(a, d) in journal.iter().rev() {
             self.apply(a, -d);
@@ -253,12 +260,12 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// Keeps every commit since `checkpoint`, and stops recording.
-    fn keep(&mut self) {
+    pub(super) fn keep(&mut self) {
         self.journal = None;
     }
 
     /// Returns to a saved plan (vials per arc). O(arcs).
-    fn restore(&mut self, saved: &[u32]) {
+    pub(super) fn restore(&mut self, saved: &[u32]) {
         for (a, &v) in saved.iter().enumerate() {
             let d = i64::from(v) - i64::from(self.x[a]);
             if d != 0 {
@@ -267,7 +274,7 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
-    fn free(&self, a: usize) -> u32 {
+    pub(super) fn free(&self, a: usize) -> u32 {
         let inst = self.inst;
         inst.arc_res[a]
             .iter()
@@ -296,7 +303,7 @@ impl<'i, 'a> State<'i, 'a> {
     /// vial on any arc of a served block, or opening an unserved block with the fewest vials
     /// that reach the minimum release, or serving a request with the standard count. Moves
     /// that gain nothing are left out. O(arcs of the site) when stale, O(1) otherwise.
-    fn refresh_growth(&mut self, sp: usize) {
+    pub(super) fn refresh_growth(&mut self, sp: usize) {
         if self.growth[sp].is_none() {
             let inst = self.inst;
             let site = &inst.sites[sp];
@@ -339,7 +346,7 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// The best growth move at site position `sp` that supply, capacity and the share floor
     /// allow now.
-    fn best_move_at(&mut self, sp: usize) -> Option<Growth> {
+    pub(super) fn best_move_at(&mut self, sp: usize) -> Option<Growth> {
         self.refresh_growth(sp);
         self.work += 1;
         let door_site = self.inst.sites[sp].kind == SiteKind::Dooryard;
@@ -358,7 +365,7 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// Greedy fill over site positions `cand` (but `skip`): take the best allowed growth
     /// move per vial until none gains or the budget is spent. O(iterations × |cand|).
-    fn greedy(&mut self, cand: &[usize], skip: Option<usize>, budget: u64) {
+    pub(super) fn greedy(&mut self, cand: &[usize], skip: Option<usize>, budget: u64) {
         while self.work < budget {
             let mut best: Option<Growth> = None;
             for &sp in cand {
@@ -380,7 +387,7 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// Objective change of one vial more on arc `b`, whose site is served and must stay a
     /// valid release; None otherwise. Supply, capacity and share are not checked.
-    fn add_one_gain(&self, b: usize) -> Option<f64> {
+    pub(super) fn add_one_gain(&self, b: usize) -> Option<f64> {
         let inst = self.inst;
         let sb = inst.arc_site[b];
         let (e, v) = (self.site_e[sb], self.site_v[sb]);
@@ -395,7 +402,7 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// Objective change of one vial less on arc `a`, and whether its site stays valid.
-    fn remove_one_gain(&self, a: usize) -> (f64, bool) {
+    pub(super) fn remove_one_gain(&self, a: usize) -> (f64, bool) {
         let inst = self.inst;
         let sa = inst.arc_site[a];
         let (e, v) = (self.site_e[sa], self.site_v[sa]);
@@ -835,6 +842,10 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
             } else {
                 st.rollback();
             }
+        }
+        // Whole releases between pack days, when the vial moves are done.
+        if !improved && st.work < budget {
+            improved = super::improve::release_moves(&mut st, &cand_list, budget);
         }
     }
     // 4. Small candidate sets: the exact whole-vial MIP over them with microlp, kept only when
