@@ -145,7 +145,7 @@ impl Left {
     /// Takes `vials` from the arc's limits (`take`), or gives them back.
     fn change(&mut self, a: &Arc, vials: u32, take: bool) {
         let v = u64::from(vials);
-        let apply = |x: &mut u64| *x = if take { *x - v } else { *x + v };
+        let apply = |x: &mut u64| *x = if take { x.saturating_sub(v) } else { *x + v };
         if let Some(x) = self.supply.get_mut(&(a.facility, a.pack_date)) {
             apply(x);
         }
@@ -487,7 +487,10 @@ mod tests {
         .map(|&(a, b, c, d)| (a.to_string(), b.to_string(), c, d))
         .collect();
         assert_eq!(releases(&s, &b), want);
-        assert_eq!((b.supply_vials, b.shipped_vials, b.unshipped_vials()), (15, 15, 0));
+        assert_eq!(
+            (b.supply_vials, b.shipped_vials, b.unshipped_vials()),
+            (15, 15, 0)
+        );
         assert_eq!((b.blocks_served, b.requests_served), (3, 2));
         let alive = 3.0 * 108.0 + 8.0 * 90.0 + 2.0 * 108.0 + 2.0 * 90.0;
         assert!((b.wasps_expected_alive - alive).abs() < 1e-9);

@@ -64,6 +64,8 @@ pub struct PlanView<'a> {
     pub dispatch: &'a Dispatch,
     /// Lines saying what the route feedback moved and why (plain text).
     pub moved: &'a [String],
+    /// The same week planned by hand, shown beside the plan when given.
+    pub baseline: Option<&'a crate::baseline::Baseline>,
 }
 
 impl<'a> PlanView<'a> {
@@ -76,6 +78,7 @@ impl<'a> PlanView<'a> {
             allocation: &plan.allocation,
             dispatch: &plan.dispatch,
             moved: &plan.moved,
+            baseline: Some(&plan.baseline),
         }
     }
 
@@ -275,6 +278,24 @@ impl Delivered {
     /// Expected live wasps delivered, all rows.
     pub fn wasps_expected_alive(&self) -> f64 {
         self.rows.iter().map(|r| r.wasps_expected_alive).sum()
+    }
+
+    /// Expected live wasps delivered to the top priority quarter of the eligible sites
+    /// ([`crate::baseline::top_quarter`], the report's top band).
+    pub fn top_quarter_wasps(&self, view: &PlanView) -> f64 {
+        let eligible: Vec<bool> = (0..self.per_site.len())
+            .map(|s| view.allocation.sites.get(s).is_some_and(|o| o.eligible))
+            .collect();
+        let priority: Vec<f64> = (0..self.per_site.len())
+            .map(|s| priority_of(view, s))
+            .collect();
+        let top = crate::baseline::top_quarter(&eligible, &priority);
+        self.per_site
+            .iter()
+            .zip(&top)
+            .filter(|(_, t)| **t)
+            .map(|(d, _)| d.wasps_expected_alive)
+            .sum()
     }
 
     /// Whether a site received at least one vial.
