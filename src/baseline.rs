@@ -37,7 +37,7 @@ use crate::pressure;
 use crate::scenario::{FacilityIdx, OverrideAction, Scenario, SiteDetail, SiteIdx, SiteKind};
 
 /// The week as planned by hand, and what it is worth.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, Default, PartialEq)]
 pub struct Baseline {
     /// Whole-vial shipments, one per served site, in [`Shipment::order_key`] order.
     pub shipments: Vec<Shipment>,
