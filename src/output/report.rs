@@ -237,9 +237,8 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     let _ = writeln!(
         h,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Plan report — {name}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n\
-<h1>Plan report: {name}</h1>\n<p class=\"muted\">Week starting {w} · agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
-        name = esc(&sc.name),
-        w = sc.week_start.format("%a %Y-%m-%d"),
+<h1>Plan report: {name}</h1>\n<p class=\"muted\">Agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
+        name = esc(&super::week_title(&sc.name, sc.week_start)),
         agent = esc(&sc.agent.name),
         n_sites = int(sc.sites.len() as u64),
         n_fac = count(sc.facilities.len(), "facility", "facilities"),

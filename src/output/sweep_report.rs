@@ -366,7 +366,10 @@ footer{margin-top:2rem;font-size:.8rem;color:#444}\
 
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let mut h = String::new();
-    let title = format!("Supply sweep — {}", sweep.scenario);
+    let title = format!(
+        "Supply sweep — {}",
+        super::week_title(&sweep.scenario, sweep.week_start)
+    );
     let _ = writeln!(
         h,
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{PAGE_CSS}{STYLE}</style></head><body>",
@@ -374,10 +377,14 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     );
     let _ = writeln!(
         h,
-        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>",
-        esc(&sweep.scenario),
-        sweep.week_start,
-        sweep.variants.len()
+        "<h1>Supply sweep</h1><p class=\"meta\">{} · {} {}</p>",
+        esc(&super::week_title(&sweep.scenario, sweep.week_start)),
+        sweep.variants.len(),
+        if sweep.variants.len() == 1 {
+            "variant"
+        } else {
+            "variants"
+        }
     );
     let list = |v: &[String]| {
         if v.is_empty() {

@@ -156,7 +156,7 @@ fn check(files: &[(String, Vec<u8>)]) -> Totals {
     t.vials_per_request = policy["dooryard_vials_per_request"]
         .as_u64()
         .expect("vials per request");
-    let exclusion = policy["pesticide_exclusion_days"]
+    let exclusion = policy["insecticide_exclusion_days"]
         .as_i64()
         .expect("exclusion days");
     assert!(policy["require_flush"].is_boolean());
