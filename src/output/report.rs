@@ -629,10 +629,7 @@ fn against_hand(h: &mut String, view: &PlanView, plan: &Delivered) {
             "<tr><td>{what}</td><td class=\"num\">{ours}</td><td class=\"num\">{hand}</td></tr>"
         );
     }
-    let _ = write!(
-        h,
-        "</tbody></table><p class=\"small\">{more}</p></section>\n"
-    );
+    let _ = writeln!(h, "</tbody></table><p class=\"small\">{more}</p></section>");
 }
 
 /// Counts by reason, in plain words, largest first. O(reasons).
