@@ -68,6 +68,7 @@ fn main() {
         allocation: &al,
         dispatch: &d,
         moved: &[],
+        baseline: None,
     };
     let files = output::render_all(&view).expect("renders");
     let out_t = t.elapsed();

@@ -788,7 +788,7 @@ impl Gen<'_> {
             policy: PolicyDoc {
                 dooryard_share_min: 0.2,
                 dooryard_vials_per_request: 2,
-                pesticide_exclusion_days: 21,
+                insecticide_exclusion_days: 21,
                 require_flush: true,
                 pressure_radius_km: 3.0,
                 pressure_bandwidth_km: 1.5,
@@ -889,7 +889,7 @@ struct SurvivalDoc {
 struct PolicyDoc {
     dooryard_share_min: f64,
     dooryard_vials_per_request: u32,
-    pesticide_exclusion_days: u32,
+    insecticide_exclusion_days: u32,
     require_flush: bool,
     pressure_radius_km: f64,
     pressure_bandwidth_km: f64,

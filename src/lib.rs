@@ -9,6 +9,7 @@
 
 pub mod allocate;
 pub mod arcs;
+pub mod baseline;
 pub mod check;
 pub mod cli;
 pub mod compare;

@@ -1,10 +1,11 @@
 //! The week's pipeline: scenario → priority → arcs → allocation → dispatch, with one round of
-//! route feedback. Takes typed values, returns typed values; reads and prints nothing.
+//! route feedback, and the same week planned by hand beside it ([`crate::baseline`]). Takes typed values, returns typed values; reads and prints nothing.
 
 use std::collections::BTreeSet;
 
 use crate::allocate::{self, AllocError, AllocOptions, Allocation};
 use crate::arcs::{self, Arcs};
+use crate::baseline::{self, Baseline};
 use crate::dispatch::{self, Dispatch};
 use crate::eligibility::Reason;
 use crate::pressure::{self, PressureParams};
@@ -26,6 +27,8 @@ pub struct Plan {
     pub dispatch: Dispatch,
     /// What the route feedback moved and why, one line each.
     pub moved: Vec<String>,
+    /// The same week planned by hand ([`baseline::hand_plan`]), valued by the same objective.
+    pub baseline: Baseline,
 }
 
 /// Options of the pipeline.
@@ -79,6 +82,7 @@ pub fn plan_with(
     opts: &PlanOptions,
 ) -> Result<Plan, AllocError> {
     let arcs = arcs::build_arcs(&scenario, travel);
+    let baseline = baseline::hand_plan(&scenario, &priority, &arcs, &opts.alloc)?;
     let mut alloc_opts = opts.alloc.clone();
     let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     // The feedback rounds re-route only the depot-days whose stops changed.
@@ -100,6 +104,7 @@ pub fn plan_with(
             allocation: first,
             dispatch: first_dispatch,
             moved,
+            baseline,
         });
     }
     // Stops no route can serve go back to the allocation once, with those arcs removed.
@@ -159,6 +164,7 @@ pub fn plan_with(
         allocation,
         dispatch,
         moved,
+        baseline,
     })
 }
 

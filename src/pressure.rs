@@ -243,12 +243,35 @@ pub fn pressure_brute_force(scenario: &Scenario, params: &PressureParams) -> Vec
 
 /// Per-site pressure through the R*-tree (see the module doc for why the ball query is exact).
 fn indexed_pressure(scenario: &Scenario, params: &PressureParams) -> Vec<f64> {
-    let radius_m = scenario.policy.pressure_radius_km * 1000.0;
     let terms: Vec<f64> = scenario
         .scouting
         .iter()
         .map(|p| point_weight(scenario, params, p))
         .collect();
+    sum_in_range(scenario, &terms, |d| kernel(scenario, d))
+}
+
+/// The scouting count of every site, indexed by [`SiteIdx`](crate::scenario::SiteIdx): the
+/// adult psyllids of every `tap_adults` observation within `policy.pressure_radius_km`
+/// (geodesic) of the site, summed as written — no kernel, no age decay, no other kind. The
+/// figure an office ranks blocks by when it plans by hand ([`crate::baseline`]). Same R*-tree
+/// query as [`site_priority`]: O(P log P + S (log P + k)).
+pub fn tap_adults_in_range(scenario: &Scenario) -> Vec<f64> {
+    let terms: Vec<f64> = scenario
+        .scouting
+        .iter()
+        .map(|p| match p.kind {
+            ScoutKind::TapAdults => clamp(p.value),
+            _ => 0.0,
+        })
+        .collect();
+    sum_in_range(scenario, &terms, |_| 1.0)
+}
+
+/// Σ terms[i] · weight(d_i) over the scouting points i within `policy.pressure_radius_km` of
+/// each site (d_i geodesic metres), in input order, through the R*-tree.
+fn sum_in_range(scenario: &Scenario, terms: &[f64], weight: impl Fn(f64) -> f64) -> Vec<f64> {
+    let radius_m = scenario.policy.pressure_radius_km * 1000.0;
     let tree = RTree::bulk_load(
         scenario
             .scouting
@@ -274,7 +297,7 @@ fn indexed_pressure(scenario: &Scenario, params: &PressureParams) -> Vec<f64> {
             for &i in &hits {
                 let d = geodesy::distance_m(site.location, scenario.scouting[i].location);
                 if d <= radius_m {
-                    sum += terms[i] * kernel(scenario, d);
+                    sum += terms[i] * weight(d);
                 }
             }
             sum

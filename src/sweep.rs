@@ -537,6 +537,11 @@ pub struct VariantResult {
     pub marginal_by_facility: Vec<(String, f64)>,
     /// The allocation's binding constraints, largest dual first.
     pub binding: Vec<Binding>,
+    /// Expected live wasps delivered to the top priority quarter of eligible sites
+    /// ([`crate::baseline::top_quarter`]), wasps.
+    pub top_quarter_wasps: f64,
+    /// The same variant planned by hand ([`crate::baseline`]).
+    pub hand: crate::baseline::Baseline,
 }
 
 /// Where the marginal value of supply falls below a share of its 1× value.
@@ -655,9 +660,11 @@ pub fn sweep(
 
 /// Delivered totals of a plan, counted as `summary.json` counts them (route stops and
 /// parcels; undeliverable shipments left out): (vials, blocks served, requests served, live
-/// wasps). `tests/it/sweep.rs` checks they equal the variant's `summary.json`. O(stops + parcels).
-fn delivered(p: &Plan) -> (u64, usize, usize, f64) {
+/// wasps, live wasps in the top priority quarter). `tests/it/sweep.rs` checks they equal the
+/// variant's `summary.json`. O(stops + parcels + S log S).
+fn delivered(p: &Plan) -> (u64, usize, usize, f64, f64) {
     let mut vials_at = vec![0u64; p.scenario.sites.len()];
+    let mut wasps_at = vec![0.0; p.scenario.sites.len()];
     let (mut vials, mut wasps) = (0u64, 0.0);
     let stops = p.dispatch.routes.iter().flat_map(|r| &r.stops);
     let deliveries = stops
@@ -671,6 +678,7 @@ fn delivered(p: &Plan) -> (u64, usize, usize, f64) {
     for (site, v, w) in deliveries {
         if let Some(at) = vials_at.get_mut(site) {
             *at += u64::from(v);
+            wasps_at[site] += w;
         }
         vials += u64::from(v);
         wasps += w;
@@ -683,16 +691,26 @@ fn delivered(p: &Plan) -> (u64, usize, usize, f64) {
             .filter(|(s, v)| s.kind() == kind && **v > 0)
             .count()
     };
+    let eligible: Vec<bool> = p.allocation.sites.iter().map(|o| o.eligible).collect();
+    let top = crate::baseline::top_quarter(&eligible, &p.priority);
+    let top_wasps = wasps_at
+        .iter()
+        .zip(&top)
+        .filter(|(_, t)| **t)
+        .map(|(w, _)| w)
+        .sum();
     (
         vials,
         served(crate::scenario::SiteKind::Block),
         served(crate::scenario::SiteKind::Dooryard),
         wasps,
+        top_wasps,
     )
 }
 
 fn variant_result(name: String, m: Multiplier, p: &Plan) -> VariantResult {
-    let (shipped_vials, blocks_served, requests_served, wasps_expected_alive) = delivered(p);
+    let (shipped_vials, blocks_served, requests_served, wasps_expected_alive, top_quarter_wasps) =
+        delivered(p);
     let sc = &p.scenario;
     let al = &p.allocation;
     let mut per_facility: BTreeMap<FacilityIdx, u64> = BTreeMap::new();
@@ -730,6 +748,8 @@ fn variant_result(name: String, m: Multiplier, p: &Plan) -> VariantResult {
             .map(|(f, v)| (f.id.to_string(), *v))
             .collect(),
         binding: al.binding.clone(),
+        top_quarter_wasps,
+        hand: p.baseline.clone(),
     }
 }
 
@@ -930,6 +950,8 @@ mod tests {
             marginal_value_per_vial: mv,
             marginal_by_facility: Vec::new(),
             binding: Vec::new(),
+            top_quarter_wasps: 0.0,
+            hand: crate::baseline::Baseline::default(),
         }
     }
 

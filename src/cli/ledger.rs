@@ -147,9 +147,9 @@ pub(crate) fn run(args: Args) -> CliResult {
             let files = ledger::render_report(&data);
             let written = target.write(&files)?;
             print_out(&format!(
-                "{} weeks, {} shipments; {}",
-                data.weeks.len(),
-                data.shipments.len(),
+                "{}, {}; {}",
+                super::plan::plural(data.weeks.len(), "week", "weeks"),
+                super::plan::plural(data.shipments.len(), "shipment", "shipments"),
                 super::wrote_line(files.len(), &out, &written)
             ))
         }

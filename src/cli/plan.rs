@@ -160,14 +160,13 @@ pub(crate) fn run(args: Args) -> CliResult {
     let a = &p.allocation;
     let shipped: u32 = a.shipments.iter().map(|s| s.vials).sum();
     let mut text = format!(
-        "planned '{}' (week of {}): {} of {} vials shipped, {} routes, {} parcels\n\
+        "planned '{}': {} of {} vials shipped, {}, {}\n\
          objective {:.1}, whole-vial bound {:.1} (LP bound {:.1}), gap {:.2} %\n",
-        p.scenario.name,
-        p.scenario.week_start,
+        output::week_title(&p.scenario.name, p.scenario.week_start),
         shipped,
         p.scenario.total_supply_vials(),
-        p.dispatch.routes.len(),
-        p.dispatch.parcels.len(),
+        plural(p.dispatch.routes.len(), "route", "routes"),
+        plural(p.dispatch.parcels.len(), "parcel", "parcels"),
         a.objective,
         a.bound,
         a.lp_bound,
@@ -199,4 +198,9 @@ pub(crate) fn run(args: Args) -> CliResult {
     }
     text.push_str(&super::wrote_line(files.len(), &args.out, &written));
     print_out(&text)
+}
+
+/// `n` and the noun, singular for 1: "1 route", "3 routes".
+pub(crate) fn plural(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
 }

@@ -148,10 +148,14 @@ pub(crate) fn run(args: Args) -> CliResult {
     let written = target.write(&files)?;
 
     let mut text = format!(
-        "swept '{}' (week of {}): {} variant(s)",
-        s.scenario,
-        s.week_start,
-        s.variants.len()
+        "swept '{}': {} {}",
+        crate::output::week_title(&s.scenario, s.week_start),
+        s.variants.len(),
+        if s.variants.len() == 1 {
+            "variant"
+        } else {
+            "variants"
+        }
     );
     if !s.without.is_empty() {
         text.push_str(&format!(", without {}", s.without.join(", ")));

@@ -87,6 +87,8 @@ pub enum CommitOutcome {
 }
 
 const MANIFEST: &str = "manifest.csv";
+/// The `manifest.csv` columns a commit reads, in the order it reads them: every column of
+/// [`crate::output::MANIFEST_COLUMNS`] but `lat` and `lon` (a test keeps the two in step).
 const REQUIRED: [&str; 13] = [
     "shipment_id",
     "facility_id",
@@ -671,6 +673,16 @@ fn load_candidates(
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
+
+    #[test]
+    fn required_manifest_columns_are_the_writers_but_the_position() {
+        let written: Vec<&str> = crate::output::MANIFEST_COLUMNS
+            .into_iter()
+            .filter(|c| !matches!(*c, "lat" | "lon"))
+            .collect();
+        assert_eq!(REQUIRED.as_slice(), written.as_slice());
+        assert_eq!(HEADER, crate::output::MANIFEST_COLUMNS.join(","));
+    }
 
     pub(crate) const HEADER: &str = "shipment_id,facility_id,dispatch_date,mode,route_id,stop_seq,site_id,site_kind,lat,lon,vials,wasps_packed,wasps_expected_alive,eta,release_by";
 

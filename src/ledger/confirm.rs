@@ -128,7 +128,7 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
     let Some(col) = columns(
         &file,
         &headers,
-        ["shipment_id", "status", "released_at", "note"],
+        crate::output::CONFIRMATION_COLUMNS,
         &mut problems,
     ) else {
         return Err(LedgerError::input(problems));

@@ -23,6 +23,8 @@ pub struct TinyPlan {
     pub dispatch: Dispatch,
     /// Route-feedback lines.
     pub moved: Vec<String>,
+    /// The hand plan shown beside it (none in the fixture unless a test sets one).
+    pub baseline: Option<crate::baseline::Baseline>,
 }
 
 impl TinyPlan {
@@ -34,6 +36,7 @@ impl TinyPlan {
             allocation: &self.allocation,
             dispatch: &self.dispatch,
             moved: &self.moved,
+            baseline: self.baseline.as_ref(),
         }
     }
 }
@@ -247,5 +250,6 @@ pub fn tiny_plan() -> TinyPlan {
         allocation,
         dispatch,
         moved: vec!["B3: no room on F1's Wednesday run; no other arc reaches it in time".into()],
+        baseline: None,
     }
 }

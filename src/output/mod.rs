@@ -64,6 +64,8 @@ pub struct PlanView<'a> {
     pub dispatch: &'a Dispatch,
     /// Lines saying what the route feedback moved and why (plain text).
     pub moved: &'a [String],
+    /// The same week planned by hand, shown beside the plan when given.
+    pub baseline: Option<&'a crate::baseline::Baseline>,
 }
 
 impl<'a> PlanView<'a> {
@@ -76,6 +78,7 @@ impl<'a> PlanView<'a> {
             allocation: &plan.allocation,
             dispatch: &plan.dispatch,
             moved: &plan.moved,
+            baseline: Some(&plan.baseline),
         }
     }
 
@@ -281,6 +284,24 @@ impl Delivered {
         self.rows.iter().map(|r| r.wasps_expected_alive).sum()
     }
 
+    /// Expected live wasps delivered to the top priority quarter of the eligible sites
+    /// ([`crate::baseline::top_quarter`], the report's top band).
+    pub fn top_quarter_wasps(&self, view: &PlanView) -> f64 {
+        let eligible: Vec<bool> = (0..self.per_site.len())
+            .map(|s| view.allocation.sites.get(s).is_some_and(|o| o.eligible))
+            .collect();
+        let priority: Vec<f64> = (0..self.per_site.len())
+            .map(|s| priority_of(view, s))
+            .collect();
+        let top = crate::baseline::top_quarter(&eligible, &priority);
+        self.per_site
+            .iter()
+            .zip(&top)
+            .filter(|(_, t)| **t)
+            .map(|(d, _)| d.wasps_expected_alive)
+            .sum()
+    }
+
     /// Whether a site received at least one vial.
     pub fn served(&self, site: SiteIdx) -> bool {
         self.per_site.get(site).is_some_and(|d| d.vials > 0)
@@ -338,14 +359,32 @@ pub(crate) fn route_depot_vehicle<'s>(
     Ok((depot, vehicle))
 }
 
+/// A scenario's name with its week, for titles: "name — week of Monday", or the name alone
+/// when it already holds the Monday's date (the demo's "Pellwether County — week of
+/// 2027-03-01"), so that no title says the week twice.
+///
+/// ```
+/// use broodcast::output::week_title;
+/// let monday = chrono::NaiveDate::from_ymd_opt(2027, 3, 1).unwrap();
+/// assert_eq!(week_title("North", monday), "North — week of 2027-03-01");
+/// assert_eq!(week_title("North — week of 2027-03-01", monday), "North — week of 2027-03-01");
+/// ```
+pub fn week_title(name: &str, week_start: NaiveDate) -> String {
+    let date = week_start.to_string();
+    if name.contains(&date) {
+        name.to_string()
+    } else {
+        format!("{name} — week of {date}")
+    }
+}
+
 /// The opening of a printable week document, up to and including `<body>`: its title is
-/// "`kind` — scenario — week of Monday", with " — addresses withheld" when `redact`, and its
-/// style the shared page rules plus `css`.
+/// "`kind` — [`week_title`]", with " — addresses withheld" when `redact`, and its style the
+/// shared page rules plus `css`.
 pub(crate) fn week_page_head(sc: &Scenario, kind: &str, redact: bool, css: &str) -> String {
     format!(
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{kind} — {} — week of {}{}</title>\n<style>{}{css}</style>\n</head>\n<body>\n",
-        esc(&sc.name),
-        sc.week_start,
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{kind} — {}{}</title>\n<style>{}{css}</style>\n</head>\n<body>\n",
+        esc(&week_title(&sc.name, sc.week_start)),
         if redact {
             " — addresses withheld"
         } else {

@@ -18,7 +18,9 @@ use chrono::NaiveDate;
 
 use super::binding::{self, Kind};
 use super::svg::{Frame, f1};
-use super::{CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, esc, fixed, priority_of};
+use super::{
+    CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, esc, fixed, priority_of, round_to,
+};
 use crate::geodesy::distance_m;
 use crate::scenario::SiteKind;
 
@@ -235,9 +237,8 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     let _ = writeln!(
         h,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Plan report — {name}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n\
-<h1>Plan report: {name}</h1>\n<p class=\"muted\">Week starting {w} · agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
-        name = esc(&sc.name),
-        w = sc.week_start.format("%a %Y-%m-%d"),
+<h1>Plan report: {name}</h1>\n<p class=\"muted\">Agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
+        name = esc(&super::week_title(&sc.name, sc.week_start)),
         agent = esc(&sc.agent.name),
         n_sites = int(sc.sites.len() as u64),
         n_fac = count(sc.facilities.len(), "facility", "facilities"),
@@ -334,6 +335,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     h.push_str("</section>\n");
 
     priority_bands(&mut h, view, plan);
+    against_hand(&mut h, view, plan);
     why_not(&mut h, view, &week);
     worth_a_look(&mut h, view, &week);
     marginal_values(&mut h, view, plan);
@@ -584,6 +586,50 @@ fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
         h.push_str("<tr><td colspan=\"7\" class=\"muted\">No site could get a release this week.</td></tr>");
     }
     h.push_str("</tbody></table></section>\n");
+}
+
+/// This plan beside the same week planned by hand (`crate::baseline`): value by the same
+/// objective, live wasps in the top priority quarter, vials left at the facilities. Nothing
+/// when the view has no hand plan. O(S log S).
+fn against_hand(h: &mut String, view: &PlanView, plan: &Delivered) {
+    let Some(b) = view.baseline else { return };
+    let al = view.allocation;
+    let supply = view.scenario.total_supply_vials();
+    let ours_left = supply.saturating_sub(plan.shipped_vials());
+    let more = if b.objective > 0.0 {
+        format!(
+            "This plan is worth {} % more than the hand plan by the same measure.",
+            fixed(100.0 * (al.objective / b.objective - 1.0), 0)
+        )
+    } else {
+        String::new()
+    };
+    h.push_str("<section><h2>Against planning by hand</h2>\
+<p class=\"small muted\">The same week, supply, shelf life and vehicles planned the way an office does by hand: requests first come, first served up to the dooryard share, blocks by scouting count, each from the nearest facility on the earliest day (docs/baseline.md).</p>\
+<table><thead><tr><th></th><th class=\"num\">This plan</th><th class=\"num\">By hand</th></tr></thead><tbody>");
+    for (what, ours, hand) in [
+        (
+            "Value (priority-weighted live wasps)",
+            signed(al.objective),
+            signed(b.objective),
+        ),
+        (
+            "Live wasps released in the top priority quarter",
+            int(plan.top_quarter_wasps(view).round().max(0.0) as u64),
+            int(b.top_quarter_wasps.round().max(0.0) as u64),
+        ),
+        (
+            "Vials left unshipped (they die at the facilities)",
+            int(ours_left),
+            int(b.unshipped_vials()),
+        ),
+    ] {
+        let _ = write!(
+            h,
+            "<tr><td>{what}</td><td class=\"num\">{ours}</td><td class=\"num\">{hand}</td></tr>"
+        );
+    }
+    let _ = writeln!(h, "</tbody></table><p class=\"small\">{more}</p></section>");
 }
 
 /// Counts by reason, in plain words, largest first. O(reasons).
@@ -897,6 +943,14 @@ fn value(x: f64) -> String {
     } else {
         int(x.round().max(0.0) as u64)
     }
+}
+
+/// A value rounded to a whole number with thousands separators, with a minus sign when
+/// negative: `-1,250`.
+fn signed(x: f64) -> String {
+    let r = round_to(x, 0);
+    let n = int(r.abs().min(u64::MAX as f64) as u64);
+    if r < 0.0 { format!("−{n}") } else { n }
 }
 
 /// Whole number with thousands separators: `35,000`.

@@ -13,6 +13,18 @@ struct BindingOut<'a> {
     dual: f64,
 }
 
+/// The week planned by hand ([`crate::baseline`]), valued by the same objective.
+#[derive(Serialize)]
+struct BaselineOut {
+    objective: f64,
+    shipped_vials: u64,
+    unshipped_vials: u64,
+    wasps_expected_alive: f64,
+    top_quarter_wasps: f64,
+    blocks_served: usize,
+    requests_served: usize,
+}
+
 /// Field order is the file's order; every number is rounded to fixed decimals.
 #[derive(Serialize)]
 struct Summary<'a> {
@@ -31,6 +43,8 @@ struct Summary<'a> {
     allocated_vials: u64,
     /// Vials on a route stop or a parcel.
     shipped_vials: u64,
+    /// Vials packed and not shipped: they die at the facilities.
+    unshipped_vials: u64,
     undeliverable_shipments: usize,
     /// Objective per extra vial, by facility id.
     marginal_value_per_vial: BTreeMap<&'a str, f64>,
@@ -38,12 +52,17 @@ struct Summary<'a> {
     blocks_served: usize,
     requests_served: usize,
     wasps_expected_alive: f64,
+    /// Expected live wasps delivered to the top priority quarter of eligible sites.
+    top_quarter_wasps: f64,
     routes: usize,
     parcels: usize,
     binding_constraints: Vec<BindingOut<'a>>,
     /// Allocation notes, then route-search notes.
     notes: Vec<&'a str>,
     moved: &'a [String],
+    /// The hand plan of the same week; left out when the view has none.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    baseline: Option<BaselineOut>,
 }
 
 /// Renders `summary.json`. Served counts are of delivered vials, not allocated ones. O(S).
@@ -73,12 +92,14 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         supply_vials: sc.total_supply_vials(),
         allocated_vials: al.shipments.iter().map(|s| u64::from(s.vials)).sum(),
         shipped_vials: plan.shipped_vials(),
+        unshipped_vials: sc.total_supply_vials().saturating_sub(plan.shipped_vials()),
         undeliverable_shipments: view.dispatch.undeliverable.len(),
         marginal_value_per_vial: mv,
         sites_served: blocks_served + requests_served,
         blocks_served,
         requests_served,
         wasps_expected_alive: round_to(plan.wasps_expected_alive(), 1),
+        top_quarter_wasps: round_to(plan.top_quarter_wasps(view), 1),
         routes: view.dispatch.routes.len(),
         parcels: view.dispatch.parcels.len(),
         binding_constraints: al
@@ -91,6 +112,15 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
             .collect(),
         notes: view.notes().map(String::as_str).collect(),
         moved: view.moved,
+        baseline: view.baseline.map(|b| BaselineOut {
+            objective: round_to(b.objective, 6),
+            shipped_vials: b.shipped_vials,
+            unshipped_vials: b.unshipped_vials(),
+            wasps_expected_alive: round_to(b.wasps_expected_alive, 1),
+            top_quarter_wasps: round_to(b.top_quarter_wasps, 1),
+            blocks_served: b.blocks_served,
+            requests_served: b.requests_served,
+        }),
     };
     let mut bytes = serde_json::to_vec_pretty(&doc)?;
     bytes.push(b'\n');

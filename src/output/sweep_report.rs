@@ -21,7 +21,7 @@ use crate::sweep::{Sweep, VariantResult};
 type IsKind = fn(&ConstraintKind) -> bool;
 
 /// The `sweep.csv` header, in column order.
-pub const SWEEP_COLUMNS: [&str; 13] = [
+pub const SWEEP_COLUMNS: [&str; 17] = [
     "variant",
     "supply_multiplier",
     "lp_bound",
@@ -35,6 +35,10 @@ pub const SWEEP_COLUMNS: [&str; 13] = [
     "marginal_value_per_vial",
     "blocks_served",
     "bound",
+    "top_quarter_wasps",
+    "hand_objective",
+    "hand_top_quarter_wasps",
+    "hand_unshipped_vials",
 ];
 
 /// Renders every sweep output as (relative file name, bytes), in a fixed order.
@@ -78,6 +82,10 @@ fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
             &fixed(v.marginal_value_per_vial, 6),
             &v.blocks_served.to_string(),
             &fixed(v.bound, 3),
+            &fixed(v.top_quarter_wasps, 1),
+            &fixed(v.hand.objective, 3),
+            &fixed(v.hand.top_quarter_wasps, 1),
+            &v.hand.unshipped_vials().to_string(),
         ])?;
     }
     w.into_inner()
@@ -233,6 +241,8 @@ pub fn saturation_text(sweep: &Sweep) -> String {
 const BLUE: &str = "#1f4e79";
 const ORANGE: &str = "#c55a11";
 const GREEN: &str = "#38761d";
+/// The hand plan's line: grey, beside the plan's colours.
+const GREY: &str = "#7f7f7f";
 
 /// (file stem, standalone SVG) for the four charts.
 fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
@@ -257,6 +267,12 @@ fn charts(sweep: &Sweep) -> Vec<(&'static str, String)> {
                 label: "whole-vial plan",
                 points: pts(&|v| v.objective),
                 colour: ORANGE,
+                dashed: true,
+            },
+            Series {
+                label: "planned by hand",
+                points: pts(&|v| v.hand.objective),
+                colour: GREY,
                 dashed: true,
             },
         ],
@@ -360,7 +376,10 @@ footer{margin-top:2rem;font-size:.8rem;color:#444}\
 
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let mut h = String::new();
-    let title = format!("Supply sweep — {}", sweep.scenario);
+    let title = format!(
+        "Supply sweep — {}",
+        super::week_title(&sweep.scenario, sweep.week_start)
+    );
     let _ = writeln!(
         h,
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{PAGE_CSS}{STYLE}</style></head><body>",
@@ -368,10 +387,14 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     );
     let _ = writeln!(
         h,
-        "<h1>Supply sweep</h1><p class=\"meta\">{} · week starting {} · {} variant(s)</p>",
-        esc(&sweep.scenario),
-        sweep.week_start,
-        sweep.variants.len()
+        "<h1>Supply sweep</h1><p class=\"meta\">{} · {} {}</p>",
+        esc(&super::week_title(&sweep.scenario, sweep.week_start)),
+        sweep.variants.len(),
+        if sweep.variants.len() == 1 {
+            "variant"
+        } else {
+            "variants"
+        }
     );
     let list = |v: &[String]| {
         if v.is_empty() {
@@ -433,7 +456,8 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
     let captions = [
         "Vials shipped (delivered) and vials packed against supply; each point names what limits \
          the vials shipped there (the table above says it in full).",
-        "LP bound (upper bound on any plan) and the whole-vial plan's objective. The LP value \
+        "LP bound (upper bound on any plan), the whole-vial plan's objective, and the same \
+         variant planned by hand (docs/baseline.md) valued by the same objective. The LP value \
          is concave and non-decreasing in supply.",
         &marginal_caption,
         "Sites and dooryard requests that receive vials (delivered, as in summary.json); each \
@@ -468,6 +492,34 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
             v.requests_served,
             fixed(v.wasps_expected_alive, 0),
             fixed(v.marginal_value_per_vial, 1),
+        );
+    }
+    h.push_str("</tbody></table>\n");
+    h.push_str(
+        "<h2>Against planning by hand</h2><p>Each variant planned the way an office does by hand \
+         (requests first come, first served up to the dooryard share, blocks by scouting count, \
+         nearest facility, earliest day; docs/baseline.md), valued by the same objective.</p>\
+         <table><thead><tr><th>variant</th><th>value</th><th>value by hand</th><th>plan / hand</th>\
+         <th>top-quarter wasps</th><th>by hand</th><th>vials unshipped</th><th>by hand</th>\
+         </tr></thead><tbody>\n",
+    );
+    for v in &sweep.variants {
+        let ratio = if v.hand.objective > 0.0 {
+            fixed(v.objective / v.hand.objective, 2)
+        } else {
+            "–".to_string()
+        };
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{ratio}</td><td>{}</td><td>{}</td><td>{}</td>\
+             <td>{}</td></tr>",
+            esc(&v.name),
+            fixed(v.objective, 1),
+            fixed(v.hand.objective, 1),
+            fixed(v.top_quarter_wasps, 0),
+            fixed(v.hand.top_quarter_wasps, 0),
+            v.supply_vials.saturating_sub(v.shipped_vials),
+            v.hand.unshipped_vials(),
         );
     }
     h.push_str("</tbody></table>\n");
@@ -512,6 +564,14 @@ mod tests {
             marginal_value_per_vial: mv,
             marginal_by_facility: Vec::new(),
             binding,
+            top_quarter_wasps: 500.0,
+            hand: crate::baseline::Baseline {
+                objective: lp * 0.7,
+                supply_vials: 100,
+                shipped_vials: 88,
+                top_quarter_wasps: 300.0,
+                ..Default::default()
+            },
         }
     }
 

@@ -163,7 +163,7 @@ const NUMBER_KEYS: [&[&str]; 22] = [
     &["agent", "survival", "half_life_hours"],
     &["policy", "dooryard_share_min"],
     &["policy", "dooryard_vials_per_request"],
-    &["policy", "pesticide_exclusion_days"],
+    &["policy", "insecticide_exclusion_days"],
     &["policy", "pressure_radius_km"],
     &["policy", "pressure_bandwidth_km"],
     &["policy", "travel_cost_per_hour"],

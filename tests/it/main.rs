@@ -7,6 +7,7 @@ mod util;
 mod allocate;
 mod atomic_kill;
 mod bad_input;
+mod baseline;
 mod cli;
 mod demo_files;
 mod determinism;

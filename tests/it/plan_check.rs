@@ -200,7 +200,7 @@ fn check_plan(scen: &Path, out: &Path) -> usize {
     // Eligibility, read from the raw files.
     let blocks: Value =
         serde_json::from_slice(&std::fs::read(scen.join("blocks.geojson")).unwrap()).unwrap();
-    let excl_days = policy["pesticide_exclusion_days"].as_u64().unwrap();
+    let excl_days = policy["insecticide_exclusion_days"].as_u64().unwrap();
     let require_flush = policy["require_flush"].as_bool().unwrap();
     let mut block_props = HashMap::new();
     for f in blocks["features"].as_array().unwrap() {

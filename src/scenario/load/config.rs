@@ -279,6 +279,49 @@ fn share(x: f64) -> Result<(), String> {
     }
 }
 
+/// `policy.insecticide_exclusion_days`, or the same value under its earlier name
+/// `policy.pesticide_exclusion_days` with a warning to rename it (outputs and docs say
+/// *insecticide* throughout). Both names at once is a problem: which one is meant?
+fn insecticide_exclusion_days(p: &Obj, sink: &mut Sink) -> u32 {
+    const NEW: &str = "insecticide_exclusion_days";
+    const OLD: &str = "pesticide_exclusion_days";
+    let given = |k: &str| {
+        p.map
+            .is_some_and(|m| m.get(k).is_some_and(|v| !v.is_null()))
+    };
+    let days = |key: &str, sink: &mut Sink| {
+        p.integer(sink, key, None, 0, limits::MAX_INTERVAL_DAYS) as u32
+    };
+    match (given(NEW), given(OLD)) {
+        (false, true) => {
+            sink.warning(
+                p.file,
+                Location::Key(p.key_path(OLD)),
+                format!(
+                    "`{}` is the earlier name of `{}`; it is read for now, rename the key",
+                    p.key_path(OLD),
+                    p.key_path(NEW)
+                ),
+            );
+            days(OLD, sink)
+        }
+        (true, true) => {
+            p.bad(
+                sink,
+                OLD,
+                p.map.and_then(|m| m.get(OLD)),
+                format!(
+                    "both `{}` and its earlier name are given; keep only `{}`",
+                    p.key_path(NEW),
+                    p.key_path(NEW)
+                ),
+            );
+            days(NEW, sink)
+        }
+        _ => days(NEW, sink),
+    }
+}
+
 /// Parses `scenario.json`. `None` only when the text is not a JSON object at all.
 /// Every key path the loader reads from scenario.json (format v1, `docs/formats.md`), dotted
 /// from the top object. Other modules derive their key lists from it (e.g. the keys
@@ -298,7 +341,7 @@ pub const SCENARIO_KEYS: [&str; 34] = [
     "agent.pack_time",
     "policy.dooryard_share_min",
     "policy.dooryard_vials_per_request",
-    "policy.pesticide_exclusion_days",
+    "policy.insecticide_exclusion_days",
     "policy.require_flush",
     "policy.pressure_radius_km",
     "policy.pressure_bandwidth_km",
@@ -407,13 +450,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             1,
             limits::MAX_VIALS_PER_REQUEST,
         ) as u32,
-        pesticide_exclusion_days: p.integer(
-            sink,
-            "pesticide_exclusion_days",
-            None,
-            0,
-            limits::MAX_INTERVAL_DAYS,
-        ) as u32,
+        pesticide_exclusion_days: insecticide_exclusion_days(&p, sink),
         require_flush: p.boolean(sink, "require_flush"),
         pressure_radius_km: p.number(
             sink,

@@ -852,15 +852,15 @@ pub fn cases() -> Vec<Case> {
         ),
         // Office inputs (issue: every office mistake is a clear exit 2).
         case!(
-            "huge pesticide_exclusion_days",
+            "huge insecticide_exclusion_days",
             "scenario.json",
             |d| replace(
                 d,
                 "scenario.json",
-                r#""pesticide_exclusion_days": 21"#,
-                r#""pesticide_exclusion_days": 4000000000"#
+                r#""insecticide_exclusion_days": 21"#,
+                r#""insecticide_exclusion_days": 4000000000"#
             ),
-            "key 'policy.pesticide_exclusion_days'"
+            "key 'policy.insecticide_exclusion_days'"
         ),
         case!(
             "week in year 9999",
@@ -896,8 +896,19 @@ pub fn cases() -> Vec<Case> {
             |d| replace(
                 d,
                 "scenario.json",
-                r#""pesticide_exclusion_days": 21,"#,
-                r#""pesticide_exclusion_days": 21, "pesticide_exclusion_days": 5,"#
+                r#""insecticide_exclusion_days": 21,"#,
+                r#""insecticide_exclusion_days": 21, "insecticide_exclusion_days": 5,"#
+            ),
+            "key 'policy.insecticide_exclusion_days'"
+        ),
+        case!(
+            "insecticide window under both its names",
+            "scenario.json",
+            |d| replace(
+                d,
+                "scenario.json",
+                r#""insecticide_exclusion_days": 21,"#,
+                r#""insecticide_exclusion_days": 21, "pesticide_exclusion_days": 5,"#
             ),
             "key 'policy.pesticide_exclusion_days'"
         ),
@@ -1073,6 +1084,18 @@ pub fn warning_cases() -> Vec<WarnCase> {
                 )
             },
             expect: "blocks.geojson: feature 3 (id 'B4'): the block covers",
+        },
+        WarnCase {
+            name: "the insecticide window under its earlier name",
+            edit: |d| {
+                replace(
+                    d,
+                    "scenario.json",
+                    r#""insecticide_exclusion_days""#,
+                    r#""pesticide_exclusion_days""#,
+                )
+            },
+            expect: "scenario.json: key 'policy.pesticide_exclusion_days': `policy.pesticide_exclusion_days` is the earlier name",
         },
     ]
 }
