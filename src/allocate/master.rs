@@ -167,7 +167,6 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
         });
     }
     let mut res_row = vec![None; inst.resources.len()];
-    let rhs = resource_rhs_in_lp(inst);
     for (r, terms) in res_terms.iter().enumerate() {
         if !terms.is_empty() {
             res_row[r] = Some(add_row(
@@ -176,7 +175,7 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
                 inst.resource_kind(r),
                 terms,
                 Sense::Le,
-                rhs[r],
+                inst.lp_rhs[r],
             ));
         }
     }
@@ -200,34 +199,6 @@ pub(crate) fn build_model(inst: &Instance, arc_in: &[bool]) -> Built {
         share_row,
         force_rows,
     }
-}
-
-/// Right-hand side of each resource row as written into the LP: the vials available, clipped
-/// to just above the most vials the whole pool's arcs could ever draw on the row. Each arc
-/// carries at most max_release ÷ its live wasps per vial (its site's `maxrelease` row; a
-/// request also at most the standard count), so a row whose vials exceed the sum over its
-/// arcs can never bind: clipping its right-hand side leaves the feasible set, the optimum and
-/// the duals (0 on such a row) unchanged. It keeps supply or capacity in the billions from
-/// wrecking the interior-point scaling (measured: 4,294,967,295 vials a day on the demo gave a
-/// clarabel "optimum" of 110.8 against a plan worth 3.2 million). The exported MPS holds the
-/// same right-hand sides. O(A).
-pub(crate) fn resource_rhs_in_lp(inst: &Instance) -> Vec<f64> {
-    let mut most = vec![0.0f64; inst.resources.len()];
-    for (a, arc) in inst.arcs.iter().enumerate() {
-        let mut ub = inst.max.max(0.0) / arc.wasps_alive_per_vial;
-        if inst.sites[inst.arc_site[a]].kind == SiteKind::Dooryard {
-            ub = ub.min(f64::from(inst.per_request));
-        }
-        for &r in &inst.arc_res[a] {
-            most[r] += ub;
-        }
-    }
-    // One vial above the most usable (and the sum rounded up): strictly slack, never binding.
-    inst.res_rhs
-        .iter()
-        .zip(most)
-        .map(|(&rhs, most)| rhs.min(most.ceil() + 1.0))
-        .collect()
 }
 
 /// The solved relaxation over the final working set.
@@ -340,25 +311,9 @@ pub(crate) fn solve_relaxation(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::allocate::synthetic::same_day_arc as arc;
+    use crate::arcs::{Arcs, Mode};
     use crate::scenario::fixture::tiny;
-    use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
-
-    fn arc(s: &Scenario, site: SiteIdx, facility: FacilityIdx, mode: Mode) -> Arc {
-        let d = s.week_start;
-        Arc {
-            facility,
-            pack_date: d,
-            dispatch_date: d,
-            site,
-            mode,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: 0.9,
-            wasps_alive_per_vial: 90.0,
-            drive_minutes: 30.0,
-        }
-    }
 
     #[test]
     fn model_rows_and_names_follow_domain_ids() {

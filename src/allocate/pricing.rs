@@ -212,25 +212,9 @@ pub(super) fn use_pricing(inst: &Instance, opts: &AllocOptions, first: &[bool]) 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::allocate::synthetic::same_day_arc as arc;
+    use crate::arcs::{Arcs, Mode};
     use crate::scenario::fixture::tiny;
-    use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
-
-    fn arc(s: &Scenario, site: SiteIdx, facility: FacilityIdx, mode: Mode) -> Arc {
-        let d = s.week_start;
-        Arc {
-            facility,
-            pack_date: d,
-            dispatch_date: d,
-            site,
-            mode,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: 0.9,
-            wasps_alive_per_vial: 90.0,
-            drive_minutes: 30.0,
-        }
-    }
 
     #[test]
     fn reduced_cost_charges_the_shared_row_duals() {

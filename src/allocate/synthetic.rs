@@ -6,6 +6,24 @@ use chrono::{Datelike, Days, NaiveTime};
 use crate::arcs::{Arc, Arcs, Mode};
 use crate::scenario::{Scenario, Site, SiteDetail, SiteId, Supply, fixture::tiny};
 
+/// A same-day arc for hand-made test cases: packed, dispatched and arriving (09:00) on the
+/// week's first day, release-by 23:00, survival 0.9 (90 live wasps a vial), 30 minutes' drive.
+pub fn same_day_arc(s: &Scenario, site: usize, facility: usize, mode: Mode) -> Arc {
+    let d = s.week_start;
+    Arc {
+        facility,
+        pack_date: d,
+        dispatch_date: d,
+        site,
+        mode,
+        eta: d.and_hms_opt(9, 0, 0).expect("valid"),
+        release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
+        survival: 0.9,
+        wasps_alive_per_vial: 90.0,
+        drive_minutes: 30.0,
+    }
+}
+
 /// SplitMix64: a tiny seeded generator, enough for test data.
 #[derive(Clone, Debug)]
 pub struct Rng(pub u64);
