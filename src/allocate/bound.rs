@@ -1,21 +1,30 @@
-//! A whole-vial upper bound from the LP's duals: the Lagrangian relaxation of the shared rows
+//! A whole-vial upper bound from the LP's duals: a Lagrangian relaxation of the shared rows
 //! with each site's subproblem solved in whole vials (`docs/model.md`, "Bounds").
 //!
-//! For prices y_r ≥ 0 on the supply, vehicle and parcel rows and λ ≥ 0 on the dooryard share
-//! floor (Σ_a share_a x_a ≥ 0), every whole-vial plan x that keeps those rows satisfies
+//! Every shared row r (a pack day's supply, a depot day's vehicle capacity, a day's parcel
+//! cap) counts vials: Σ_{a ∋ r} x_a ≤ Q_r. A row holding many vials gets a price y_r ≥ 0 per
+//! vial. A row of at most [`SIZE_PRICED_MAX_VIALS`] whole vials, where the lumpiness of
+//! releases decides what fits (a pack day of three vials takes one two-vial release, not one
+//! and a half), gets a price p_{r,k} per *release of k vials* instead, and a knapsack of its
+//! own: with n_{r,k} the releases of k vials on r, every whole-vial plan has
+//! Σ_k k n_{r,k} ≤ Q_r, and the plan's own counts m_{r,k} equal n_{r,k}. Relaxing that
+//! equality with the free prices p (Lagrangian decomposition) and the share floor
+//! Σ_a share_a x_a ≥ 0 with λ ≥ 0, every whole-vial plan x that keeps the rows has
 //!
 //! ```text
-//! objective(x) ≤ Σ_r y_r b_r + Σ_s max_{x_s ∈ X_s} [ V_s(x_s) − Σ_{a ∈ s} π_a x_a ],
-//! π_a = travel_a + Σ_{r ∋ a} y_r − λ share_a,
+//! objective(x) ≤ Σ_{r per vial} y_r Q_r + Σ_{r per release} K_r(p_r)
+//!              + Σ_s max_{x_s ∈ X_s} [ V_s(x_s) − Σ_{releases (a,k) of x_s} π_a(k) ],
+//! π_a(k) = k (travel_a + Σ_{r ∋ a per vial} y_r − λ share_a) + Σ_{r ∋ a per release} p_{r,k},
+//! K_r(p_r) = max { Σ_k p_{r,k} n_k : Σ_k k n_k ≤ ⌊Q_r⌋, n_k ≥ 0 whole },
 //! ```
 //!
-//! (weak duality: the priced terms y_r (b_r − Σ x) and λ Σ share x are ≥ 0 for such a plan),
-//! where X_s are the site's whole-vial releases (nothing, or min..max live wasps for a block;
-//! nothing, or the standard count within max for a request) and V_s its benefit less force
-//! penalties. With the LP's optimal duals and fractional vials in X_s the right-hand side is
-//! the LP optimum; whole vials can only lower each site's maximum, so the bound is never
-//! weaker than the LP bound. It is tighter where the LP fills a release to its maximum with a
-//! fraction of a vial that no whole number of vials reaches.
+//! (weak duality: the priced terms are ≥ 0 for such a plan), where X_s are the site's
+//! whole-vial releases (nothing, or min..max live wasps for a block; nothing, or the standard
+//! count within max for a request) and V_s its benefit less force penalties. With p_{r,k} =
+//! y_r k the release prices are per vial again and K_r = y_r ⌊Q_r⌋, so at the LP's optimal
+//! duals the bound is at most the LP optimum; whole vials can only lower each site's maximum.
+//! The prices per release let the subgradient steps below reach what per-vial prices cannot:
+//! on small pack days the assignment of whole releases to days.
 
 use super::instance::{Force, Instance, share_coef};
 use crate::scenario::SiteKind;
@@ -26,93 +35,201 @@ const EPS: f64 = 1e-9;
 /// fractional-vial maximum (still a valid, weaker, bound).
 const NODES_PER_SITE: usize = 200_000;
 
+/// Rows holding at most this many whole vials are priced per release size rather than per
+/// vial (vials). Above it a release is a small part of the row and per-vial prices lose
+/// little; the knapsack of such a row costs O(Q_r × sizes) per evaluation.
+pub(crate) const SIZE_PRICED_MAX_VIALS: f64 = 100.0;
+
+/// Last step (a power of two) whose best releases are kept as a rounding guide.
+const MAX_EARLY_GUIDE_STEP: usize = 8;
+
+/// Prices of one evaluation: per vial on large rows, per release size on small ones, and the
+/// share floor's.
+#[derive(Clone)]
+struct Prices {
+    /// Price per vial of each row (objective units per vial; unused on size-priced rows).
+    y: Vec<f64>,
+    /// For a size-priced row, the price of a release of k vials at index k − 1.
+    sized: Vec<Option<Vec<f64>>>,
+    /// Price of the share floor (≥ 0).
+    lambda: f64,
+}
+
+impl Prices {
+    /// Prices from the LP's row duals: per vial, and y_r k per release of k vials on the small
+    /// rows (the same value, so the first evaluation is the per-vial bound).
+    fn from_duals(inst: &Instance, res_dual: &[f64], share_dual: f64) -> Self {
+        let y: Vec<f64> = (0..inst.resources.len())
+            .map(|r| res_dual.get(r).copied().unwrap_or(0.0).max(0.0))
+            .collect();
+        let most = most_vials_per_release(inst);
+        let sized = (0..inst.resources.len())
+            .map(|r| {
+                let q = whole(inst.res_rhs[r]);
+                (f64::from(q) <= SIZE_PRICED_MAX_VIALS)
+                    .then(|| (1..=q.min(most)).map(|k| y[r] * f64::from(k)).collect())
+            })
+            .collect();
+        Self {
+            y,
+            sized,
+            lambda: (-share_dual).max(0.0),
+        }
+    }
+
+    /// The part of an arc's release price that is per vial, objective units per vial.
+    fn per_vial(&self, inst: &Instance, a: usize) -> f64 {
+        let mut p = inst.cost[a];
+        for &r in &inst.arc_res[a] {
+            if self.sized[r].is_none() {
+                p += self.y[r];
+            }
+        }
+        if inst.share.is_some() {
+            p -= self.lambda * share_coef(inst, a);
+        }
+        p
+    }
+}
+
+/// Whole vials of a row's right-hand side.
+fn whole(q: f64) -> u32 {
+    (q + EPS).floor().clamp(0.0, f64::from(u32::MAX)) as u32
+}
+
+/// Most vials any one release can hold: a request's standard count, or a block's maximum
+/// live wasps at the fewest live wasps per vial of any arc.
+fn most_vials_per_release(inst: &Instance) -> u32 {
+    let least_alive = inst
+        .arcs
+        .iter()
+        .map(|a| a.wasps_alive_per_vial)
+        .filter(|&w| w > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    let block = if least_alive.is_finite() {
+        (inst.max * (1.0 + EPS) / least_alive + EPS)
+            .floor()
+            .clamp(1.0, f64::from(u32::MAX)) as u32
+    } else {
+        1
+    };
+    block.max(inst.per_request)
+}
+
 /// The whole-vial Lagrangian bound, tightened from the LP's duals by projected subgradient
 /// steps on the prices (`docs/model.md`, "Bounds"): every iterate's value is a valid bound, so
 /// the smallest one seen is returned. `res_dual` and `share_dual` are the LP's duals (the
 /// share dual with the LP's sign, ≤ 0 for the ≥ row; both clamped); `lower` is the objective
 /// of a known whole-vial plan (it sets the step length; any value keeps the bound valid).
 /// `steps` is a work limit: at most that many re-evaluations after the first. Objective
-/// units. Each evaluation is O(arcs) plus the sites' whole-vial enumerations.
+/// units. Each evaluation is O(arcs) plus the sites' whole-vial enumerations and the small
+/// rows' knapsacks.
 ///
-/// Also returns the sites' maximising releases at the best prices (vials per arc; `None`
-/// when an enumeration ran out of nodes): a plan that may break the shared rows, but a good
-/// guide for rounding where the LP spreads vials the rows cannot split (e.g. a pack day of
-/// three vials).
+/// Also returns the sites' maximising releases at the LP's duals, at the best prices after
+/// steps 1, 2, 4 and 8, and at the best prices (vials per arc; distinct ones only, none when
+/// an enumeration ran out of nodes):
+/// plans that may break the shared rows, but good guides for rounding where the LP spreads
+/// vials the rows cannot split (e.g. a pack day of three vials).
 pub(crate) fn whole_vial_bound(
     inst: &Instance,
     res_dual: &[f64],
     share_dual: f64,
     lower: f64,
     steps: usize,
-) -> (f64, Option<Vec<f64>>) {
-    let mut y: Vec<f64> = (0..inst.resources.len())
-        .map(|r| res_dual.get(r).copied().unwrap_or(0.0).max(0.0))
-        .collect();
-    let mut lambda = (-share_dual).max(0.0);
-    let mut at = lagrangian(inst, &y, lambda, true);
+) -> (f64, Vec<Vec<f64>>) {
+    let mut prices = Prices::from_duals(inst, res_dual, share_dual);
+    let mut at = lagrangian(inst, &prices, true);
+    let first = guide_of(inst, &at);
     // The best evaluation and its prices: every step starts from `at`, and a stall goes back
     // to the best point without evaluating it again.
-    let mut best = (at.clone(), y.clone(), lambda);
+    let mut best = (at.clone(), prices.clone());
     // Polyak's step towards the target `lower`, with its factor halved, and the prices taken
     // back to the best point, after a few steps without a new best (the usual safeguards of
-    // subgradient methods). The target is usually far below the bound, so the factor starts
-    // small.
-    let mut theta = 0.1;
+    // subgradient methods); it stops once the factor is below 1/64 of its start.
+    let mut theta = 1.0;
     let mut since_best = 0;
-    let mut stalls = 0;
-    for _ in 0..steps {
+    let mut guides: Vec<Vec<f64>> = first.into_iter().collect();
+    for step in 0..steps {
+        // Early new bests differ most from the LP duals' releases: they guide roundings too.
+        if step.is_power_of_two()
+            && step <= MAX_EARLY_GUIDE_STEP
+            && since_best == 0
+            && let Some(g) = guide_of(inst, &best.0)
+            && !guides.contains(&g)
+        {
+            guides.push(g);
+        }
         let Some(usage) = at.usage.as_ref() else {
             break;
         };
-        let g: Vec<f64> = (0..y.len()).map(|r| inst.res_rhs[r] - usage[r]).collect();
+        // Per-vial rows: Q_r − usage; per-release rows: n_{r,k} − m_{r,k}; the share row.
+        let g: Vec<f64> = (0..prices.y.len())
+            .map(|r| inst.res_rhs[r] - usage[r])
+            .collect();
         let g_share = if inst.share.is_some() {
             at.share_usage
         } else {
             0.0
         };
         // Components that would push a price below zero do not move it.
-        let norm2: f64 = g
+        let mut norm2: f64 = g
             .iter()
-            .zip(&y)
-            .filter(|(g, y)| !(**g > 0.0 && **y <= 0.0))
-            .map(|(g, _)| g * g)
+            .zip(&prices.y)
+            .zip(&prices.sized)
+            .filter(|((g, y), sized)| sized.is_none() && !(**g > 0.0 && **y <= 0.0))
+            .map(|((g, _), _)| g * g)
             .sum::<f64>()
-            + if g_share > 0.0 && lambda <= 0.0 {
+            + if g_share > 0.0 && prices.lambda <= 0.0 {
                 0.0
             } else {
                 g_share * g_share
             };
+        for (r, sized) in prices.sized.iter().enumerate() {
+            if let Some(p) = sized {
+                for k in 0..p.len() {
+                    let d = at.knapsack[r][k] - at.releases[r][k];
+                    norm2 += d * d;
+                }
+            }
+        }
         let excess = at.value - lower.max(0.0);
         if norm2 <= 1e-12 || excess <= 1e-9 * best.0.value.abs().max(1.0) {
             break;
         }
         let t = theta * excess / norm2;
-        for (yr, gr) in y.iter_mut().zip(&g) {
-            *yr = (*yr - t * gr).max(0.0);
+        for (r, (y, sized)) in prices.y.iter_mut().zip(&mut prices.sized).enumerate() {
+            if let Some(p) = sized.as_mut() {
+                for (k, pk) in p.iter_mut().enumerate() {
+                    *pk -= t * (at.knapsack[r][k] - at.releases[r][k]);
+                }
+            } else {
+                *y = (*y - t * g[r]).max(0.0);
+            }
         }
-        lambda = (lambda - t * g_share).max(0.0);
-        at = lagrangian(inst, &y, lambda, true);
+        prices.lambda = (prices.lambda - t * g_share).max(0.0);
+        at = lagrangian(inst, &prices, true);
         if at.value < best.0.value - 1e-9 * best.0.value.abs().max(1.0) {
-            best = (at.clone(), y.clone(), lambda);
+            best = (at.clone(), prices.clone());
             since_best = 0;
-            stalls = 0;
         } else {
             since_best += 1;
-            stalls += 1;
-            if stalls >= 9 {
-                // Three halvings without a new best: the prices are near their best.
-                break;
-            }
             if since_best >= 3 {
                 theta *= 0.5;
+                if theta < 1.0 / 64.0 {
+                    break;
+                }
                 since_best = 0;
                 at = best.0.clone();
-                y.clone_from(&best.1);
-                lambda = best.2;
+                prices = best.1.clone();
             }
         }
     }
-    (best.0.value, guide_of(inst, &best.0))
+    if let Some(g) = guide_of(inst, &best.0)
+        && !guides.contains(&g)
+    {
+        guides.push(g);
+    }
+    (best.0.value, guides)
 }
 
 /// Vials per arc of the maximising releases of `at`, when complete.
@@ -128,7 +245,7 @@ fn guide_of(inst: &Instance, at: &Evaluation) -> Option<Vec<f64>> {
 /// One evaluation of the Lagrangian dual function.
 #[derive(Clone)]
 struct Evaluation {
-    /// Σ_r y_r b_r + Σ_s (site maximum), objective units.
+    /// Σ_r y_r Q_r + Σ_r K_r(p_r) + Σ_s (site maximum), objective units.
     value: f64,
     /// Vials each resource row's rows take in the sites' maximising releases, when every
     /// site's enumeration completed (else `None`: no subgradient).
@@ -137,24 +254,30 @@ struct Evaluation {
     share_usage: f64,
     /// The maximising releases, (arc, vials), when `usage` is known.
     chosen: Vec<(usize, u32)>,
+    /// Per size-priced row, the sites' releases of k vials at index k − 1 (m_{r,k}); empty
+    /// for per-vial rows.
+    releases: Vec<Vec<f64>>,
+    /// Per size-priced row, the knapsack's releases of k vials at index k − 1 (n_{r,k}).
+    knapsack: Vec<Vec<f64>>,
 }
 
-/// The Lagrangian dual function at resource prices `y` (≥ 0) and share price `lambda` (≥ 0);
-/// with `argmax`, also the resources the maximising releases use.
-fn lagrangian(inst: &Instance, y: &[f64], lambda: f64, argmax: bool) -> Evaluation {
-    let price = |a: usize| {
-        let mut p = inst.cost[a];
-        for &r in &inst.arc_res[a] {
-            p += y[r];
+/// The Lagrangian dual function at `prices`; with `argmax`, also what the maximising releases
+/// use.
+fn lagrangian(inst: &Instance, prices: &Prices, argmax: bool) -> Evaluation {
+    let mut value = 0.0;
+    let mut knapsack = vec![Vec::new(); inst.resources.len()];
+    let mut releases = vec![Vec::new(); inst.resources.len()];
+    for r in 0..inst.resources.len() {
+        match &prices.sized[r] {
+            None => value += prices.y[r] * inst.res_rhs[r],
+            Some(p) => {
+                let (v, n) = knapsack_max(p, whole(inst.res_rhs[r]));
+                value += v;
+                knapsack[r] = n;
+                releases[r] = vec![0.0; p.len()];
+            }
         }
-        if inst.share.is_some() {
-            p -= lambda * share_coef(inst, a);
-        }
-        p
-    };
-    let mut value: f64 = (0..inst.resources.len())
-        .map(|r| y[r] * inst.res_rhs[r])
-        .sum();
+    }
     let mut usage = argmax.then(|| vec![0.0; inst.resources.len()]);
     let mut share_usage = 0.0;
     let top_slope = if inst.target > 0.0 {
@@ -165,29 +288,42 @@ fn lagrangian(inst: &Instance, y: &[f64], lambda: f64, argmax: bool) -> Evaluati
     let mut choice: Vec<(usize, u32)> = Vec::new();
     let mut chosen: Vec<(usize, u32)> = Vec::new();
     for (sp, site) in inst.sites.iter().enumerate() {
-        let mut arcs: Vec<(f64, f64, usize, u32)> = site
+        let mut arcs: Vec<SiteArc> = site
             .arcs
             .iter()
             .map(|&a| {
-                (
-                    inst.arcs[a].wasps_alive_per_vial,
-                    price(a),
-                    a,
-                    arc_cap(inst, a),
-                )
+                let [r0, r1] = inst.arc_res[a];
+                SiteArc {
+                    alive: inst.arcs[a].wasps_alive_per_vial,
+                    per_vial: prices.per_vial(inst, a),
+                    arc: a,
+                    room: arc_cap(inst, a),
+                    sized: [
+                        prices.sized[r0].as_deref(),
+                        if r1 == r0 {
+                            None
+                        } else {
+                            prices.sized[r1].as_deref()
+                        },
+                    ],
+                }
             })
             .collect();
-        // Of arcs with the same live wasps per vial a dearer one with no more room is never
-        // needed: any release on it has the same wasps and vials on the cheaper one.
+        // Of arcs with the same live wasps per vial and the same per-release prices a dearer
+        // one with no more room is never needed: any release on it has the same wasps and
+        // vials on the cheaper one.
         arcs.sort_by(|x, y| {
-            x.0.total_cmp(&y.0)
-                .then(x.1.total_cmp(&y.1))
-                .then(x.2.cmp(&y.2))
+            x.alive
+                .total_cmp(&y.alive)
+                .then(x.per_vial.total_cmp(&y.per_vial))
+                .then(x.arc.cmp(&y.arc))
         });
-        arcs.dedup_by(|later, kept| later.0 == kept.0 && later.3 <= kept.3);
+        arcs.dedup_by(|later, kept| {
+            later.alive == kept.alive && later.room <= kept.room && later.sized == kept.sized
+        });
         let worth = arcs
             .iter()
-            .any(|&(alive, p, _, _)| site.priority * top_slope * alive - p > 0.0);
+            .any(|s| site.priority * top_slope * s.alive - s.least_per_vial() > 0.0);
         if site.force.is_none() && !worth {
             // Every vial costs at least what its wasps could earn: nothing is the best.
             continue;
@@ -202,12 +338,15 @@ fn lagrangian(inst: &Instance, y: &[f64], lambda: f64, argmax: bool) -> Evaluati
             }
             chosen.extend_from_slice(&choice);
             for &(a, k) in &choice {
-                let k = f64::from(k);
+                let kf = f64::from(k);
                 for &r in &inst.arc_res[a] {
-                    u[r] += k;
+                    u[r] += kf;
+                    if prices.sized[r].is_some() {
+                        releases[r][k as usize - 1] += 1.0;
+                    }
                 }
                 if inst.share.is_some() {
-                    share_usage += k * share_coef(inst, a);
+                    share_usage += kf * share_coef(inst, a);
                 }
             }
         }
@@ -217,6 +356,84 @@ fn lagrangian(inst: &Instance, y: &[f64], lambda: f64, argmax: bool) -> Evaluati
         usage,
         share_usage,
         chosen,
+        releases,
+        knapsack,
+    }
+}
+
+/// max Σ_k p[k−1] n_k over whole n_k ≥ 0 with Σ_k k n_k ≤ `q` (an unbounded knapsack by
+/// dynamic programming, O(q × sizes)); returns the maximum and the maximising n_k at index
+/// k − 1 (ties to fewer, smaller releases, so equal inputs give equal counts).
+fn knapsack_max(p: &[f64], q: u32) -> (f64, Vec<f64>) {
+    let q = q as usize;
+    let mut best = vec![0.0f64; q + 1];
+    let mut take = vec![0usize; q + 1];
+    for c in 1..=q {
+        best[c] = best[c - 1];
+        take[c] = 0;
+        for (i, &pk) in p.iter().enumerate() {
+            let k = i + 1;
+            if k <= c && best[c - k] + pk > best[c] + EPS {
+                best[c] = best[c - k] + pk;
+                take[c] = k;
+            }
+        }
+    }
+    let mut n = vec![0.0; p.len()];
+    let mut c = q;
+    while c > 0 {
+        if take[c] == 0 {
+            c -= 1;
+        } else {
+            n[take[c] - 1] += 1.0;
+            c -= take[c];
+        }
+    }
+    (best[q], n)
+}
+
+/// One of a site's arcs as the site's subproblem sees it.
+#[derive(Clone, Copy)]
+struct SiteArc<'p> {
+    /// Live wasps per vial at arrival.
+    alive: f64,
+    /// The per-vial part of a release's price, objective units per vial.
+    per_vial: f64,
+    arc: usize,
+    /// Most whole vials the arc can carry ([`arc_cap`]).
+    room: u32,
+    /// Per-release prices of the arc's size-priced rows (at most two).
+    sized: [Option<&'p [f64]>; 2],
+}
+
+impl SiteArc<'_> {
+    /// Price of a release of `k` ≥ 1 vials on the arc, objective units. Every release a whole
+    /// plan can hold has a size within the priced sizes (at most the row's vials and the most
+    /// vials of one release).
+    fn release_price(&self, k: u32) -> f64 {
+        let mut p = f64::from(k) * self.per_vial;
+        for s in self.sized.iter().flatten() {
+            p += s.get(k as usize - 1).copied().unwrap_or(f64::INFINITY);
+        }
+        p
+    }
+
+    /// The least price per vial of any release on the arc, objective units per vial.
+    fn least_per_vial(&self) -> f64 {
+        if self.sized.iter().all(Option::is_none) {
+            return self.per_vial;
+        }
+        let sizes = self
+            .sized
+            .iter()
+            .flatten()
+            .map(|s| s.len() as u32)
+            .min()
+            .unwrap_or(0)
+            .min(self.room);
+        (1..=sizes)
+            .map(|k| self.release_price(k) / f64::from(k))
+            .fold(f64::INFINITY, f64::min)
     }
 }
 
@@ -226,27 +443,22 @@ fn lagrangian(inst: &Instance, y: &[f64], lambda: f64, argmax: bool) -> Evaluati
 fn arc_cap(inst: &Instance, a: usize) -> u32 {
     inst.arc_res[a]
         .iter()
-        .map(|&r| {
-            (inst.res_rhs[r] + EPS)
-                .floor()
-                .clamp(0.0, f64::from(u32::MAX)) as u32
-        })
+        .map(|&r| whole(inst.res_rhs[r]))
         .min()
         .unwrap_or(u32::MAX)
 }
 
-/// max over whole-vial releases x of the site of value − Σ price·x; `arcs` holds (live wasps
-/// per vial, price per vial, arc) of each of its arcs. Returns the maximum and whether the
-/// enumeration completed; then `choice` holds the maximising (arc, vials).
+/// max over whole-vial releases x of the site of value − Σ release prices. Returns the maximum
+/// and whether the enumeration completed; then `choice` holds the maximising (arc, vials).
 fn site_max(
     inst: &Instance,
     sp: usize,
-    arcs: &[(f64, f64, usize, u32)],
+    arcs: &[SiteArc],
     choice: &mut Vec<(usize, u32)>,
 ) -> (f64, bool) {
     let site = &inst.sites[sp];
     let cap = inst.max * (1.0 + EPS) + EPS;
-    let min_alive = arcs.iter().map(|a| a.0).fold(f64::INFINITY, f64::min);
+    let min_alive = arcs.iter().map(|a| a.alive).fold(f64::INFINITY, f64::min);
     let most = match site.kind {
         SiteKind::Dooryard => inst.per_request,
         SiteKind::Block if min_alive > 0.0 => (cap / min_alive).floor().min(1e6) as u32,
@@ -282,7 +494,7 @@ fn site_max(
 fn enumerate(
     inst: &Instance,
     sp: usize,
-    arcs: &[(f64, f64, usize, u32)],
+    arcs: &[SiteArc],
     (cap, most): (f64, u32),
     (i, e, n, cost, left): (usize, f64, u32, f64, u32),
     path: &mut Vec<(usize, u32)>,
@@ -302,26 +514,27 @@ fn enumerate(
         }
         return true;
     }
-    let (alive, price, arc, room) = arcs[i];
+    let arc = arcs[i];
     let mut k = 0u32;
     loop {
-        let e2 = e + f64::from(k) * alive;
-        if e2 > cap || n + k > most || k > room || (k > 0 && left == 0) {
+        let e2 = e + f64::from(k) * arc.alive;
+        if e2 > cap || n + k > most || k > arc.room || (k > 0 && left == 0) {
             return true;
         }
         let several = inst.releases_per_site > 1;
-        let this_ok = k == 0 || !several || inst.release_ok(sp, f64::from(k) * alive, k);
+        let this_ok = k == 0 || !several || inst.release_ok(sp, f64::from(k) * arc.alive, k);
         let left2 = if k > 0 { left - 1 } else { left };
         if this_ok {
+            let price = if k > 0 { arc.release_price(k) } else { 0.0 };
             if k > 0 {
-                path.push((arc, k));
+                path.push((arc.arc, k));
             }
             let done = enumerate(
                 inst,
                 sp,
                 arcs,
                 (cap, most),
-                (i + 1, e2, n + k, cost + f64::from(k) * price, left2),
+                (i + 1, e2, n + k, cost + price, left2),
                 path,
                 best,
                 nodes,
@@ -333,7 +546,7 @@ fn enumerate(
                 return false;
             }
         }
-        if alive <= 0.0 && price >= 0.0 {
+        if arc.alive <= 0.0 && arc.per_vial >= 0.0 && arc.sized.iter().all(Option::is_none) {
             // More of a vial that adds no wasps only costs.
             return true;
         }
@@ -342,14 +555,14 @@ fn enumerate(
 }
 
 /// An upper bound on the site's maximum with fractional vials and no release rules but the
-/// cap: every wasp costs at least the cheapest price per live wasp, and the benefit is
-/// concave and piecewise linear in wasps, so the best is at 0, the target, a force's need or
-/// the cap. Force penalties per vial are left out (they only lower the value).
-fn fractional_max(inst: &Instance, sp: usize, arcs: &[(f64, f64, usize, u32)], cap: f64) -> f64 {
+/// cap: every wasp costs at least the least price per live wasp of any release, and the
+/// benefit is concave and piecewise linear in wasps, so the best is at 0, the target, a
+/// force's need or the cap. Force penalties per vial are left out (they only lower the value).
+fn fractional_max(inst: &Instance, sp: usize, arcs: &[SiteArc], cap: f64) -> f64 {
     let per_wasp = arcs
         .iter()
-        .filter(|a| a.0 > 0.0)
-        .map(|&(alive, p, _, _)| p / alive)
+        .filter(|a| a.alive > 0.0)
+        .map(|a| a.least_per_vial() / a.alive)
         .fold(f64::INFINITY, f64::min);
     if !per_wasp.is_finite() {
         return inst.site_value(sp, 0.0, 0).max(0.0);
@@ -378,6 +591,21 @@ mod tests {
     use crate::allocate::AllocOptions;
     use crate::arcs::{Arc, Arcs, Mode};
     use crate::scenario::fixture::tiny;
+
+    #[test]
+    fn a_small_row_takes_its_best_whole_releases() {
+        // Releases of 2 vials worth 10 and of 3 vials worth 14 in 7 vials: 2 + 2 + 3 = 34
+        // beats 3 + 3 (28, one vial left) and 2 + 2 + 2 (30).
+        let (v, n) = knapsack_max(&[-1.0, 10.0, 14.0], 7);
+        assert!((v - 34.0).abs() < 1e-12, "{v}");
+        assert_eq!(n, vec![0.0, 2.0, 1.0]);
+        // Per-vial prices (y k) give y Q, the per-vial bound's term.
+        let (v, _) = knapsack_max(&[2.5, 5.0, 7.5], 3);
+        assert!((v - 7.5).abs() < 1e-12);
+        // Nothing worth taking, or no room.
+        assert_eq!(knapsack_max(&[-1.0, -2.0], 5).0, 0.0);
+        assert_eq!(knapsack_max(&[4.0], 0).0, 0.0);
+    }
 
     #[test]
     fn one_block_is_valued_at_its_best_whole_number_of_vials() {
@@ -420,7 +648,18 @@ mod tests {
         let got = whole_vial_bound(&inst, &zero, 0.0, 0.0, 0).0;
         assert!((got - whole).abs() < 1e-9, "{got} vs {whole}");
         // Fractional vials reach the maximum: 800/90 vials, 400 + 0.5 × 400 − 800/270.
-        let fractional = fractional_max(&inst, 0, &[(90.0, 1.0 / 3.0, 0, u32::MAX)], 800.0);
+        let fractional = fractional_max(
+            &inst,
+            0,
+            &[SiteArc {
+                alive: 90.0,
+                per_vial: 1.0 / 3.0,
+                arc: 0,
+                room: u32::MAX,
+                sized: [None, None],
+            }],
+            800.0,
+        );
         assert!((fractional - (600.0 - 800.0 / 270.0)).abs() < 1e-9);
         assert!(got < fractional);
         // A price of 50 a vial on its supply row: Σ y b plus the site's best release at

@@ -280,25 +280,49 @@ impl<'a> Instance<'a> {
                 force,
             });
         }
-        // A request is served with exactly its standard vials on one arc, so one whose every
-        // arc would carry more than max_release_wasps that way can never count toward the
-        // share floor (e.g. 10,000 vials a request: the floor held every vial at home).
-        let servable = |s: &&SiteData| {
-            s.kind == SiteKind::Dooryard
-                && s.arcs.iter().any(|&a| {
-                    f64::from(policy.dooryard_vials_per_request) * usable[a].wasps_alive_per_vial
-                        <= agent.max_release_wasps * (1.0 + 1e-9)
-                })
+        // A request is served with exactly its standard vials on one arc, so only an arc
+        // that carries them within max_release_wasps and whose pack day, vehicle day or
+        // parcel day holds that many whole vials can count toward the share floor (e.g.
+        // 10,000 vials a request, or pack days of one vial: the floor held every vial at
+        // home).
+        let per_request = f64::from(policy.dooryard_vials_per_request);
+        let serving_arc = |a: usize| {
+            per_request * usable[a].wasps_alive_per_vial <= agent.max_release_wasps * (1.0 + 1e-9)
+                && arc_res[a]
+                    .iter()
+                    .all(|&r| per_request <= (res_rhs[r] + 1e-9).floor())
         };
+        let servable =
+            |s: &&SiteData| s.kind == SiteKind::Dooryard && s.arcs.iter().any(|&a| serving_arc(a));
         let has_door = sites.iter().any(|s| servable(&s));
         let share = if policy.dooryard_share_min > 0.0 {
             if has_door {
-                // The floor never makes vials stay home: when the reachable requests cannot
-                // absorb the share of the week's supply, it is lowered to what they can take
+                // The floor never makes vials stay home: when the requests cannot absorb the
+                // share of the week's supply, it is lowered to what they can take: the most
+                // requests the pack days serve at once (a matching, `absorb.rs`) × k vials
                 // (docs/model.md, "Dooryard share").
                 let share = policy.dooryard_share_min.min(1.0);
-                let requests = sites.iter().filter(servable).count() as f64;
-                let absorb = requests * f64::from(policy.dooryard_vials_per_request);
+                let request_days: Vec<Vec<usize>> = sites
+                    .iter()
+                    .filter(servable)
+                    .map(|s| {
+                        s.arcs
+                            .iter()
+                            .filter(|&&a| serving_arc(a))
+                            .map(|&a| arc_res[a][0])
+                            .collect()
+                    })
+                    .collect();
+                let per_day: Vec<u64> = resources
+                    .iter()
+                    .zip(&res_rhs)
+                    .map(|(r, &q)| match r {
+                        Resource::Supply(..) => ((q + 1e-9) / per_request).floor() as u64,
+                        _ => 0,
+                    })
+                    .collect();
+                let requests = super::absorb::most_requests_served(&request_days, &per_day) as f64;
+                let absorb = requests * per_request;
                 let supply: f64 = resources
                     .iter()
                     .zip(&res_rhs)

@@ -1,7 +1,7 @@
 //! The allocation: an LP relaxation over the candidate arcs (good_lp; clarabel backend, or
 //! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
 //! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`,
-//! whose steps are the files here: `instance.rs` (1), `master.rs` (2), `pricing.rs` (3),
+//! whose steps are the files here: `instance.rs` (1, with `absorb.rs`), `master.rs` (2), `pricing.rs` (3),
 //! `rounding.rs` (4), `bound.rs` (5), `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6);
 //! [`allocate`] runs them in order.
 
@@ -13,6 +13,7 @@ pub mod result;
 #[doc(hidden)]
 pub mod synthetic;
 
+mod absorb;
 mod bound;
 mod improve;
 mod instance;
@@ -54,7 +55,8 @@ pub struct AllocOptions {
     /// so the plan does not depend on machine speed.
     pub rounding_budget: u64,
     /// Most subgradient steps that tighten the whole-vial bound from the LP's duals (default
-    /// 40): a work limit; 0 keeps the bound at the LP duals.
+    /// 1,000; fewer on large weeks, down to 40, so the steps evaluate at most 50 million arcs
+    /// in all): a work limit; 0 keeps the bound at the LP duals.
     pub bound_steps: usize,
     /// Arcs (indices into `Arcs::arcs`) to put in the LP's first working set besides the
     /// usual choice, e.g. [`Allocation::working_set`] of an earlier solve of the same week.
@@ -73,7 +75,7 @@ impl Default for AllocOptions {
             pricing: true,
             direct_max_arcs: 4_500,
             rounding_budget: 20_000_000,
-            bound_steps: 40,
+            bound_steps: 1000,
             warm_start: BTreeSet::new(),
             solver: model::Solver::default(),
         }
@@ -217,6 +219,22 @@ fn objective_of(inst: &instance::Instance, scenario: &Scenario, shipments: &[Shi
         total += inst.site_value(sp, e[site.site], v[site.site]);
     }
     total
+}
+
+/// Arc evaluations the whole-vial bound's subgradient steps may spend in all (a work limit):
+/// small weeks get up to [`AllocOptions::bound_steps`] steps, the largest at least
+/// [`MIN_BOUND_STEPS`].
+const BOUND_ARC_EVALUATIONS: usize = 50_000_000;
+
+/// Fewest subgradient steps any week gets (unless `bound_steps` is smaller).
+const MIN_BOUND_STEPS: usize = 40;
+
+/// Subgradient steps for a week of `arcs` usable arcs: `BOUND_ARC_EVALUATIONS / arcs`, between
+/// `MIN_BOUND_STEPS` and `most`.
+fn bound_steps(most: usize, arcs: usize) -> usize {
+    (BOUND_ARC_EVALUATIONS / arcs.max(1))
+        .max(MIN_BOUND_STEPS)
+        .min(most)
 }
 
 /// Relative gap above which a second rounding starts from the Lagrangian releases.
@@ -384,24 +402,30 @@ pub fn allocate(
             .collect();
         let mut x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
         let lower = objective_of(&inst, scenario, &shipments_of(&inst, &x));
-        let (bound, guide) = bound::whole_vial_bound(
+        let (bound, guides) = bound::whole_vial_bound(
             &inst,
             &relax.res_dual,
             relax.share_dual,
             lower,
-            opts.bound_steps,
+            bound_steps(opts.bound_steps, inst.arcs.len()),
         );
         let bound = bound.min(sol.objective);
-        // A second rounding from the Lagrangian releases, kept when it is better: where the
-        // LP spreads vials that whole releases cannot split, it starts from whole releases.
-        if let Some(guide) = guide.filter(|_| gap(lower, bound) > GUIDE_GAP) {
+        // More roundings from the Lagrangian releases (at the LP's duals and at the best
+        // prices), the best kept: where the LP spreads vials that whole releases cannot
+        // split, they start from whole releases.
+        let mut lower = lower;
+        for guide in &guides {
+            if gap(lower, bound) <= GUIDE_GAP {
+                break;
+            }
             let cand2: Vec<bool> = (0..inst.sites.len())
                 .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| guide[a] > 0.0))
                 .collect();
-            let x2 = rounding::round(&inst, &guide, &cand2, opts.rounding_budget);
+            let x2 = rounding::round(&inst, guide, &cand2, opts.rounding_budget);
             let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
             if second > lower + 1e-9 * lower.abs().max(1.0) {
                 x = x2;
+                lower = second;
             }
         }
         working_set = relax.working_set.clone();
