@@ -33,9 +33,11 @@
 //!   two vehicles may swap or one route may move to an unused vehicle of another kind (one of
 //!   each distinct capacity, start and latest return is tried). One pass is O(n · k · L) for
 //!   route length L (O(n · k) for moves between routes, times the kinds tried on a failure).
-//! * `perturb.rs` — the perturbation: ruin a customer's neighbourhood (3–15 nearest), 1–3
-//!   strings of consecutive customers from different routes (string removal) or, one round in
-//!   ten, a whole route; then recreate greedily in one of four orders or by regret-2
+//! * `perturb.rs` — the perturbation: one round in ten first splits a route onto an unused
+//!   vehicle (the only step that adds a vehicle, since splitting never shortens drive by
+//!   itself); then ruin a customer's neighbourhood (3–15 nearest), 1–3 strings of
+//!   consecutive customers from different routes (string removal) or, one round in ten, a
+//!   whole route; then recreate greedily in one of four orders or by regret-2
 //!   insertion; routes may move to an unused vehicle of another kind, and one unused vehicle
 //!   of each kind is tried (after a whole-route ruin, only for customers no route can take).
 //! * `search.rs` — the driver: the best construction, then two independent searches with
@@ -128,13 +130,13 @@ pub struct SolveOptions {
 }
 
 impl Default for SolveOptions {
-    /// Seed 1, no time limit, 6,000 rounds, 12 neighbours, stop after 3,000 rounds without a
+    /// Seed 1, no time limit, 9,000 rounds, 12 neighbours, stop after 3,000 rounds without a
     /// new best (30 per customer when that is fewer).
     fn default() -> Self {
         SolveOptions {
             seed: 1,
             time_limit: None,
-            max_iterations: 6_000,
+            max_iterations: 9_000,
             neighbours: 12,
             stall_rounds: 3_000,
         }

@@ -38,10 +38,11 @@ impl State<'_> {
             let dist_new_a = d.drive(new_a);
             for k in [pv, pv + 1] {
                 for (s, reversed) in [(fwd, false), (rev, true)] {
-                    let new_b = d.cat_all(&[&b.pre[k], s, &b.suf[k]]);
-                    if !improves(dist_new_a + d.drive(&new_b) - base, emptied) {
+                    let parts = [&b.pre[k], s, &b.suf[k]];
+                    if !improves(dist_new_a + d.drive_cat(&parts) - base, emptied) {
                         continue;
                     }
+                    let new_b = d.cat_all(&parts);
                     let Some(who) = self.assign2(ru, new_a, rv, &new_b) else {
                         continue;
                     };
@@ -58,10 +59,11 @@ impl State<'_> {
         }
         // Exchange u and v.
         {
-            let new_a = d.cat_all(&[&a.pre[pu], &d.node_seg(v), &a.suf[pu + 1]]);
-            let new_b = d.cat_all(&[&b.pre[pv], &d.node_seg(u), &b.suf[pv + 1]]);
-            if improves(d.drive(&new_a) + d.drive(&new_b) - base, false)
-                && let Some(who) = self.assign2(ru, &new_a, rv, &new_b)
+            let (sv, su) = (d.node_seg(v), d.node_seg(u));
+            let parts_a = [&a.pre[pu], &sv, &a.suf[pu + 1]];
+            let parts_b = [&b.pre[pv], &su, &b.suf[pv + 1]];
+            if improves(d.drive_cat(&parts_a) + d.drive_cat(&parts_b) - base, false)
+                && let Some(who) = self.assign2(ru, &d.cat_all(&parts_a), rv, &d.cat_all(&parts_b))
             {
                 let mut an = a.nodes.clone();
                 let mut bn = b.nodes.clone();
@@ -73,12 +75,12 @@ impl State<'_> {
         // 2-opt*: a's head to u then v's tail, and v's head then u's tail; or a's head before
         // u then v onwards. Each new route keeps or changes vehicle through `assign2`.
         for (ka, kb) in [(pu + 1, pv), (pu, pv + 1)] {
-            let new_a = d.cat(&a.pre[ka], &b.suf[kb]);
-            let new_b = d.cat(&b.pre[kb], &a.suf[ka]);
-            let emptied = new_a.empty || new_b.empty;
-            if !improves(d.drive(&new_a) + d.drive(&new_b) - base, emptied) {
+            let (pa, pb) = ([&a.pre[ka], &b.suf[kb]], [&b.pre[kb], &a.suf[ka]]);
+            let emptied = (ka == 0 && kb == lb) || (kb == 0 && ka == la);
+            if !improves(d.drive_cat(&pa) + d.drive_cat(&pb) - base, emptied) {
                 continue;
             }
+            let (new_a, new_b) = (d.cat(pa[0], pa[1]), d.cat(pb[0], pb[1]));
             if let Some(who) = self.assign2(ru, &new_a, rv, &new_b) {
                 let mut an = a.nodes[..ka].to_vec();
                 an.extend_from_slice(&b.nodes[kb..]);

@@ -94,13 +94,12 @@ impl State<'_> {
             return None;
         }
         let u = a.nodes[pu];
-        let new_a = d.cat(&a.pre[pu], &a.suf[pu + 1]);
         let alone = d.node_seg(u);
-        if !d.fits(ru, &new_a)
-            || !improves(
-                d.drive(&new_a) + d.drive(&alone) - self.route_dist(ru),
-                false,
-            )
+        let parts = [&a.pre[pu], &a.suf[pu + 1]];
+        if !improves(
+            d.drive_cat(&parts) + d.drive(&alone) - self.route_dist(ru),
+            false,
+        ) || !d.fits(ru, &d.cat(parts[0], parts[1]))
         {
             return None;
         }

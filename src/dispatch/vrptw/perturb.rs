@@ -26,7 +26,10 @@
 //! vehicle of each kind.
 
 use super::segment::EPS;
-use super::state::State;
+use super::state::{Move, State};
+
+/// One round in this many first splits the centre's route onto an unused vehicle.
+const SPLIT_ONE_IN: usize = 10;
 
 /// One place for a customer: (added drive, route, position, vehicle that will drive it).
 type Place = (f64, usize, usize, usize);
@@ -44,6 +47,9 @@ impl State<'_> {
             .filter(|&r| !self.routes[r].nodes.is_empty())
             .collect();
         let whole_route = used.len() >= 2 && rng.usize(..10) == 0;
+        if !whole_route && rng.usize(..SPLIT_ONE_IN) == 0 {
+            self.split(centre, &mut changed);
+        }
         let removed = if whole_route {
             let (a, b) = (used[rng.usize(..used.len())], used[rng.usize(..used.len())]);
             let r = if self.routes[b].nodes.len() < self.routes[a].nodes.len() {
@@ -87,6 +93,35 @@ impl State<'_> {
             self.order_pending(&mut pending, order);
             self.recreate_greedy(pending, open, changed)
         }
+    }
+
+    /// Splits `centre`'s route before `centre`: the tail from `centre` on moves to an unused
+    /// vehicle that can drive it (one of each kind tried), when the head still fits its own.
+    pub(super) fn split(&mut self, centre: usize, changed: &mut [bool]) {
+        let d = self.data;
+        let Some((r, p)) = self.at[centre] else {
+            return;
+        };
+        if p == 0 {
+            return;
+        }
+        let route = &self.routes[r];
+        if !d.fits(r, &route.pre[p]) {
+            return;
+        }
+        let tail = route.suf[p];
+        let Some(w) = self
+            .empty_kinds(&[])
+            .into_iter()
+            .find(|&w| d.fits(w, &tail))
+        else {
+            return;
+        };
+        let head = route.nodes[..p].to_vec();
+        let tail = route.nodes[p..].to_vec();
+        changed[r] = true;
+        changed[w] = true;
+        self.apply(Move(vec![(r, head), (w, tail)]));
     }
 
     /// `centre` and its nearest served neighbours, `want` in all (fewer when it has fewer).

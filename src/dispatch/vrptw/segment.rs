@@ -192,6 +192,26 @@ impl<'a> Data<'a> {
         parts.iter().fold(Seg::EMPTY, |s, p| self.cat(&s, p))
     }
 
+    /// Drive minutes of `parts` concatenated, out of the depot and back, without the time
+    /// algebra of [`Data::cat`]: O(parts), the same sums in the same order as
+    /// `drive(&cat_all(parts))`, so a move can be priced before its windows are checked.
+    pub(super) fn drive_cat(&self, parts: &[&Seg]) -> f64 {
+        let mut acc: Option<(usize, usize, f64)> = None; // (first, last, dist)
+        for p in parts {
+            if p.empty {
+                continue;
+            }
+            acc = Some(match acc {
+                None => (p.first, p.last, p.dist),
+                Some((f, l, dist)) => (f, p.last, dist + p.dist + self.c(l, p.first)),
+            });
+        }
+        match acc {
+            None => 0.0,
+            Some((f, l, dist)) => self.c(0, f) + dist + self.c(l, 0),
+        }
+    }
+
     /// The depot as a one-visit segment open from `vehicle`'s departure to its end of shift.
     fn depot(&self, vehicle: usize) -> Seg {
         let v = &self.inst.vehicles[vehicle];

@@ -137,11 +137,11 @@ impl<'a> State<'a> {
         let before = self.route_dist(r);
         let mut best: Option<(f64, usize, usize)> = None;
         for k in 0..=route.nodes.len() {
-            let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);
-            let add = d.drive(&s) - before;
+            let add = d.drive_cat(&[&route.pre[k], &us, &route.suf[k]]) - before;
             if best.is_some_and(|(b, _, _)| add >= b - EPS) {
                 continue;
             }
+            let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);
             let v = if d.fits(r, &s) {
                 Some(r)
             } else {

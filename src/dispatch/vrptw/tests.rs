@@ -210,3 +210,78 @@ fn segment_concatenation_matches_forward_simulation() {
         assert_eq!(ok, s.tw <= FEAS_EPS, "{order:?}");
     }
 }
+
+#[test]
+fn drive_priced_without_windows_equals_drive_of_concatenation() {
+    // Moves are priced by `drive_cat` before their windows are checked; it must give exactly
+    // (bit for bit) the drive of the concatenated segment, or the search would change.
+    let inst = grid_instance(12, 9, 1, 100);
+    let d = Data::new(&inst, 3);
+    let mut rng = fastrand::Rng::with_seed(6);
+    for _ in 0..300 {
+        let mut order: Vec<usize> = (1..=12).collect();
+        rng.shuffle(&mut order);
+        let cut1 = rng.usize(0..=12);
+        let cut2 = rng.usize(cut1..=12);
+        let parts = [
+            d.seq(order[..cut1].iter().copied()),
+            d.seq(order[cut1..cut2].iter().copied()),
+            d.seq(order[cut2..].iter().copied()),
+        ];
+        let refs = [&parts[0], &parts[1], &parts[2]];
+        let whole = d.drive(&d.cat_all(&refs));
+        assert_eq!(d.drive_cat(&refs).to_bits(), whole.to_bits(), "{order:?}");
+    }
+}
+
+#[test]
+fn split_hands_the_tail_to_an_unused_vehicle() {
+    // Four stops on a line, ample windows: one route 1-2-3-4 on vehicle 0.
+    let stop = Customer {
+        demand_vials: 1,
+        service_minutes: 1.0,
+        earliest: 0.0,
+        latest: 500.0,
+        deadline: 500.0,
+    };
+    let pos = [0.0, 1.0, 2.0, 3.0, 4.0];
+    let inst = |vehicles: usize| Instance {
+        customers: vec![stop.clone(); 4],
+        minutes: pos
+            .iter()
+            .map(|a| pos.iter().map(|b| f64::abs(a - b)).collect())
+            .collect(),
+        vehicles: vec![
+            VehicleSpec {
+                capacity_vials: 10,
+                start: 0.0,
+                latest_return: 600.0,
+            };
+            vehicles
+        ],
+    };
+    let two = inst(2);
+    let d = Data::new(&two, 3);
+    let mut s = state::State::empty(&d);
+    s.insert(0, 0, 1, 0);
+    s.insert(0, 1, 2, 0);
+    s.insert(0, 2, 3, 0);
+    s.insert(0, 3, 4, 0);
+    let mut changed = vec![false; 2];
+    s.split(3, &mut changed);
+    assert_eq!(s.routes[0].nodes, vec![1, 2]);
+    assert_eq!(s.routes[1].nodes, vec![3, 4]);
+    assert_eq!(changed, vec![true, true]);
+    assert_eq!(s.at[3], Some((1, 0)));
+    // With no unused vehicle nothing changes.
+    let one = inst(1);
+    let d = Data::new(&one, 3);
+    let mut s = state::State::empty(&d);
+    for (k, u) in [1, 2, 3, 4].into_iter().enumerate() {
+        s.insert(0, k, u, 0);
+    }
+    let mut changed = vec![false];
+    s.split(3, &mut changed);
+    assert_eq!(s.routes[0].nodes, vec![1, 2, 3, 4]);
+    assert_eq!(changed, vec![false]);
+}
