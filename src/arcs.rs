@@ -763,7 +763,7 @@ mod tests {
             action: OverrideAction::Forbid,
         });
         // B5 sprayed the Friday before; 4-day window: eligible from Tuesday.
-        s.policy.pesticide_exclusion_days = 4;
+        s.policy.insecticide_exclusion_days = 4;
         let b5 = idx(&s, "B5");
         let arcs = build_arcs(&s, &TravelModel::new(&s));
         check_invariants(&s, &arcs);

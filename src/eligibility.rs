@@ -3,9 +3,9 @@
 //! Rules, in the order they are tested (the first that holds is the reason):
 //! 1. `Forbidden`: `overrides.csv` forbids the site.
 //! 2. Blocks: `NoFlush` when `policy.require_flush` is set and `flush` is none;
-//!    `InsecticideWindow` when `dispatch_date < last_insecticide + pesticide_exclusion_days`.
-//!    The last excluded day is `last_insecticide + pesticide_exclusion_days − 1`; the day
-//!    `last_insecticide + pesticide_exclusion_days` is the first eligible one (the lower end
+//!    `InsecticideWindow` when `dispatch_date < last_insecticide + insecticide_exclusion_days`.
+//!    The last excluded day is `last_insecticide + insecticide_exclusion_days − 1`; the day
+//!    `last_insecticide + insecticide_exclusion_days` is the first eligible one (the lower end
 //!    is inclusive on the excluded side, the upper end on the eligible side). An application
 //!    dated after the dispatch date also excludes it: the spray would kill the released wasps.
 //! 3. Requests: `NoHostPlant` when `host_plant` is none; `UsesInsecticide` when
@@ -128,7 +128,7 @@ pub(crate) fn reason_given(
             }
             if let Some(last) = b.last_insecticide {
                 let first_ok =
-                    last + chrono::Days::new(u64::from(scenario.policy.pesticide_exclusion_days));
+                    last + chrono::Days::new(u64::from(scenario.policy.insecticide_exclusion_days));
                 if dispatch_date < first_ok {
                     return Some(Reason::InsecticideWindow);
                 }
@@ -182,14 +182,14 @@ mod tests {
         let b5 = idx(&s, "B5");
         assert_eq!(week_reason(&s, b5), Some(Reason::InsecticideWindow));
         // Exclusion of 4 days: sprayed Fri 02-26, first eligible day Tue 03-02.
-        s.policy.pesticide_exclusion_days = 4;
+        s.policy.insecticide_exclusion_days = 4;
         let mon = s.week_start;
         let tue = mon + chrono::Days::new(1);
         assert_eq!(site_reason(&s, b5, mon), Some(Reason::InsecticideWindow));
         assert_eq!(site_reason(&s, b5, tue), None);
         assert_eq!(week_reason(&s, b5), None);
         // Zero days: no window at all, even on the application day.
-        s.policy.pesticide_exclusion_days = 0;
+        s.policy.insecticide_exclusion_days = 0;
         let sprayed = mon - chrono::Days::new(3);
         assert_eq!(site_reason(&s, b5, sprayed), None);
     }
@@ -199,9 +199,9 @@ mod tests {
         let mut s = tiny();
         let b5 = idx(&s, "B5");
         // Sprayed 02-26 + 10 days = first eligible 03-08, the Monday after the week.
-        s.policy.pesticide_exclusion_days = 10;
+        s.policy.insecticide_exclusion_days = 10;
         assert_eq!(week_reason(&s, b5), Some(Reason::InsecticideWindow));
-        s.policy.pesticide_exclusion_days = 9;
+        s.policy.insecticide_exclusion_days = 9;
         assert_eq!(week_reason(&s, b5), None);
         let sun = s.week_start + chrono::Days::new(6);
         assert_eq!(site_reason(&s, b5, sun), None);

@@ -660,7 +660,7 @@ fn why_not(h: &mut String, view: &PlanView, week: &Week) {
     let _ = writeln!(
         h,
         "</tbody></table><p class=\"small muted\">Insecticide window: no release within {} days after an application.</p></section>",
-        view.scenario.policy.pesticide_exclusion_days
+        view.scenario.policy.insecticide_exclusion_days
     );
 }
 

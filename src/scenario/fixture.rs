@@ -231,7 +231,7 @@ pub fn tiny() -> Scenario {
         policy: Policy {
             dooryard_share_min: 0.1,
             dooryard_vials_per_request: 2,
-            pesticide_exclusion_days: 21,
+            insecticide_exclusion_days: 21,
             require_flush: true,
             pressure_radius_km: 5.0,
             pressure_bandwidth_km: 2.0,

@@ -223,7 +223,7 @@ pub struct Policy {
     /// Vials a served request gets, exactly (≥ 1).
     pub dooryard_vials_per_request: u32,
     /// Days after an insecticide application during which a block may not get a release.
-    pub pesticide_exclusion_days: u32,
+    pub insecticide_exclusion_days: u32,
     /// Whether a block must be flushing (`flush` light or heavy) to be eligible.
     pub require_flush: bool,
     /// Scouting points farther than this from a site do not count, km (> 0).

@@ -450,7 +450,7 @@ pub(super) fn parse(file: &str, text: &str, sink: &mut Sink) -> Option<Config> {
             1,
             limits::MAX_VIALS_PER_REQUEST,
         ) as u32,
-        pesticide_exclusion_days: insecticide_exclusion_days(&p, sink),
+        insecticide_exclusion_days: insecticide_exclusion_days(&p, sink),
         require_flush: p.boolean(sink, "require_flush"),
         pressure_radius_km: p.number(
             sink,

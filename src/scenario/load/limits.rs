@@ -46,7 +46,7 @@ pub const MAX_MATRIX_IDS: usize = 5_000;
 /// overflow and every output date is plain `YYYY-MM-DD`.
 pub const WEEK_YEARS: std::ops::RangeInclusive<i32> = 1900..=2999;
 
-/// Longest interval in days (`policy.pesticide_exclusion_days`,
+/// Longest interval in days (`policy.insecticide_exclusion_days`,
 /// `policy.rerelease_interval_days`): ten years. Keeps `date + days` inside four-digit years.
 pub const MAX_INTERVAL_DAYS: u64 = 3660;
 
