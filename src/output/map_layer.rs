@@ -113,10 +113,11 @@ fn visible_runs(pts: &[(f64, f64)], w: f64, h: f64, margin: f64) -> Vec<Vec<(f64
 fn simplify(run: &[(f64, f64)]) -> Vec<(f64, f64)> {
     let mut out: Vec<(f64, f64)> = Vec::with_capacity(run.len());
     for (i, &p) in run.iter().enumerate() {
-        if let (Some(&a), Some(&c)) = (out.last(), run.get(i + 1)) {
-            if dist(a, c) > 0.0 && seg_dist(p, a, c) < 0.2 {
-                continue;
-            }
+        if let (Some(&a), Some(&c)) = (out.last(), run.get(i + 1))
+            && dist(a, c) > 0.0
+            && seg_dist(p, a, c) < 0.2
+        {
+            continue;
         }
         out.push(p);
     }
