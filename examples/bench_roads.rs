@@ -41,6 +41,7 @@ fn grid(side: usize) -> Vec<u8> {
                     lon: -60.0 + c as f64 * 0.002,
                     lat: -30.0 + r as f64 * 0.002,
                 },
+                tags: Vec::new(),
             });
         }
     }

@@ -45,14 +45,46 @@ const CLUSTER_GAP_M: f64 = 4_000.0;
 
 /// Invented town names (no real place intended).
 const TOWNS: &[&str] = &[
-    "Quillmere",
-    "Tarrow Springs",
-    "Vennick Hollow",
-    "Brindlecross",
-    "Orlowmere",
-    "Cassafrey",
-    "Dunmarrow",
-    "Yelverd",
+    "Ambleshade",
+    "Corrowick",
+    "Istrel Wells",
+    "Sallowfen",
+    "Mirrenhold",
+    "Oskavey",
+    "Veltharrow",
+    "Draskel Flats",
+];
+
+/// Invented hamlet names for the generated road network's `place=hamlet` nodes, one at each
+/// grove cluster (no real place intended).
+const HAMLETS: &[&str] = &[
+    "Ossel Well",
+    "Kettlebrand",
+    "Thimble Flats",
+    "Wrenna Cross",
+    "Halvenmoor",
+    "Cobbet End",
+];
+
+/// Invented names of the generated network's major roads running east–west, then
+/// north–south; they repeat every so many roads across a large region.
+const ROAD_NAMES: [&[&str]; 2] = [
+    &[
+        "Tamarind Road",
+        "Old Cattle Road",
+        "Canal Road",
+        "Escarpment Road",
+        "Millrace Road",
+        "Saltbush Road",
+    ],
+    &[
+        "Pumphouse Road",
+        "Quarry Road",
+        "Red Earth Road",
+        "Windmill Road",
+        "Limekiln Road",
+        "Weaver Road",
+    ],
 ];
 
 /// Kinds of facility; a facility's invented name is a town name and one of these.
@@ -60,17 +92,17 @@ const FACILITY_KINDS: &[&str] = &["Rearing Station", "Insectary", "Field Depot"]
 
 /// Invented street names for dooryard addresses.
 const STREETS: &[&str] = &[
-    "Heron",
-    "Sandpine",
+    "Kestrel",
+    "Neem",
     "Kumquat",
-    "Saw Palm",
-    "Bluejay",
-    "Cypress Knee",
+    "Dry Wash",
+    "Weaver Bird",
+    "Mulberry",
     "Marl Pit",
     "Lemonwood",
-    "Tupelo",
-    "Gator Hole",
-    "Sunfish",
+    "Tamarind",
+    "Well House",
+    "Hoopoe",
     "Old Packinghouse",
 ];
 
@@ -104,8 +136,8 @@ pub struct GenParams {
     pub region: String,
     /// Monday that starts the week (`week_start`).
     pub week_start: NaiveDate,
-    /// Centre of the region (degrees). Keep it within about 20°–32° N: the layout's
-    /// degree-to-metre factors assume the subtropics.
+    /// Centre of the region (degrees). Keep it within about 20°–32° N: the road grid's
+    /// spacing in degrees ([`ROAD_SPACING_DEG`]) assumes the subtropics.
     pub center: LonLat,
     /// Grove blocks (`blocks.geojson` features).
     pub blocks: usize,
@@ -132,18 +164,19 @@ pub struct GenParams {
 }
 
 impl GenParams {
-    /// The demo week: Pellwether County (invented), week of Monday 2027-03-01, 300 blocks in
+    /// The demo week: the Kelvarro Plateau (invented; inland, at about 24° N, 80° E, a warm
+    /// dry-season week), week of Monday 2027-03-01, 300 blocks in
     /// 5 clusters, 200 requests in 4 towns, 500 scouting points around 3 hot spots, 3
     /// facilities, 7 vehicles; 614 vials packed (about 119,000 wasps) against an eligible-looking
     /// demand of about 300,000 wasps at the target release size.
     pub fn demo() -> Self {
         GenParams {
             seed: 20_270_301,
-            region: "Pellwether County".into(),
+            region: "Kelvarro Plateau".into(),
             week_start: NaiveDate::from_ymd_opt(2027, 3, 1).expect("2027-03-01 is a valid date"),
             center: LonLat {
-                lon: -81.42,
-                lat: 27.28,
+                lon: 79.66,
+                lat: 24.31,
             },
             blocks: 300,
             clusters: 5,
@@ -239,7 +272,17 @@ pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
             .chain(block_centres)
             .chain(towns.iter().map(|t| t.1))
             .collect();
-        files.push((ROADS_FILE.into(), road_grid(&places)));
+        let named: Vec<(&str, &str, LonLat)> = towns
+            .iter()
+            .map(|(name, at)| ("town", name.as_str(), *at))
+            .chain(
+                clusters
+                    .iter()
+                    .zip(HAMLETS.iter().cycle())
+                    .map(|(c, name)| ("hamlet", *name, c.centre)),
+            )
+            .collect();
+        files.push((ROADS_FILE.into(), road_grid(&places, &named)));
     }
     files
 }
@@ -247,17 +290,19 @@ pub fn generate(p: &GenParams) -> Vec<(String, Vec<u8>)> {
 /// Name of the generated road network in the scenario folder.
 pub const ROADS_FILE: &str = "roads.osm.pbf";
 
-/// Spacing of the generated road grid, degrees (about 890 m north–south, 790 m east–west at
-/// 27° N): no point of the grid's area is more than about 400 m from a road, under the
+/// Spacing of the generated road grid, degrees (about 890 m north–south, 810 m east–west at
+/// 24° N): no point of the grid's area is more than about 400 m from a road, under the
 /// snapping warning distance.
 pub const ROAD_SPACING_DEG: f64 = 0.008;
 
 /// An invented road network as an OpenStreetMap extract: a grid of straight roads
 /// [`ROAD_SPACING_DEG`] apart over the bounding box of `places` widened by 0.05° (about 5 km,
 /// where dooryard requests scatter around their town centres), one way per road; every fifth
-/// road `highway=secondary`, the rest `highway=unclassified`. No randomness: the other files'
-/// bytes do not depend on it.
-pub fn road_grid(places: &[LonLat]) -> Vec<u8> {
+/// road `highway=secondary` with an invented `name` (from a fixed list, by its grid line),
+/// the rest `highway=unclassified`; then one node per entry of `named`, `(place kind, name,
+/// position)`, tagged `place` and `name` so that maps can label settlements. No randomness:
+/// the other files' bytes do not depend on it.
+pub fn road_grid(places: &[LonLat], named: &[(&str, &str, LonLat)]) -> Vec<u8> {
     use crate::roads::write::{OsmNode, OsmWay, write_pbf};
     let pad = 0.05;
     let (mut w, mut e, mut s, mut n) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
@@ -279,29 +324,47 @@ pub fn road_grid(places: &[LonLat]) -> Vec<u8> {
                     lon: c as f64 * ROAD_SPACING_DEG,
                     lat: r as f64 * ROAD_SPACING_DEG,
                 },
+                tags: Vec::new(),
             });
         }
     }
-    let class = |k: i64| {
+    let last_id = id(r1, c1);
+    for (i, (kind, name, at)) in named.iter().enumerate() {
+        nodes.push(OsmNode {
+            id: last_id + 1 + i as i64,
+            at: *at,
+            tags: vec![
+                ("place".into(), (*kind).into()),
+                ("name".into(), (*name).into()),
+            ],
+        });
+    }
+    // `axis` 0: a road along grid row k (east–west), 1: along column k (north–south).
+    let tags = |axis: usize, k: i64| -> Vec<(String, String)> {
         if k % 5 == 0 {
-            "secondary"
+            let names = ROAD_NAMES[axis];
+            let name = names[(k / 5).rem_euclid(names.len() as i64) as usize];
+            vec![
+                ("highway".into(), "secondary".into()),
+                ("name".into(), name.into()),
+            ]
         } else {
-            "unclassified"
+            vec![("highway".into(), "unclassified".into())]
         }
     };
     let mut ways = Vec::new();
     for r in r0..=r1 {
-        ways.push((class(r), (c0..=c1).map(|c| id(r, c)).collect()));
+        ways.push((tags(0, r), (c0..=c1).map(|c| id(r, c)).collect()));
     }
     for c in c0..=c1 {
-        ways.push((class(c), (r0..=r1).map(|r| id(r, c)).collect()));
+        ways.push((tags(1, c), (r0..=r1).map(|r| id(r, c)).collect()));
     }
     let ways: Vec<OsmWay> = ways
         .into_iter()
         .enumerate()
-        .map(|(i, (class, refs))| OsmWay {
+        .map(|(i, (tags, refs))| OsmWay {
             id: i as i64 + 1,
-            tags: vec![("highway".into(), class.into())],
+            tags,
             refs,
         })
         .collect();

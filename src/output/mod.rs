@@ -23,6 +23,7 @@ mod geojson;
 mod gpx;
 mod labels;
 mod manifest;
+mod map_layer;
 mod report;
 mod route_sheets;
 mod summary;

@@ -19,6 +19,7 @@ use std::fmt::Write;
 
 use chrono::{NaiveDate, NaiveDateTime};
 
+use super::map_layer::{self, LEGEND_H, Occupied};
 use super::svg::{Frame, f1};
 use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed, hhmm};
 use crate::dispatch::Route;
@@ -370,13 +371,15 @@ fn route_map(
         pts.iter().copied().chain(std::iter::once(depot)).collect()
     };
     let map_h = map_height(r.stops.len());
+    // The data fill the canvas above the legend strip.
+    let data_h = map_h - LEGEND_H;
     let mut extent = pts.clone();
     extent.extend_from_slice(&drive);
-    let whole = Frame::fit(&extent, MAP_W, map_h, 34.0, 1.0);
+    let whole = Frame::fit(&extent, MAP_W, data_h, 34.0, 1.0);
     // A cluster of stops far from the depot would be a knot at one end of a long line: then
     // the map shows the stops (and the path among them) only, and the depot sits on the map's
     // edge in its direction with its distance.
-    let near = Frame::fit(&pts[1..], MAP_W, map_h, 34.0, 1.0);
+    let near = Frame::fit(&pts[1..], MAP_W, data_h, 34.0, 1.0);
     let zoomed = pts.len() > 2 && near.px_per_km() > ZOOM_FACTOR * whole.px_per_km();
     let frame = if zoomed { near } else { whole };
     let mut s = String::new();
@@ -391,6 +394,53 @@ fn route_map(
     let px: Vec<(f64, f64)> = drive.iter().map(|p| frame.px(*p)).collect();
     let stop_px: Vec<(f64, f64)> = pts[1..].iter().map(|p| frame.px(*p)).collect();
     let home = stop_px.last().map_or(px.len() - 1, |&l| home_start(&px, l));
+    let (mut dx, mut dy) = frame.px(depot);
+    let mut depot_label = esc(depot_id);
+    if zoomed {
+        // Onto the edge, along the line from the map's centre to the depot.
+        let (cx, cy) = (MAP_W / 2.0, data_h / 2.0);
+        let (vx, vy) = (dx - cx, dy - cy);
+        let t = ((cx - 14.0) / vx.abs().max(1e-9))
+            .min((cy - 14.0) / vy.abs().max(1e-9))
+            .min(1.0);
+        (dx, dy) = (cx + vx * t, cy + vy * t);
+        let centre = LonLat {
+            lon: pts[1..].iter().map(|p| p.lon).sum::<f64>() / (pts.len() - 1) as f64,
+            lat: pts[1..].iter().map(|p| p.lat).sum::<f64>() / (pts.len() - 1) as f64,
+        };
+        depot_label = format!(
+            "{depot_label} off map, {} km",
+            fixed(crate::geodesy::distance_m(centre, depot) / 1000.0, 1)
+        );
+    }
+    let right = dx > MAP_W - 130.0;
+    let labels = label_layout(&stop_px, (dx, dy), MAP_W, data_h);
+    // Roads and place names under everything else; names keep clear of the route's marks.
+    let roads = sc.travel.road_network.as_ref().map(|net| {
+        let mut occ = Occupied::default();
+        for &p in &stop_px {
+            occ.circle(p, 4.0);
+        }
+        for &l in &labels {
+            occ.circle(l, LABEL_R + 1.0);
+        }
+        occ.rect([dx - 10.0, dy - 10.0, dx + 10.0, dy + 10.0]);
+        let lw = depot_label.chars().count() as f64 * 6.5;
+        occ.rect(if right {
+            [dx - 11.0 - lw, dy - 8.0, dx - 11.0, dy + 6.0]
+        } else {
+            [dx + 11.0, dy - 8.0, dx + 11.0 + lw, dy + 6.0]
+        });
+        // The north arrow and the scale bar (as `Frame::furniture` draws them).
+        occ.rect([MAP_W - 36.0, 0.0, MAP_W, 56.0]);
+        occ.rect([0.0, data_h - 32.0, MAP_W * 0.25 + 72.0, data_h]);
+        occ.line(px.clone());
+        map_layer::layer(&net.graph, &frame, MAP_W, data_h, &mut occ)
+    });
+    if let Some((roads_svg, names)) = &roads {
+        s.push_str(roads_svg);
+        s.push_str(names);
+    }
     let _ = write!(
         s,
         "<polyline class=\"path\" points=\"{}\" fill=\"none\" stroke=\"#1f4e9c\" stroke-width=\"2.2\" stroke-linejoin=\"round\"/>",
@@ -451,26 +501,6 @@ fn route_map(
             }
         }
     }
-    let (mut dx, mut dy) = frame.px(depot);
-    let mut depot_label = esc(depot_id);
-    if zoomed {
-        // Onto the edge, along the line from the map's centre to the depot.
-        let (cx, cy) = (MAP_W / 2.0, map_h / 2.0);
-        let (vx, vy) = (dx - cx, dy - cy);
-        let t = ((cx - 14.0) / vx.abs().max(1e-9))
-            .min((cy - 14.0) / vy.abs().max(1e-9))
-            .min(1.0);
-        (dx, dy) = (cx + vx * t, cy + vy * t);
-        let centre = LonLat {
-            lon: pts[1..].iter().map(|p| p.lon).sum::<f64>() / (pts.len() - 1) as f64,
-            lat: pts[1..].iter().map(|p| p.lat).sum::<f64>() / (pts.len() - 1) as f64,
-        };
-        depot_label = format!(
-            "{depot_label} off map, {} km",
-            fixed(crate::geodesy::distance_m(centre, depot) / 1000.0, 1)
-        );
-    }
-    let right = dx > MAP_W - 130.0;
     let _ = write!(
         s,
         "<rect x=\"{}\" y=\"{}\" width=\"16\" height=\"16\" fill=\"#000\"/><text x=\"{}\" y=\"{}\" fill=\"#fff\" font-size=\"11\" font-weight=\"bold\" text-anchor=\"middle\">D</text><text class=\"depot\" x=\"{}\" y=\"{}\" font-size=\"10\" font-weight=\"bold\" stroke=\"#fff\" stroke-width=\"3\" paint-order=\"stroke\"{}>{}</text>",
@@ -483,7 +513,6 @@ fn route_map(
         if right { " text-anchor=\"end\"" } else { "" },
         depot_label
     );
-    let labels = label_layout(&stop_px, (dx, dy), MAP_W, map_h);
     for (&(x, y), _) in stop_px.iter().zip(&labels) {
         let _ = write!(
             s,
@@ -518,6 +547,7 @@ fn route_map(
         );
     }
     s.push_str(&frame.furniture());
+    s.push_str(&map_layer::legend(MAP_W, data_h, roads.is_some()));
     s.push_str("</svg>\n");
     Ok(s)
 }

@@ -16,12 +16,14 @@ use std::io::{self, Read, Write};
 use std::path::{Path, PathBuf};
 
 use super::graph::{RoadGraph, Segment};
+use super::layer::{MapLayer, MapPlace, MapRoad};
 
 /// First bytes of every cache file.
 pub const MAGIC: &[u8; 16] = b"broodcast-roads\n";
 
 /// Format version; a change of layout or of the graph rules (classes, speeds) bumps it.
-const VERSION: u32 = 1;
+/// Version 2 added the map layer (roads with names, places).
+const VERSION: u32 = 2;
 
 /// Cache key of an extract: (FNV-1a 64 hash, length in bytes).
 pub fn key(bytes: &[u8]) -> (u64, u64) {
@@ -62,6 +64,26 @@ pub fn encode(graph: &RoadGraph, key: (u64, u64)) -> Vec<u8> {
         out.extend_from_slice(&s.minutes.to_le_bytes());
         out.push(u8::from(s.forward) | (u8::from(s.backward) << 1));
     }
+    let text = |out: &mut Vec<u8>, t: &str| {
+        out.extend_from_slice(&(t.len() as u64).to_le_bytes());
+        out.extend_from_slice(t.as_bytes());
+    };
+    out.extend_from_slice(&(graph.layer.roads.len() as u64).to_le_bytes());
+    for r in &graph.layer.roads {
+        out.push(u8::from(r.major));
+        text(&mut out, &r.name);
+        out.extend_from_slice(&(r.nodes.len() as u64).to_le_bytes());
+        for v in &r.nodes {
+            out.extend_from_slice(&v.to_le_bytes());
+        }
+    }
+    out.extend_from_slice(&(graph.layer.places.len() as u64).to_le_bytes());
+    for p in &graph.layer.places {
+        out.push(p.rank);
+        text(&mut out, &p.name);
+        out.extend_from_slice(&p.at.lon.to_le_bytes());
+        out.extend_from_slice(&p.at.lat.to_le_bytes());
+    }
     let sum = fnv(&out);
     out.extend_from_slice(&sum.to_le_bytes());
     out
@@ -84,6 +106,17 @@ impl Reader<'_> {
     fn u32(&mut self) -> Option<u32> {
         self.take().map(u32::from_le_bytes)
     }
+    /// A count of items of at least `min_bytes` each, if the rest of the file can hold them.
+    fn count(&mut self, min_bytes: usize) -> Option<usize> {
+        let n = usize::try_from(self.u64()?).ok()?;
+        (n.checked_mul(min_bytes)? <= self.0.len()).then_some(n)
+    }
+    fn text(&mut self) -> Option<String> {
+        let n = self.count(1)?;
+        let (head, rest) = self.0.split_at(n);
+        self.0 = rest;
+        String::from_utf8(head.to_vec()).ok()
+    }
 }
 
 /// Reads a cache file's bytes; `None` unless every check passes (magic, version, key,
@@ -100,7 +133,7 @@ pub fn decode(bytes: &[u8], key: (u64, u64)) -> Option<RoadGraph> {
     let n = usize::try_from(r.u64()?).ok()?;
     let m = usize::try_from(r.u64()?).ok()?;
     let fastest = r.f64()?;
-    if r.0.len() != n.checked_mul(24)?.checked_add(m.checked_mul(17)?)? || n > u32::MAX as usize {
+    if r.0.len() < n.checked_mul(24)?.checked_add(m.checked_mul(17)?)? || n > u32::MAX as usize {
         return None;
     }
     let (mut lon, mut lat, mut id) = (
@@ -131,10 +164,44 @@ pub fn decode(bytes: &[u8], key: (u64, u64)) -> Option<RoadGraph> {
             backward,
         });
     }
+    let mut roads = Vec::new();
+    for _ in 0..r.count(17)? {
+        let [major] = r.take::<1>()?;
+        let name = r.text()?;
+        let k = r.count(4)?;
+        let nodes = (0..k).map(|_| r.u32()).collect::<Option<Vec<u32>>>()?;
+        if major > 1 || k < 2 || nodes.iter().any(|&v| v as usize >= n) {
+            return None;
+        }
+        roads.push(MapRoad {
+            major: major == 1,
+            name,
+            nodes,
+        });
+    }
+    let mut places = Vec::new();
+    for _ in 0..r.count(25)? {
+        let [rank] = r.take::<1>()?;
+        let name = r.text()?;
+        let at = crate::scenario::LonLat {
+            lon: r.f64()?,
+            lat: r.f64()?,
+        };
+        if usize::from(rank) >= super::layer::PLACE_KINDS.len() {
+            return None;
+        }
+        places.push(MapPlace { name, rank, at });
+    }
     let coords_ok = lon.iter().all(|x| (-180.0..=180.0).contains(x))
-        && lat.iter().all(|y| (-90.0..=90.0).contains(y));
-    (coords_ok && fastest.is_finite() && fastest > 0.0 && m > 0)
-        .then(|| RoadGraph::new(lon, lat, id, segments, fastest))
+        && lat.iter().all(|y| (-90.0..=90.0).contains(y))
+        && places
+            .iter()
+            .all(|p| (-180.0..=180.0).contains(&p.at.lon) && (-90.0..=90.0).contains(&p.at.lat));
+    (r.0.is_empty() && coords_ok && fastest.is_finite() && fastest > 0.0 && m > 0).then(|| {
+        let mut graph = RoadGraph::new(lon, lat, id, segments, fastest);
+        graph.layer = MapLayer { roads, places };
+        graph
+    })
 }
 
 /// The cached graph for `key` in `dir`, if a valid one is there.

@@ -155,6 +155,8 @@ pub struct RoadGraph {
     pub forward: Csr,
     /// Arcs reversed (head = where the arc starts), for searches towards a place.
     pub backward: Csr,
+    /// Roads and named places for maps (empty unless read from an extract or its cache).
+    pub layer: super::layer::MapLayer,
 }
 
 impl PartialEq for RoadGraph {
@@ -164,6 +166,7 @@ impl PartialEq for RoadGraph {
             && self.osm_id == o.osm_id
             && self.segments == o.segments
             && self.fastest_kmh == o.fastest_kmh
+            && self.layer == o.layer
     }
 }
 
@@ -193,6 +196,7 @@ impl RoadGraph {
             fastest_kmh,
             forward,
             backward,
+            layer: Default::default(),
         }
     }
 

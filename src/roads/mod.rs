@@ -14,6 +14,7 @@
 
 pub mod cache;
 pub mod graph;
+pub mod layer;
 pub mod paths;
 pub mod read;
 pub mod snap;
@@ -347,6 +348,7 @@ mod tests {
             .map(|i| OsmNode {
                 id: i,
                 at: at(0.01 * i as f64, 10.0),
+                tags: Vec::new(),
             })
             .collect();
         write_pbf(
@@ -390,10 +392,12 @@ mod tests {
                 OsmNode {
                     id: 1,
                     at: at(0.0, 0.0),
+                    tags: Vec::new(),
                 },
                 OsmNode {
                     id: 2,
                     at: at(0.0, 0.01),
+                    tags: Vec::new(),
                 },
             ],
             &[way(1, &[("highway", "footway")], &[1, 2])],

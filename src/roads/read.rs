@@ -1,9 +1,11 @@
 //! Reads an OpenStreetMap PBF extract into a [`RoadGraph`] (two passes over the bytes: the
-//! drivable ways, then the coordinates of the nodes they use).
+//! drivable ways, then the coordinates of the nodes they use and the named places), with the
+//! [`MapLayer`] the route-sheet maps draw.
 
 use osmpbf::{Element, ElementReader};
 
 use super::graph::{RoadGraph, Segment, class_speed_kmh, directions, parse_maxspeed};
+use super::layer::{MapLayer, MapPlace, MapRoad, is_major, place_rank};
 use crate::geodesy;
 use crate::scenario::LonLat;
 
@@ -29,6 +31,8 @@ struct Way {
     kmh: f64,
     forward: bool,
     backward: bool,
+    major: bool,
+    name: String,
 }
 
 /// Parses `bytes` (a whole `.osm.pbf` file). Deterministic: the graph depends only on the bytes.
@@ -40,12 +44,15 @@ pub fn parse(bytes: &[u8]) -> Result<RoadGraph, ReadError> {
             if let Element::Way(w) = e {
                 let (mut hw, mut ms, mut ow, mut junction, mut denied) =
                     (None, None, None, None, false);
+                let (mut name, mut reference) = (None, None);
                 for (k, v) in w.tags() {
                     match k {
                         "highway" => hw = Some(v),
                         "maxspeed" => ms = Some(v),
                         "oneway" => ow = Some(v),
                         "junction" => junction = Some(v),
+                        "name" => name = Some(v),
+                        "ref" => reference = Some(v),
                         "access" | "motor_vehicle" | "motorcar" if v == "no" => denied = true,
                         _ => {}
                     }
@@ -62,6 +69,8 @@ pub fn parse(bytes: &[u8]) -> Result<RoadGraph, ReadError> {
                     kmh: ms.and_then(parse_maxspeed).unwrap_or(default),
                     forward,
                     backward,
+                    major: is_major(hw),
+                    name: name.or(reference).unwrap_or_default().to_string(),
                 });
             }
         })
@@ -77,10 +86,35 @@ pub fn parse(bytes: &[u8]) -> Result<RoadGraph, ReadError> {
             lat[i] = y;
         }
     };
+    let mut places = Vec::new();
+    let mut place = |tags: &mut dyn Iterator<Item = (&str, &str)>, x: f64, y: f64| {
+        let (mut rank, mut name) = (None, None);
+        for (k, v) in tags {
+            match k {
+                "place" => rank = place_rank(v),
+                "name" => name = Some(v),
+                _ => {}
+            }
+        }
+        let ok = x.is_finite() && y.is_finite() && (-180.0..=180.0).contains(&x);
+        if let (Some(rank), Some(name), true) = (rank, name, ok && (-90.0..=90.0).contains(&y)) {
+            places.push(MapPlace {
+                name: name.to_string(),
+                rank,
+                at: LonLat { lon: x, lat: y },
+            });
+        }
+    };
     ElementReader::new(bytes)
         .for_each(|e| match e {
-            Element::Node(n) => put(n.id(), n.lon(), n.lat()),
-            Element::DenseNode(n) => put(n.id(), n.lon(), n.lat()),
+            Element::Node(n) => {
+                put(n.id(), n.lon(), n.lat());
+                place(&mut n.tags(), n.lon(), n.lat());
+            }
+            Element::DenseNode(n) => {
+                put(n.id(), n.lon(), n.lat());
+                place(&mut n.tags(), n.lon(), n.lat());
+            }
             _ => {}
         })
         .map_err(err)?;
@@ -139,5 +173,28 @@ pub fn parse(bytes: &[u8]) -> Result<RoadGraph, ReadError> {
     if segments.is_empty() {
         return Err(ReadError::NoRoads);
     }
-    Ok(RoadGraph::new(nlon, nlat, nid, segments, fastest))
+    // The map's roads: each way split into runs of nodes the extract holds.
+    let mut roads = Vec::new();
+    for w in &ways {
+        let mut run: Vec<u32> = Vec::new();
+        for r in w.refs.iter().map(|&r| node(r)).chain(std::iter::once(None)) {
+            match r {
+                Some(v) if run.last() != Some(&v) => run.push(v),
+                Some(_) => {}
+                None => {
+                    if run.len() >= 2 {
+                        roads.push(MapRoad {
+                            major: w.major,
+                            name: w.name.clone(),
+                            nodes: std::mem::take(&mut run),
+                        });
+                    }
+                    run.clear();
+                }
+            }
+        }
+    }
+    let mut graph = RoadGraph::new(nlon, nlat, nid, segments, fastest);
+    graph.layer = MapLayer { roads, places };
+    Ok(graph)
 }

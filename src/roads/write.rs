@@ -16,6 +16,8 @@ pub struct OsmNode {
     pub id: i64,
     /// Position (stored to 1e-7 degree).
     pub at: LonLat,
+    /// Tags, (key, value); empty for a plain way node.
+    pub tags: Vec<(String, String)>,
 }
 
 /// A way to write.
@@ -90,6 +92,17 @@ fn packed(out: &mut Vec<u8>, field: u32, values: impl Iterator<Item = u64>) {
     bytes_field(out, field, &p);
 }
 
+/// Index of `s` in a block's string table, added at the end if new.
+fn index<'s>(s: &'s str, strings: &mut Vec<&'s str>) -> u64 {
+    match strings.iter().position(|x| *x == s) {
+        Some(i) => i as u64,
+        None => {
+            strings.push(s);
+            (strings.len() - 1) as u64
+        }
+    }
+}
+
 /// Encodes `nodes` and `ways` as a `.osm.pbf` file.
 pub fn write_pbf(nodes: &[OsmNode], ways: &[OsmWay]) -> Vec<u8> {
     let mut out = Vec::new();
@@ -98,36 +111,30 @@ pub fn write_pbf(nodes: &[OsmNode], ways: &[OsmWay]) -> Vec<u8> {
     bytes_field(&mut header, 16, b"broodcast");
     blob(&mut out, "OSMHeader", &header);
     for chunk in nodes.chunks(BLOCK_ELEMENTS) {
+        let mut strings: Vec<&str> = vec![""];
         let mut group = Vec::new();
         for n in chunk {
             let mut m = Vec::new();
             key(&mut m, 1, 0);
             varint(&mut m, zigzag(n.id));
+            if !n.tags.is_empty() {
+                let keys: Vec<u64> = n.tags.iter().map(|(k, _)| index(k, &mut strings)).collect();
+                let vals: Vec<u64> = n.tags.iter().map(|(_, v)| index(v, &mut strings)).collect();
+                packed(&mut m, 2, keys.into_iter());
+                packed(&mut m, 3, vals.into_iter());
+            }
             key(&mut m, 8, 0);
             varint(&mut m, zigzag((n.at.lat * 1e7).round() as i64));
             key(&mut m, 9, 0);
             varint(&mut m, zigzag((n.at.lon * 1e7).round() as i64));
             bytes_field(&mut group, 1, &m);
         }
-        // One group holds all the block's nodes: rebuild as a PrimitiveGroup of nodes.
-        let mut st = Vec::new();
-        bytes_field(&mut st, 1, b"");
-        let mut data = Vec::new();
-        bytes_field(&mut data, 1, &st);
-        bytes_field(&mut data, 2, &group);
+        // One PrimitiveGroup holds all the block's nodes.
+        let data = block(&strings, 2, &group);
         blob(&mut out, "OSMData", &data);
     }
     for chunk in ways.chunks(BLOCK_ELEMENTS) {
         let mut strings: Vec<&str> = vec![""];
-        fn index<'s>(s: &'s str, strings: &mut Vec<&'s str>) -> u64 {
-            match strings.iter().position(|x| *x == s) {
-                Some(i) => i as u64,
-                None => {
-                    strings.push(s);
-                    (strings.len() - 1) as u64
-                }
-            }
-        }
         let mut group = Vec::new();
         let mut pending: Vec<Vec<u8>> = Vec::new();
         for w in chunk {

@@ -32,6 +32,7 @@ fn grid(
                 nodes.push(OsmNode {
                     id: id(c, r),
                     at: p,
+                    tags: Vec::new(),
                 });
             }
         }
@@ -289,6 +290,7 @@ fn a_site_on_a_road_island_is_out_of_reach_not_a_crash() {
         nodes.push(OsmNode {
             id: 900_000 + i as i64,
             at: LonLat { lon, lat },
+            tags: Vec::new(),
         });
     }
     ways.push(OsmWay {
@@ -428,6 +430,123 @@ fn the_demo_plans_on_its_own_roads_with_every_place_near_one() {
         })
         .count();
     assert_eq!(reached, s.sites.len());
+}
+
+/// The demo extract's map layer: named major roads, unnamed minor ones, its towns and
+/// hamlets as places; the cache keeps all of it (a graph compares equal only with its layer).
+#[test]
+fn the_demo_extract_carries_road_names_and_places_through_the_cache() {
+    let bytes = broodcast::demo::file("roads.osm.pbf").unwrap();
+    let g = broodcast::roads::read::parse(bytes).unwrap();
+    let layer = &g.layer;
+    let major: Vec<_> = layer.roads.iter().filter(|r| r.major).collect();
+    assert!(!major.is_empty() && major.iter().all(|r| r.name.ends_with(" Road")));
+    assert!(
+        layer
+            .roads
+            .iter()
+            .filter(|r| !r.major)
+            .all(|r| r.name.is_empty())
+    );
+    assert!(layer.roads.iter().all(|r| r.nodes.len() >= 2));
+    // Major exactly on every fifth grid line (east–west roads keep their latitude).
+    for r in &layer.roads {
+        let (a, b) = (r.nodes[0] as usize, r.nodes[1] as usize);
+        let fixed = if g.lat[a] == g.lat[b] {
+            g.lat[a]
+        } else {
+            g.lon[a]
+        };
+        let k = (fixed / broodcast::generate::ROAD_SPACING_DEG).round() as i64;
+        assert_eq!(r.major, k % 5 == 0, "grid line {k}");
+    }
+    let towns = broodcast::scenario::load_embedded_demo()
+        .unwrap()
+        .sites
+        .iter()
+        .filter_map(|s| match &s.detail {
+            broodcast::scenario::SiteDetail::Dooryard(r) => {
+                r.address.rsplit(", ").next().map(String::from)
+            }
+            _ => None,
+        })
+        .collect::<std::collections::BTreeSet<_>>();
+    let place_names: std::collections::BTreeSet<String> =
+        layer.places.iter().map(|p| p.name.clone()).collect();
+    assert_eq!(towns.len(), 4, "{towns:?}");
+    assert!(towns.is_subset(&place_names), "{towns:?} {place_names:?}");
+    assert_eq!(
+        layer.places.len(),
+        4 + 5,
+        "4 towns and a hamlet per grove cluster"
+    );
+    let key = broodcast::roads::cache::key(bytes);
+    let back = broodcast::roads::cache::decode(&broodcast::roads::cache::encode(&g, key), key);
+    assert!(
+        back.as_ref() == Some(&g),
+        "the cache drops or changes the layer"
+    );
+}
+
+/// Pulls `name="value"` out of an SVG element's text.
+fn attr(el: &str, name: &str) -> f64 {
+    let key = format!(" {name}=\"");
+    let at = el.find(&key).unwrap_or_else(|| panic!("no {name} in {el}")) + key.len();
+    el[at..at + el[at..].find('"').unwrap()].parse().unwrap()
+}
+
+/// The demo's route sheets through the binary: every map draws major and minor roads under
+/// a legend strip; road and place names appear; no road name sits on a stop's number label.
+#[test]
+fn demo_route_sheet_maps_show_named_roads_and_places_clear_of_the_stop_labels() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("out");
+    let o = Command::new(env!("CARGO_BIN_EXE_broodcast"))
+        .args(["plan", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let html = std::fs::read_to_string(out.join("route-sheets.html")).unwrap();
+    let maps: Vec<&str> = html
+        .split("<svg class=\"map\"")
+        .skip(1)
+        .map(|m| &m[..m.find("</svg>").unwrap()])
+        .collect();
+    assert!(maps.len() >= 10, "{} maps", maps.len());
+    let (mut road_names, mut place_names) = (0, 0);
+    for m in &maps {
+        assert!(m.contains("class=\"road major\"") && m.contains("class=\"road minor\""));
+        assert!(m.contains("<g class=\"legend\"") && m.contains(">main road</text>"));
+        let labels: Vec<(f64, f64)> = m
+            .split("<circle class=\"label\"")
+            .skip(1)
+            .map(|e| (attr(e, "cx"), attr(e, "cy")))
+            .collect();
+        assert!(!labels.is_empty());
+        for e in m.split("<text class=\"road-name\"").skip(1) {
+            road_names += 1;
+            // The text's centre (its baseline sits 0.35 em below).
+            let (x, y) = (attr(e, "x"), attr(e, "y") - 8.5 * 0.35);
+            for &(lx, ly) in &labels {
+                assert!(
+                    (x - lx).hypot(y - ly) > 8.5 + 1.0,
+                    "road name at ({x}, {y}) on the label at ({lx}, {ly})"
+                );
+            }
+        }
+        assert!(
+            m.contains("<text class=\"road-name\""),
+            "a map without a road name"
+        );
+        place_names += m.matches("<text class=\"place-name\"").count();
+    }
+    // Measured on the demo: 94 road names and 63 place names over 15 maps.
+    assert!(road_names >= 2 * maps.len(), "{road_names} road names");
+    assert!(place_names >= maps.len(), "{place_names} place names");
+    for name in ["Canal Road", "Ossel Well", "Corrowick"] {
+        assert!(html.contains(&format!(">{name}</text>")), "{name}");
+    }
 }
 
 #[test]
