@@ -258,11 +258,13 @@ pub fn build_arcs_with(
         let service_s = to_seconds(service_min).unwrap_or(i64::MAX / 4);
         site_arcs.clear();
         // Only the nearest depots serve a site (by drive time, ties to the lower index).
-        let mut nearest: Vec<(f64, usize)> = (0..nf)
-            .map(|f| {
-                let m = travel.minutes(Place::Facility(f), Place::Site(s));
-                (if m.is_finite() { m } else { f64::INFINITY }, f)
-            })
+        let trips: Vec<(f64, f64)> = (0..nf)
+            .map(|f| travel.round_trip(Place::Facility(f), Place::Site(s)))
+            .collect();
+        let mut nearest: Vec<(f64, usize)> = trips
+            .iter()
+            .enumerate()
+            .map(|(f, &(m, _))| (if m.is_finite() { m } else { f64::INFINITY }, f))
             .collect();
         nearest.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
         let mut serving: Vec<usize> = nearest
@@ -289,11 +291,9 @@ pub fn build_arcs_with(
                 )
             };
             if route_allowed && shifts[f].iter().any(|v| !v.is_empty()) {
-                let drive_out = travel.minutes(Place::Facility(f), Place::Site(s));
-                if let (Some(out_s), Some(back_s)) = (
-                    to_seconds(drive_out),
-                    to_seconds(travel.minutes(Place::Site(s), Place::Facility(f))),
-                ) {
+                let (drive_out, drive_back) = trips[f];
+                if let (Some(out_s), Some(back_s)) = (to_seconds(drive_out), to_seconds(drive_back))
+                {
                     cands.clear();
                     for d in (0..7).filter(|&d| eligible[d]) {
                         let (open, close) =

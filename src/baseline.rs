@@ -246,12 +246,18 @@ pub fn hand_plan(
             options[a.site].push(a);
         }
     }
-    for (s, list) in options.iter_mut().enumerate() {
+    for (s, list) in options.iter_mut().enumerate().filter(|(_, l)| l.len() > 1) {
+        // One geodesic per facility, not two per comparison: a sort of a site's ~60 arcs would
+        // otherwise spend ~700 geodesic inverses (most of a 35,000-site plan's time).
         let at = scenario.sites[s].location;
-        let km = |f: FacilityIdx| geodesy::distance_m(scenario.facilities[f].location, at);
+        let km: Vec<f64> = scenario
+            .facilities
+            .iter()
+            .map(|f| geodesy::distance_m(f.location, at))
+            .collect();
         list.sort_by(|a, b| {
-            km(a.facility)
-                .total_cmp(&km(b.facility))
+            km[a.facility]
+                .total_cmp(&km[b.facility])
                 .then(a.facility.cmp(&b.facility))
                 .then(a.dispatch_date.cmp(&b.dispatch_date))
                 .then(a.pack_date.cmp(&b.pack_date))

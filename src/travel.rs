@@ -27,6 +27,12 @@ pub trait TravelTimes {
     /// road leads there).
     fn minutes(&self, from: Place, to: Place) -> f64;
 
+    /// Drive minutes `a` → `b` and `b` → `a`. Models where both are one computation (a
+    /// symmetric estimate) override it to compute it once.
+    fn round_trip(&self, a: Place, b: Place) -> (f64, f64) {
+        (self.minutes(a, b), self.minutes(b, a))
+    }
+
     /// The driven path from `from` to `to` as longitude/latitude points (degrees, WGS 84),
     /// for maps and navigation files. Empty when the model has no geometry; otherwise it
     /// starts at `from` and ends at `to`. The geodesic model gives the straight segment.
@@ -138,6 +144,16 @@ impl TravelTimes for TravelModel {
             return r.minutes(from, to);
         }
         self.road_km(from, to) / self.speed_kmh * 60.0
+    }
+
+    fn round_trip(&self, a: Place, b: Place) -> (f64, f64) {
+        let matrix = self.slot(a).is_some() && self.slot(b).is_some();
+        if a == b || matrix || self.roads.is_some() {
+            return (self.minutes(a, b), self.minutes(b, a));
+        }
+        // The geodesic estimate is symmetric: one inverse problem for both directions.
+        let m = self.road_km(a, b) / self.speed_kmh * 60.0;
+        (m, m)
     }
 
     fn leg_path(&self, from: Place, to: Place) -> Vec<LonLat> {

@@ -369,10 +369,16 @@ fn depot_day_instance(
     let places: Vec<Place> = std::iter::once(Place::Facility(facility))
         .chain(visit_list.iter().map(|(s, _)| Place::Site(*s)))
         .collect();
-    let minutes: Vec<Vec<f64>> = places
-        .iter()
-        .map(|&a| places.iter().map(|&b| travel.minutes(a, b)).collect())
-        .collect();
+    // Both directions of each pair at once (one geodesic inverse where the model is symmetric).
+    let n = places.len();
+    let mut minutes = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        for j in i + 1..n {
+            let (there, back) = travel.round_trip(places[i], places[j]);
+            minutes[i][j] = there;
+            minutes[j][i] = back;
+        }
+    }
     (
         Instance {
             customers,
