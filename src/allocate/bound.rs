@@ -28,6 +28,7 @@
 
 use super::instance::{Force, Instance, share_coef};
 use crate::scenario::SiteKind;
+use rayon::prelude::*;
 
 const EPS: f64 = 1e-9;
 
@@ -285,51 +286,60 @@ fn lagrangian(inst: &Instance, prices: &Prices, argmax: bool) -> Evaluation {
     } else {
         inst.weight2
     };
-    let mut choice: Vec<(usize, u32)> = Vec::new();
+    // Each site's subproblem is independent: solved in parallel, summed in site order (the
+    // same bits as a serial pass, so the bound does not depend on the thread count).
+    let per_site: Vec<Option<(f64, bool, Vec<(usize, u32)>)>> = inst
+        .sites
+        .par_iter()
+        .enumerate()
+        .map(|(sp, site)| {
+            let mut arcs: Vec<SiteArc> = site
+                .arcs
+                .iter()
+                .map(|&a| {
+                    let [r0, r1] = inst.arc_res[a];
+                    SiteArc {
+                        alive: inst.arcs[a].wasps_alive_per_vial,
+                        per_vial: prices.per_vial(inst, a),
+                        arc: a,
+                        room: arc_cap(inst, a),
+                        sized: [
+                            prices.sized[r0].as_deref(),
+                            if r1 == r0 {
+                                None
+                            } else {
+                                prices.sized[r1].as_deref()
+                            },
+                        ],
+                    }
+                })
+                .collect();
+            // Of arcs with the same live wasps per vial and the same per-release prices a
+            // dearer one with no more room is never needed: any release on it has the same
+            // wasps and vials on the cheaper one.
+            arcs.sort_by(|x, y| {
+                x.alive
+                    .total_cmp(&y.alive)
+                    .then(x.per_vial.total_cmp(&y.per_vial))
+                    .then(x.arc.cmp(&y.arc))
+            });
+            arcs.dedup_by(|later, kept| {
+                later.alive == kept.alive && later.room <= kept.room && later.sized == kept.sized
+            });
+            let worth = arcs
+                .iter()
+                .any(|s| site.priority * top_slope * s.alive - s.least_per_vial() > 0.0);
+            if site.force.is_none() && !worth {
+                // Every vial costs at least what its wasps could earn: nothing is the best.
+                return None;
+            }
+            let mut choice = Vec::new();
+            let (best, complete) = site_max(inst, sp, &arcs, &mut choice);
+            Some((best, complete, choice))
+        })
+        .collect();
     let mut chosen: Vec<(usize, u32)> = Vec::new();
-    for (sp, site) in inst.sites.iter().enumerate() {
-        let mut arcs: Vec<SiteArc> = site
-            .arcs
-            .iter()
-            .map(|&a| {
-                let [r0, r1] = inst.arc_res[a];
-                SiteArc {
-                    alive: inst.arcs[a].wasps_alive_per_vial,
-                    per_vial: prices.per_vial(inst, a),
-                    arc: a,
-                    room: arc_cap(inst, a),
-                    sized: [
-                        prices.sized[r0].as_deref(),
-                        if r1 == r0 {
-                            None
-                        } else {
-                            prices.sized[r1].as_deref()
-                        },
-                    ],
-                }
-            })
-            .collect();
-        // Of arcs with the same live wasps per vial and the same per-release prices a dearer
-        // one with no more room is never needed: any release on it has the same wasps and
-        // vials on the cheaper one.
-        arcs.sort_by(|x, y| {
-            x.alive
-                .total_cmp(&y.alive)
-                .then(x.per_vial.total_cmp(&y.per_vial))
-                .then(x.arc.cmp(&y.arc))
-        });
-        arcs.dedup_by(|later, kept| {
-            later.alive == kept.alive && later.room <= kept.room && later.sized == kept.sized
-        });
-        let worth = arcs
-            .iter()
-            .any(|s| site.priority * top_slope * s.alive - s.least_per_vial() > 0.0);
-        if site.force.is_none() && !worth {
-            // Every vial costs at least what its wasps could earn: nothing is the best.
-            continue;
-        }
-        choice.clear();
-        let (best, complete) = site_max(inst, sp, &arcs, &mut choice);
+    for (best, complete, choice) in per_site.into_iter().flatten() {
         value += best;
         if let Some(u) = usage.as_mut() {
             if !complete {
