@@ -29,7 +29,7 @@ use std::path::Path;
 use chrono::NaiveDate;
 use rusqlite::{Connection, OpenFlags};
 
-use crate::scenario::{Location, MAX_LISTED, Problem};
+use crate::scenario::{MAX_LISTED, Problem};
 
 pub use commit::{CommitOutcome, PlanRecord, ShipmentRecord, read_plan_folder};
 pub use confirm::{ConfirmOutcome, Confirmation, Status, read_confirmations};
@@ -149,26 +149,8 @@ impl fmt::Display for Problems<'_> {
     }
 }
 
-/// A problem at a 1-based line of a CSV file.
-pub(crate) fn line_problem(
-    file: &str,
-    line: u64,
-    field: Option<&str>,
-    value: Option<&str>,
-    message: impl Into<String>,
-) -> Problem {
-    Problem {
-        file: file.to_string(),
-        location: if line == 0 {
-            Location::File
-        } else {
-            Location::Line(line)
-        },
-        field: field.map(str::to_string),
-        value: value.map(str::to_string),
-        message: message.into(),
-    }
-}
+/// A problem at a 1-based line of a file (0: the whole file).
+pub(crate) use crate::csvread::problem as line_problem;
 
 /// An open season ledger.
 #[derive(Debug)]
@@ -261,9 +243,7 @@ fn sql(path: &Path) -> impl Fn(rusqlite::Error) -> LedgerError + '_ {
 }
 
 /// Parses an ISO date (`YYYY-MM-DD`).
-pub(crate) fn parse_date(s: &str) -> Option<NaiveDate> {
-    NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").ok()
-}
+pub(crate) use crate::csvread::iso_date as parse_date;
 
 #[cfg(test)]
 mod tests {
