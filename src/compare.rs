@@ -28,11 +28,15 @@ pub struct CompareError {
 }
 
 fn list(problems: &[Problem], omitted: usize) -> String {
-    let mut lines: Vec<String> = problems.iter().map(ToString::to_string).collect();
-    if omitted > 0 {
-        lines.push(format!("… and {omitted} more"));
+    let n = problems.len() + omitted;
+    let mut s = format!("{n} problem{}:", if n == 1 { "" } else { "s" });
+    for p in problems {
+        s.push_str(&format!("\n  {p}"));
     }
-    lines.join("\n")
+    if omitted > 0 {
+        s.push_str(&format!("\n  … and {omitted} more"));
+    }
+    s
 }
 
 impl CompareError {
@@ -544,7 +548,8 @@ mod tests {
         .to_string();
         assert_eq!(
             e,
-            "plan-a/manifest.csv:2: field 'vials': value 'three': vials are a whole number ≥ 0"
+            "1 problem:\n  plan-a/manifest.csv:2: field 'vials': value 'three': vials are a \
+             whole number ≥ 0"
         );
         let e = parse_manifest(p, b"facility_id,site_id\n")
             .unwrap_err()
@@ -565,7 +570,7 @@ mod tests {
         assert!(e.contains("field 'scenario'"), "{e}");
         let e = parse_summary(s, b"{\n\"a\": ").unwrap_err().to_string();
         assert!(
-            e.starts_with("plan-a/summary.json:2: not valid JSON"),
+            e.contains("\n  plan-a/summary.json:2: not valid JSON"),
             "{e}"
         );
         let e = read_plan(Path::new("/nonexistent/plan"))

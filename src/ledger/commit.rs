@@ -8,46 +8,14 @@
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 
-use chrono::{Datelike, NaiveDate, Weekday};
+use chrono::{Datelike, NaiveDate, NaiveDateTime, Timelike, Weekday};
 use rusqlite::{OptionalExtension, TransactionBehavior, params};
 
 use super::{Ledger, LedgerError, line_problem, parse_date};
 use crate::arcs::Mode;
-use crate::csvread;
-use crate::output::{AllocationRecord, ManifestRecord};
+use crate::csvread::{self, local_datetime};
+use crate::output::{AllocationRecord, ManifestRecord, iso_minutes};
 use crate::scenario::{Problem, SiteKind};
-
-/// A shipment as the ledger keeps it: a [`ManifestRecord`] without its coordinates (the ledger
-/// holds no locations), times as text.
-#[derive(Clone, Debug, PartialEq)]
-pub struct ShipmentRecord {
-    /// `shipment_id`, unique over the season.
-    pub shipment_id: String,
-    /// `facility_id`.
-    pub facility_id: String,
-    /// `dispatch_date`.
-    pub dispatch_date: NaiveDate,
-    /// `mode`.
-    pub mode: Mode,
-    /// `route_id` (routes only).
-    pub route_id: Option<String>,
-    /// `stop_seq`, 1-based (routes only).
-    pub stop_seq: Option<u32>,
-    /// `site_id`.
-    pub site_id: String,
-    /// `site_kind`.
-    pub site_kind: SiteKind,
-    /// `vials`.
-    pub vials: u32,
-    /// `wasps_packed`, wasps.
-    pub wasps_packed: u64,
-    /// `wasps_expected_alive`, wasps.
-    pub wasps_expected_alive: f64,
-    /// `eta`, ISO local date-time as written.
-    pub eta: String,
-    /// `release_by`, ISO local date-time as written.
-    pub release_by: String,
-}
 
 /// A plan folder as the ledger reads it.
 #[derive(Clone, Debug, PartialEq)]
@@ -57,8 +25,9 @@ pub struct PlanRecord {
     pub week_start: NaiveDate,
     /// `summary.json` `scenario` (empty without a summary).
     pub scenario: String,
-    /// Manifest rows, sorted by shipment id.
-    pub shipments: Vec<ShipmentRecord>,
+    /// Manifest rows, sorted by shipment id, without coordinates (`lat`, `lon` are `None`:
+    /// the ledger holds no locations).
+    pub shipments: Vec<ManifestRecord>,
     /// Dooryard requests listed in `allocation.csv` (id, reason; reason empty when served),
     /// sorted by id; empty without an `allocation.csv`. Lets the report tell how long a
     /// request has been waiting.
@@ -90,28 +59,6 @@ pub enum CommitOutcome {
 }
 
 const MANIFEST: &str = "manifest.csv";
-
-impl From<ManifestRecord> for ShipmentRecord {
-    /// The manifest row without its coordinates; times as the writer writes them (to the
-    /// minute).
-    fn from(r: ManifestRecord) -> Self {
-        ShipmentRecord {
-            shipment_id: r.shipment_id,
-            facility_id: r.facility_id,
-            dispatch_date: r.dispatch_date,
-            mode: r.mode,
-            route_id: r.route_id,
-            stop_seq: r.stop_seq,
-            site_id: r.site_id,
-            site_kind: r.site_kind,
-            vials: r.vials,
-            wasps_packed: r.wasps_packed,
-            wasps_expected_alive: r.wasps_expected_alive,
-            eta: r.eta.format("%Y-%m-%dT%H:%M").to_string(),
-            release_by: r.release_by.format("%Y-%m-%dT%H:%M").to_string(),
-        }
-    }
-}
 
 /// Reads `manifest.csv` (required), `summary.json` and `allocation.csv` (optional) from a plan
 /// folder written by `broodcast plan`. Every problem in the files is reported, each naming
@@ -175,14 +122,21 @@ fn read_bytes(path: &Path) -> Result<Vec<u8>, LedgerError> {
     })
 }
 
-/// The manifest's shipments sorted by id, with the line of each.
-fn parse_manifest(bytes: &[u8], problems: &mut Vec<Problem>) -> (Vec<u64>, Vec<ShipmentRecord>) {
+/// The manifest's shipments sorted by id, coordinates dropped, with the line of each.
+fn parse_manifest(bytes: &[u8], problems: &mut Vec<Problem>) -> (Vec<u64>, Vec<ManifestRecord>) {
     let read = csvread::read::<ManifestRecord>(MANIFEST, bytes);
     problems.extend(read.problems);
-    let mut out: Vec<(u64, ShipmentRecord)> = read
+    let mut out: Vec<(u64, ManifestRecord)> = read
         .rows
         .into_iter()
-        .map(|(line, r)| (line, ShipmentRecord::from(r)))
+        .map(|(line, r)| {
+            let r = ManifestRecord {
+                lat: None,
+                lon: None,
+                ..r
+            };
+            (line, r)
+        })
         .collect();
     out.sort_by(|a, b| a.1.shipment_id.cmp(&b.1.shipment_id));
     out.into_iter().unzip()
@@ -253,6 +207,16 @@ fn read_candidates(
         .collect::<BTreeMap<_, _>>()
         .into_iter()
         .collect())
+}
+
+/// A time as the ledger stores it: to the minute as `manifest.csv` writes it, with seconds
+/// only when a hand-edited file gave some (so that committing that file again is a no-op).
+fn stored_time(t: NaiveDateTime) -> String {
+    if t.second() == 0 {
+        iso_minutes(t)
+    } else {
+        t.format("%Y-%m-%dT%H:%M:%S").to_string()
+    }
 }
 
 /// Outcome columns of a stored shipment: status, released_at, note.
@@ -398,8 +362,8 @@ impl Ledger {
                     // Wasps per shipment are far below i64::MAX; saturate rather than wrap.
                     i64::try_from(s.wasps_packed).unwrap_or(i64::MAX),
                     s.wasps_expected_alive,
-                    s.eta,
-                    s.release_by,
+                    stored_time(s.eta),
+                    stored_time(s.release_by),
                     status,
                     released_at,
                     note,
@@ -422,7 +386,7 @@ impl Ledger {
 fn load_week(
     tx: &rusqlite::Transaction,
     week: &str,
-) -> rusqlite::Result<(Vec<ShipmentRecord>, BTreeMap<String, Outcome>)> {
+) -> rusqlite::Result<(Vec<ManifestRecord>, BTreeMap<String, Outcome>)> {
     let mut q = tx.prepare(
         "SELECT shipment_id, facility_id, dispatch_date, mode, route_id, stop_seq, site_id,
                 site_kind, vials, wasps_packed, wasps_expected_alive, eta, release_by,
@@ -438,7 +402,9 @@ fn load_week(
         let mode: String = r.get(3)?;
         let kind: String = r.get(7)?;
         let packed: i64 = r.get(9)?;
-        rows.push(ShipmentRecord {
+        let eta: String = r.get(11)?;
+        let release_by: String = r.get(12)?;
+        rows.push(ManifestRecord {
             shipment_id: id.clone(),
             facility_id: r.get(1)?,
             // The CHECK constraints and the writer guarantee these parse; a row that does not
@@ -460,8 +426,10 @@ fn load_week(
             vials: r.get(8)?,
             wasps_packed: u64::try_from(packed).unwrap_or(0),
             wasps_expected_alive: r.get(10)?,
-            eta: r.get(11)?,
-            release_by: r.get(12)?,
+            lat: None,
+            lon: None,
+            eta: local_datetime(&eta).unwrap_or(NaiveDateTime::MIN),
+            release_by: local_datetime(&release_by).unwrap_or(NaiveDateTime::MIN),
         });
         outcomes.insert(id, (r.get(13)?, r.get(14)?, r.get(15)?));
     }

@@ -31,7 +31,7 @@ use rusqlite::{Connection, OpenFlags};
 
 use crate::scenario::{MAX_LISTED, Problem};
 
-pub use commit::{CommitOutcome, PlanRecord, ShipmentRecord, read_plan_folder};
+pub use commit::{CommitOutcome, PlanRecord, read_plan_folder};
 pub use confirm::{ConfirmOutcome, Confirmation, Status, read_confirmations};
 pub use history::{LedgerHistory, LedgerMarks};
 pub use report::{SeasonData, SeasonShipment, render_report};

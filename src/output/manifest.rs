@@ -30,13 +30,14 @@ pub const MANIFEST_COLUMNS: [&str; 15] = [
     "release_by",
 ];
 
-/// One `manifest.csv` row as the file holds it: written by `plan` and read back by
-/// `ledger commit` and `compare` (through [`crate::csvread`]). Fields in [`MANIFEST_COLUMNS`]
-/// order (a test ties the two); coordinates with 6 decimals, wasps alive with 1, times to the
-/// minute.
+/// One `manifest.csv` row as the file holds it: written by `plan`, read back (through
+/// [`crate::csvread`]) by `ledger commit`, which keeps it in the ledger, and by `compare`.
+/// Fields in [`MANIFEST_COLUMNS`] order (a test ties the two); coordinates with 6 decimals,
+/// wasps alive with 1, times to the minute.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ManifestRecord {
-    /// `S-<facility>-<yyyymmdd>-<site>`, see [`ManifestRow::shipment_id`].
+    /// `S-<facility>-<yyyymmdd>-<site>` (dispatch date), with `-2`, `-3`… when the same site
+    /// gets two shipments from one facility on one day (different pack days).
     pub shipment_id: String,
     /// Sending facility id.
     pub facility_id: String,
@@ -53,10 +54,11 @@ pub struct ManifestRecord {
     pub site_id: String,
     /// Block or dooryard.
     pub site_kind: SiteKind,
-    /// Stop latitude, degrees (`None` when a file read back has no `lat` column).
+    /// Stop latitude, degrees (`None` when a file read back has no `lat` column, and in the
+    /// ledger, which keeps no locations).
     #[serde(serialize_with = "super::cell::degrees")]
     pub lat: Option<f64>,
-    /// Stop longitude, degrees (`None` when a file read back has no `lon` column).
+    /// Stop longitude, degrees (`None` as for `lat`).
     #[serde(serialize_with = "super::cell::degrees")]
     pub lon: Option<f64>,
     /// Vials delivered.
@@ -66,7 +68,8 @@ pub struct ManifestRecord {
     /// Expected live wasps at release, wasps.
     #[serde(serialize_with = "super::cell::fixed1")]
     pub wasps_expected_alive: f64,
-    /// Arrival, local time.
+    /// Arrival, local time (route: at the stop, before any wait for the window; parcel:
+    /// delivery).
     #[serde(serialize_with = "super::cell::minutes")]
     pub eta: NaiveDateTime,
     /// Latest useful release, local time.
@@ -158,70 +161,27 @@ impl CsvRow for ManifestRecord {
     }
 }
 
-/// One delivered shipment.
+/// One delivered shipment: its `manifest.csv` row and where it comes from in the plan. Reads
+/// as its [`ManifestRecord`] (`row.site_id`, `row.eta`…).
 #[derive(Clone, Debug, PartialEq)]
 pub struct ManifestRow {
-    /// `S-<facility>-<yyyymmdd>-<site>` (dispatch date), with `-2`, `-3`… when the same site
-    /// gets two shipments from one facility on one day (different pack days).
-    pub shipment_id: String,
+    /// The row as `manifest.csv` writes it (coordinates always present).
+    pub record: ManifestRecord,
     /// Index into `Allocation::shipments` of the shipment.
     pub shipment: usize,
     /// Sending facility.
     pub facility: FacilityIdx,
-    /// Sending facility id.
-    pub facility_id: String,
     /// Day the vials were packed.
     pub pack_date: NaiveDate,
-    /// Day they leave the facility.
-    pub dispatch_date: NaiveDate,
-    /// Route or parcel.
-    pub mode: Mode,
-    /// The route (routes only).
-    pub route_id: Option<String>,
-    /// 1-based stop position on the route (routes only).
-    pub stop_seq: Option<u32>,
     /// Receiving site.
     pub site: SiteIdx,
-    /// Receiving site id.
-    pub site_id: String,
-    /// Block or dooryard.
-    pub site_kind: SiteKind,
-    /// Stop latitude, degrees.
-    pub lat: f64,
-    /// Stop longitude, degrees.
-    pub lon: f64,
-    /// Vials delivered.
-    pub vials: u32,
-    /// Wasps at packing = vials × wasps_per_vial.
-    pub wasps_packed: u64,
-    /// Expected live wasps at release.
-    pub wasps_expected_alive: f64,
-    /// Arrival (route: at the stop, before any wait for the window; parcel: delivery).
-    pub eta: NaiveDateTime,
-    /// Latest useful release.
-    pub release_by: NaiveDateTime,
 }
 
-impl ManifestRow {
-    /// The row as `manifest.csv` writes it.
-    pub fn record(&self) -> ManifestRecord {
-        ManifestRecord {
-            shipment_id: self.shipment_id.clone(),
-            facility_id: self.facility_id.clone(),
-            dispatch_date: self.dispatch_date,
-            mode: self.mode,
-            route_id: self.route_id.clone(),
-            stop_seq: self.stop_seq,
-            site_id: self.site_id.clone(),
-            site_kind: self.site_kind,
-            lat: Some(self.lat),
-            lon: Some(self.lon),
-            vials: self.vials,
-            wasps_packed: self.wasps_packed,
-            wasps_expected_alive: self.wasps_expected_alive,
-            eta: self.eta,
-            release_by: self.release_by,
-        }
+impl std::ops::Deref for ManifestRow {
+    type Target = ManifestRecord;
+
+    fn deref(&self) -> &ManifestRecord {
+        &self.record
     }
 }
 
@@ -250,29 +210,31 @@ pub(crate) fn rows(view: &PlanView) -> Result<Vec<ManifestRow>, OutputError> {
             ))
         })?;
         Ok(ManifestRow {
-            shipment_id: String::new(),
+            record: ManifestRecord {
+                shipment_id: String::new(),
+                facility_id: f.id.0.clone(),
+                dispatch_date: dispatch_date.unwrap_or(sh.arc.dispatch_date),
+                mode: if route.is_some() {
+                    Mode::Route
+                } else {
+                    Mode::Parcel
+                },
+                route_id: route.map(|(r, _)| r.to_string()),
+                stop_seq: route.map(|(_, n)| n),
+                site_id: s.id.0.clone(),
+                site_kind: s.kind(),
+                lat: Some(s.location.lat),
+                lon: Some(s.location.lon),
+                vials,
+                wasps_packed: u64::from(vials) * u64::from(f.wasps_per_vial),
+                wasps_expected_alive: wasps,
+                eta,
+                release_by,
+            },
             shipment,
             facility: sh.arc.facility,
-            facility_id: f.id.0.clone(),
             pack_date: sh.arc.pack_date,
-            dispatch_date: dispatch_date.unwrap_or(sh.arc.dispatch_date),
-            mode: if route.is_some() {
-                Mode::Route
-            } else {
-                Mode::Parcel
-            },
-            route_id: route.map(|(r, _)| r.to_string()),
-            stop_seq: route.map(|(_, n)| n),
             site,
-            site_id: s.id.0.clone(),
-            site_kind: s.kind(),
-            lat: s.location.lat,
-            lon: s.location.lon,
-            vials,
-            wasps_packed: u64::from(vials) * u64::from(f.wasps_per_vial),
-            wasps_expected_alive: wasps,
-            eta,
-            release_by,
         })
     };
     let mut out = Vec::new();
@@ -332,14 +294,14 @@ pub(crate) fn rows(view: &PlanView) -> Result<Vec<ManifestRow>, OutputError> {
         );
         let n = seen.entry(base.clone()).or_insert(0);
         *n += 1;
-        row.shipment_id = if *n == 1 { base } else { format!("{base}-{n}") };
+        row.record.shipment_id = if *n == 1 { base } else { format!("{base}-{n}") };
     }
     Ok(out)
 }
 
 /// `manifest.csv`. Coordinates with 6 decimals (about 0.1 m), wasps alive with 1.
 pub(crate) fn csv(rows: &[ManifestRow]) -> Result<Vec<u8>, OutputError> {
-    super::write_csv(&MANIFEST_COLUMNS, rows.iter().map(ManifestRow::record))
+    super::write_csv(&MANIFEST_COLUMNS, rows.iter().map(|r| &r.record))
 }
 
 #[derive(Serialize)]
@@ -352,8 +314,8 @@ struct JsonRow<'a> {
     stop_seq: Option<u32>,
     site_id: &'a str,
     site_kind: &'static str,
-    lat: f64,
-    lon: f64,
+    lat: Option<f64>,
+    lon: Option<f64>,
     vials: u32,
     wasps_packed: u64,
     wasps_expected_alive: f64,
@@ -407,8 +369,8 @@ pub(crate) fn json(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputE
             stop_seq: r.stop_seq,
             site_id: &r.site_id,
             site_kind: r.site_kind.as_str(),
-            lat: round_to(r.lat, 6),
-            lon: round_to(r.lon, 6),
+            lat: r.lat.map(|x| round_to(x, 6)),
+            lon: r.lon.map(|x| round_to(x, 6)),
             vials: r.vials,
             wasps_packed: r.wasps_packed,
             wasps_expected_alive: round_to(r.wasps_expected_alive, 1),
@@ -513,7 +475,7 @@ mod tests {
         );
         // serde's own header (the field names) is the contract's column list.
         let mut w = ::csv::Writer::from_writer(Vec::new());
-        w.serialize(rows[0].record()).unwrap();
+        w.serialize(&rows[0].record).unwrap();
         let own = String::from_utf8(w.into_inner().unwrap()).unwrap();
         assert_eq!(
             own.lines().next(),
@@ -524,7 +486,7 @@ mod tests {
         assert_eq!(read.rows.len(), rows.len());
         for ((line, got), (i, row)) in read.rows.iter().zip(rows.iter().enumerate()) {
             assert_eq!(*line, i as u64 + 2);
-            let mut want = row.record();
+            let mut want = row.record.clone();
             // Written with 6 and 1 decimals, and to the minute.
             want.lat = want.lat.map(|x| round_to(x, 6));
             want.lon = want.lon.map(|x| round_to(x, 6));
