@@ -19,24 +19,12 @@ use crate::scenario::{MAX_LISTED, Problem};
 /// Problems with a plan folder's files: every one found, each naming file, line, field and
 /// the fix.
 #[derive(Debug, thiserror::Error)]
-#[error("{}", list(.problems, *.omitted))]
+#[error("{}", csvread::problem_list(.problems, *.omitted))]
 pub struct CompareError {
     /// Problems, in file order (at most [`MAX_LISTED`]).
     pub problems: Vec<Problem>,
     /// Problems found past [`MAX_LISTED`].
     pub omitted: usize,
-}
-
-fn list(problems: &[Problem], omitted: usize) -> String {
-    let n = problems.len() + omitted;
-    let mut s = format!("{n} problem{}:", if n == 1 { "" } else { "s" });
-    for p in problems {
-        s.push_str(&format!("\n  {p}"));
-    }
-    if omitted > 0 {
-        s.push_str(&format!("\n  … and {omitted} more"));
-    }
-    s
 }
 
 impl CompareError {

@@ -233,6 +233,20 @@ pub fn problem(
     }
 }
 
+/// Problems as an error message lists them: `N problems:`, then one indented line each, then
+/// how many more were found past those listed.
+pub fn problem_list(problems: &[Problem], omitted: usize) -> String {
+    let n = problems.len() + omitted;
+    let mut s = format!("{n} problem{}:", if n == 1 { "" } else { "s" });
+    for p in problems {
+        s.push_str(&format!("\n  {p}"));
+    }
+    if omitted > 0 {
+        s.push_str(&format!("\n  … and {omitted} more"));
+    }
+    s
+}
+
 /// An ISO date, `YYYY-MM-DD`.
 pub fn iso_date(s: &str) -> Option<NaiveDate> {
     NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").ok()

@@ -68,7 +68,7 @@ pub type Temps = BTreeMap<(String, NaiveDate), f64>;
 #[derive(Debug, thiserror::Error)]
 pub enum ForecastError {
     /// An input file is wrong (every problem found, at most [`MAX_LISTED`]).
-    #[error("{} problem(s):\n{}", .problems.len() + .omitted, list(.problems, *.omitted))]
+    #[error("{}", csvread::problem_list(.problems, *.omitted))]
     Input {
         /// Problems, in file order.
         problems: Vec<Problem>,
@@ -84,14 +84,6 @@ pub enum ForecastError {
         #[source]
         source: std::io::Error,
     },
-}
-
-fn list(problems: &[Problem], omitted: usize) -> String {
-    let mut s: String = problems.iter().map(|p| format!("  {p}\n")).collect();
-    if omitted > 0 {
-        s.push_str(&format!("  … and {omitted} more\n"));
-    }
-    s
 }
 
 impl ForecastError {

@@ -522,6 +522,21 @@ pub(crate) mod tests {
     }
 
     #[test]
+    fn a_hand_edited_time_with_seconds_recommits_as_unchanged() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
+        let a = row("S-A", "2027-03-01", "B1", "block", 3).replace("T09:00", "T09:00:30");
+        let b = row("S-B", "2027-03-02", "B2", "block", 1).replace(",27.1,-81.2,", ",,,");
+        let p = read_plan_folder(folder("2027-03-01", &[&a, &b]).path()).expect("read");
+        assert_eq!(p.shipments[0].lat, None, "the ledger keeps no coordinates");
+        l.commit(&p, false).expect("first");
+        assert_eq!(
+            l.commit(&p, false).expect("again"),
+            CommitOutcome::Unchanged { shipments: 2 }
+        );
+    }
+
+    #[test]
     fn manifest_errors_name_line_and_field() {
         let bad = "S-1,F1,2027-03-0x,truck,R1,0,B1,tree,1,2,-3,x,nan,soon,later";
         let e = read_plan_folder(folder("2027-03-01", &[bad]).path()).expect_err("bad");

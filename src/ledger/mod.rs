@@ -23,7 +23,6 @@ mod history;
 mod report;
 mod schema;
 
-use std::fmt;
 use std::path::Path;
 
 use chrono::NaiveDate;
@@ -76,7 +75,7 @@ pub enum LedgerError {
         path: String,
     },
     /// An input file (manifest, summary, allocation, confirmations) is wrong.
-    #[error("{}", Problems(.problems, *.omitted))]
+    #[error("{}", crate::csvread::problem_list(.problems, *.omitted))]
     Input {
         /// Problems found, in file order (at most [`MAX_LISTED`]).
         problems: Vec<Problem>,
@@ -130,22 +129,6 @@ impl LedgerError {
         let omitted = problems.len().saturating_sub(MAX_LISTED);
         problems.truncate(MAX_LISTED);
         LedgerError::Input { problems, omitted }
-    }
-}
-
-struct Problems<'a>(&'a [Problem], usize);
-
-impl fmt::Display for Problems<'_> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let n = self.0.len() + self.1;
-        writeln!(f, "{n} problem{}:", if n == 1 { "" } else { "s" })?;
-        for p in self.0 {
-            writeln!(f, "  {p}")?;
-        }
-        if self.1 > 0 {
-            writeln!(f, "  … and {} more", self.1)?;
-        }
-        Ok(())
     }
 }
 

@@ -54,8 +54,8 @@ pub struct ManifestRecord {
     pub site_id: String,
     /// Block or dooryard.
     pub site_kind: SiteKind,
-    /// Stop latitude, degrees (`None` when a file read back has no `lat` column, and in the
-    /// ledger, which keeps no locations).
+    /// Stop latitude, degrees (`None` when a file read back has no `lat` column or an empty
+    /// cell, and in the ledger, which keeps no locations).
     #[serde(serialize_with = "super::cell::degrees")]
     pub lat: Option<f64>,
     /// Stop longitude, degrees (`None` as for `lat`).
@@ -85,12 +85,20 @@ fn non_negative(s: &str, fix: &str) -> Result<f64, String> {
         .ok_or_else(|| fix.to_string())
 }
 
-/// A coordinate cell read back: a finite number in `range`, degrees.
-fn degrees(s: &str, range: std::ops::RangeInclusive<f64>, fix: &str) -> Result<f64, String> {
+/// A coordinate cell read back: empty, or a number in `range`, degrees.
+fn degrees(
+    s: &str,
+    range: std::ops::RangeInclusive<f64>,
+    fix: &str,
+) -> Result<Option<f64>, String> {
+    if s.is_empty() {
+        return Ok(None);
+    }
     s.parse::<f64>()
         .ok()
         .filter(|x| range.contains(x))
-        .ok_or_else(|| fix.to_string())
+        .map(Some)
+        .ok_or_else(|| format!("{fix}, or empty"))
 }
 
 const DATE_TIME: &str = "not an ISO local date-time (YYYY-MM-DDTHH:MM)";
@@ -150,8 +158,8 @@ impl CsvRow for ManifestRecord {
             stop_seq: stop_seq?,
             site_id: site_id?,
             site_kind: site_kind?,
-            lat: lat?,
-            lon: lon?,
+            lat: lat?.flatten(),
+            lon: lon?.flatten(),
             vials: vials?,
             wasps_packed: wasps_packed?,
             wasps_expected_alive: alive?,
