@@ -12,14 +12,14 @@
 //! so an arc's stored `eta` and `release_by` compare exactly as the builder compared them.
 
 use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime, Timelike};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::eligibility::{self, Reason};
 use crate::scenario::{FacilityIdx, Scenario, SiteDetail, SiteIdx};
 use crate::travel::{Place, TravelTimes};
 
 /// How vials reach a site.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Mode {
     /// A vehicle from the facility's depot.

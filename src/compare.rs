@@ -12,46 +12,27 @@ use std::path::{Path, PathBuf};
 use chrono::NaiveDate;
 use serde::Serialize;
 
-/// A problem with a plan folder's files.
+use crate::csvread::{self, CsvRow, problem};
+use crate::output::{AllocationRecord, ManifestRecord};
+use crate::scenario::{MAX_LISTED, Problem};
+
+/// Problems with a plan folder's files: every one found, each naming file, line, field and
+/// the fix.
 #[derive(Debug, thiserror::Error)]
-#[error("{}{}{}: {message}", file.display(), line.map(|l| format!(":{l}")).unwrap_or_default(), field.as_ref().map(|f| format!(": field '{f}'")).unwrap_or_default())]
+#[error("{}", csvread::problem_list(.problems, *.omitted))]
 pub struct CompareError {
-    /// The file.
-    pub file: PathBuf,
-    /// 1-based line (CSV: the header is line 1; JSON: the parser's line), when known.
-    pub line: Option<u64>,
-    /// Column or key, when the problem is about one.
-    pub field: Option<String>,
-    /// What is wrong and how to fix it.
-    pub message: String,
+    /// Problems, in file order (at most [`MAX_LISTED`]).
+    pub problems: Vec<Problem>,
+    /// Problems found past [`MAX_LISTED`].
+    pub omitted: usize,
 }
 
-/// One delivered manifest row, the fields a comparison needs.
-#[derive(Clone, Debug, PartialEq)]
-pub struct ManifestLine {
-    /// `facility_id`.
-    pub facility_id: String,
-    /// `dispatch_date`.
-    pub dispatch_date: NaiveDate,
-    /// `site_id`.
-    pub site_id: String,
-    /// `site_kind` (`block` or `dooryard`).
-    pub site_kind: String,
-    /// `vials`.
-    pub vials: u32,
-    /// `wasps_expected_alive`, wasps.
-    pub wasps_expected_alive: f64,
-}
-
-/// One `allocation.csv` row, the fields a comparison needs.
-#[derive(Clone, Debug, PartialEq)]
-pub struct AllocationLine {
-    /// `site_id`.
-    pub site_id: String,
-    /// `site_kind`.
-    pub site_kind: String,
-    /// `reason` (empty when served).
-    pub reason: String,
+impl CompareError {
+    fn new(mut problems: Vec<Problem>) -> Self {
+        let omitted = problems.len().saturating_sub(MAX_LISTED);
+        problems.truncate(MAX_LISTED);
+        CompareError { problems, omitted }
+    }
 }
 
 /// The headline figures of `summary.json`.
@@ -85,23 +66,19 @@ pub struct PlanOutputs {
     /// From `summary.json`.
     pub headline: Headline,
     /// From `manifest.csv`.
-    pub manifest: Vec<ManifestLine>,
+    pub manifest: Vec<ManifestRecord>,
     /// From `allocation.csv`.
-    pub allocation: Vec<AllocationLine>,
+    pub allocation: Vec<AllocationRecord>,
 }
 
-fn err(
-    file: &Path,
-    line: Option<u64>,
-    field: Option<&str>,
-    message: impl Into<String>,
-) -> CompareError {
-    CompareError {
-        file: file.to_path_buf(),
+fn err(file: &Path, line: u64, field: Option<&str>, message: impl Into<String>) -> CompareError {
+    CompareError::new(vec![problem(
+        &file.display().to_string(),
         line,
-        field: field.map(str::to_string),
-        message: message.into(),
-    }
+        field,
+        None,
+        message,
+    )])
 }
 
 const FIX_FOLDER: &str = "give a folder written by `broodcast plan --out DIR`";
@@ -113,24 +90,36 @@ fn read(path: &Path) -> Result<Vec<u8>, CompareError> {
         } else {
             format!("cannot read the file ({e})")
         };
-        err(path, None, None, format!("{what}; {FIX_FOLDER}"))
+        err(path, 0, None, format!("{what}; {FIX_FOLDER}"))
     })
 }
 
 /// Reads a plan output folder.
 ///
 /// # Errors
-/// A [`CompareError`] for the first missing file or bad line.
+/// A [`CompareError`] for a missing file, or listing every problem of the three files.
 pub fn read_plan(dir: &Path) -> Result<PlanOutputs, CompareError> {
     let sp = dir.join("summary.json");
     let mp = dir.join("manifest.csv");
     let ap = dir.join("allocation.csv");
-    Ok(PlanOutputs {
-        dir: dir.to_path_buf(),
-        headline: parse_summary(&sp, &read(&sp)?)?,
-        manifest: parse_manifest(&mp, &read(&mp)?)?,
-        allocation: parse_allocation(&ap, &read(&ap)?)?,
-    })
+    let headline = parse_summary(&sp, &read(&sp)?);
+    let manifest = parse_manifest(&mp, &read(&mp)?);
+    let allocation = parse_allocation(&ap, &read(&ap)?);
+    match (headline, manifest, allocation) {
+        (Ok(headline), Ok(manifest), Ok(allocation)) => Ok(PlanOutputs {
+            dir: dir.to_path_buf(),
+            headline,
+            manifest,
+            allocation,
+        }),
+        (h, m, a) => Err(CompareError::new(
+            [h.err(), m.err(), a.err()]
+                .into_iter()
+                .flatten()
+                .flat_map(|e| e.problems)
+                .collect(),
+        )),
+    }
 }
 
 /// Parses `summary.json`; `file` names it in errors.
@@ -138,7 +127,7 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
     let v: serde_json::Value = serde_json::from_slice(bytes).map_err(|e| {
         err(
             file,
-            Some(e.line() as u64),
+            e.line() as u64,
             None,
             format!("not valid JSON (column {}): {e}; {FIX_FOLDER}", e.column()),
         )
@@ -146,7 +135,7 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
     if !v.is_object() {
         return Err(err(
             file,
-            None,
+            0,
             None,
             format!("expected a JSON object; {FIX_FOLDER}"),
         ));
@@ -158,7 +147,7 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
             .ok_or_else(|| {
                 err(
                     file,
-                    None,
+                    0,
                     Some(key),
                     format!("missing or not a number; {FIX_FOLDER}"),
                 )
@@ -170,7 +159,7 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
             .ok_or_else(|| {
                 err(
                     file,
-                    None,
+                    0,
                     Some(key),
                     format!("missing or not a whole number ≥ 0; {FIX_FOLDER}"),
                 )
@@ -183,7 +172,7 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
             .ok_or_else(|| {
                 err(
                     file,
-                    None,
+                    0,
                     Some(key),
                     format!("missing or not text; {FIX_FOLDER}"),
                 )
@@ -202,156 +191,30 @@ pub fn parse_summary(file: &Path, bytes: &[u8]) -> Result<Headline, CompareError
     })
 }
 
-/// A CSV table with named columns, each row with its physical line.
-struct Table {
-    cols: BTreeMap<String, usize>,
-    rows: Vec<(u64, csv::StringRecord)>,
-}
-
-fn table(file: &Path, bytes: &[u8], needed: &[&str]) -> Result<Table, CompareError> {
-    let text = bytes
-        .strip_prefix(b"\xEF\xBB\xBF".as_slice())
-        .unwrap_or(bytes);
-    // csv's own line count lags one per CRLF; the loader's counter is right on both.
-    let lines = crate::scenario::CsvLines::from_bytes(text);
-    let mut r = csv::ReaderBuilder::new()
-        .trim(csv::Trim::All)
-        .from_reader(text);
-    let headers = r
-        .headers()
-        .map_err(|e| {
-            err(
-                file,
-                Some(1),
-                None,
-                format!("unreadable header ({e}); {FIX_FOLDER}"),
-            )
-        })?
-        .clone();
-    let cols: BTreeMap<String, usize> = headers
-        .iter()
-        .enumerate()
-        .map(|(i, h)| (h.to_string(), i))
-        .collect();
-    for n in needed {
-        if !cols.contains_key(*n) {
-            return Err(err(
-                file,
-                Some(1),
-                Some(n),
-                format!("column is missing from the header; {FIX_FOLDER}"),
-            ));
+/// Rows of a CSV file of a plan folder, or every problem found; a problem about the file's
+/// shape (no value to quote: a missing column, an unreadable row) also says what to give.
+fn rows<R: CsvRow>(file: &Path, bytes: &[u8]) -> Result<Vec<R>, CompareError> {
+    let read = csvread::read::<R>(&file.display().to_string(), bytes);
+    if read.problems.is_empty() {
+        return Ok(read.rows.into_iter().map(|(_, r)| r).collect());
+    }
+    let mut problems = read.problems;
+    for p in &mut problems {
+        if p.value.is_none() {
+            p.message = format!("{}; {FIX_FOLDER}", p.message);
         }
     }
-    let mut rows = Vec::new();
-    for rec in r.records() {
-        match rec {
-            Ok(rec) => rows.push((lines.line(rec.position()), rec)),
-            Err(e) => {
-                let line = Some(lines.line(e.position())).filter(|&l| l > 0);
-                return Err(err(
-                    file,
-                    line,
-                    None,
-                    format!("unreadable row ({e}); {FIX_FOLDER}"),
-                ));
-            }
-        }
-    }
-    Ok(Table { cols, rows })
-}
-
-impl Table {
-    fn get<'r>(&self, rec: &'r csv::StringRecord, col: &str) -> &'r str {
-        self.cols.get(col).and_then(|&i| rec.get(i)).unwrap_or("")
-    }
-}
-
-fn non_empty<'a>(file: &Path, line: u64, col: &str, v: &'a str) -> Result<&'a str, CompareError> {
-    if v.is_empty() {
-        Err(err(
-            file,
-            Some(line),
-            Some(col),
-            "is empty; every row names it",
-        ))
-    } else {
-        Ok(v)
-    }
+    Err(CompareError::new(problems))
 }
 
 /// Parses `manifest.csv`; `file` names it in errors.
-pub fn parse_manifest(file: &Path, bytes: &[u8]) -> Result<Vec<ManifestLine>, CompareError> {
-    let t = table(
-        file,
-        bytes,
-        &[
-            "facility_id",
-            "dispatch_date",
-            "site_id",
-            "site_kind",
-            "vials",
-            "wasps_expected_alive",
-        ],
-    )?;
-    let mut out = Vec::with_capacity(t.rows.len());
-    for (line, rec) in &t.rows {
-        let line = *line;
-        let date_s = t.get(rec, "dispatch_date");
-        let dispatch_date = NaiveDate::parse_from_str(date_s, "%Y-%m-%d").map_err(|_| {
-            err(
-                file,
-                Some(line),
-                Some("dispatch_date"),
-                format!("value '{date_s}' is not a date YYYY-MM-DD"),
-            )
-        })?;
-        let vials_s = t.get(rec, "vials");
-        let vials: u32 = vials_s.parse().map_err(|_| {
-            err(
-                file,
-                Some(line),
-                Some("vials"),
-                format!("value '{vials_s}' is not a whole number of vials ≥ 0"),
-            )
-        })?;
-        let alive_s = t.get(rec, "wasps_expected_alive");
-        let wasps_expected_alive = alive_s
-            .parse::<f64>()
-            .ok()
-            .filter(|x| x.is_finite() && *x >= 0.0)
-            .ok_or_else(|| {
-                err(
-                    file,
-                    Some(line),
-                    Some("wasps_expected_alive"),
-                    format!("value '{alive_s}' is not a number of wasps ≥ 0"),
-                )
-            })?;
-        out.push(ManifestLine {
-            facility_id: non_empty(file, line, "facility_id", t.get(rec, "facility_id"))?.into(),
-            dispatch_date,
-            site_id: non_empty(file, line, "site_id", t.get(rec, "site_id"))?.into(),
-            site_kind: t.get(rec, "site_kind").into(),
-            vials,
-            wasps_expected_alive,
-        });
-    }
-    Ok(out)
+pub fn parse_manifest(file: &Path, bytes: &[u8]) -> Result<Vec<ManifestRecord>, CompareError> {
+    rows(file, bytes)
 }
 
 /// Parses `allocation.csv`; `file` names it in errors.
-pub fn parse_allocation(file: &Path, bytes: &[u8]) -> Result<Vec<AllocationLine>, CompareError> {
-    let t = table(file, bytes, &["site_id", "site_kind", "reason"])?;
-    let mut out = Vec::with_capacity(t.rows.len());
-    for (line, rec) in &t.rows {
-        out.push(AllocationLine {
-            site_id: non_empty(file, *line, "site_id", t.get(rec, "site_id"))?.into(),
-            site_kind: t.get(rec, "site_kind").into(),
-            reason: t.get(rec, "reason").into(),
-        });
-    }
-    Ok(out)
+pub fn parse_allocation(file: &Path, bytes: &[u8]) -> Result<Vec<AllocationRecord>, CompareError> {
+    rows(file, bytes)
 }
 
 /// A site served in one plan and not the other.
@@ -649,11 +512,16 @@ mod tests {
     #[test]
     fn a_bad_row_of_a_crlf_manifest_names_its_physical_line() {
         let p = Path::new("plan-a/manifest.csv");
-        let good = "S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,3,510,500,x,y";
-        let text =
-            format!("{HEADER}{good}\n{}\n", good.replace(",3,", ",three,")).replace('\n', "\r\n");
+        let good = "S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,3,510,500,2027-03-02T08:00,2027-03-05T06:00";
+        let bad = good.replace("S1,", "S2,").replace(",3,", ",three,");
+        let text = format!("{HEADER}{good}\n{bad}\n").replace('\n', "\r\n");
         let e = parse_manifest(p, text.as_bytes()).unwrap_err();
-        assert_eq!(e.line, Some(3), "{e}");
+        assert_eq!(e.problems.len(), 1, "{e}");
+        assert_eq!(
+            e.problems[0].location,
+            crate::scenario::Location::Line(3),
+            "{e}"
+        );
     }
 
     #[test]
@@ -661,22 +529,28 @@ mod tests {
         let p = Path::new("plan-a/manifest.csv");
         let e = parse_manifest(
             p,
-            format!("{HEADER}S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,three,510,500,x,y\n")
+            format!("{HEADER}S1,F1,2027-03-02,route,R1,1,B1,block,27,-81,three,510,500,2027-03-02T08:00,2027-03-05T06:00\n")
                 .as_bytes(),
         )
         .unwrap_err()
         .to_string();
         assert_eq!(
             e,
-            "plan-a/manifest.csv:2: field 'vials': value 'three' is not a whole number of vials ≥ 0"
+            "1 problem:\n  plan-a/manifest.csv:2: field 'vials': value 'three': vials are a \
+             whole number ≥ 0"
         );
         let e = parse_manifest(p, b"facility_id,site_id\n")
             .unwrap_err()
             .to_string();
         assert!(
-            e.starts_with("plan-a/manifest.csv:1: field 'dispatch_date': column is missing"),
+            e.contains("plan-a/manifest.csv:1: field 'dispatch_date': required column is missing"),
             "{e}"
         );
+        assert!(
+            e.contains("give a folder written by `broodcast plan"),
+            "{e}"
+        );
+        assert!(!e.contains("field 'lat'"), "coordinates are optional: {e}");
         let s = Path::new("plan-a/summary.json");
         let e = parse_summary(s, b"{\"objective\": \"high\"}")
             .unwrap_err()
@@ -684,7 +558,7 @@ mod tests {
         assert!(e.contains("field 'scenario'"), "{e}");
         let e = parse_summary(s, b"{\n\"a\": ").unwrap_err().to_string();
         assert!(
-            e.starts_with("plan-a/summary.json:2: not valid JSON"),
+            e.contains("\n  plan-a/summary.json:2: not valid JSON"),
             "{e}"
         );
         let e = read_plan(Path::new("/nonexistent/plan"))

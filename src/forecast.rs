@@ -24,6 +24,7 @@ use std::path::Path;
 
 use chrono::NaiveDate;
 
+use crate::csvread::{self, Cells, CsvRow, iso_date, problem};
 use crate::scenario::{Location, MAX_LISTED, Problem};
 
 /// Degree-day model settings.
@@ -67,7 +68,7 @@ pub type Temps = BTreeMap<(String, NaiveDate), f64>;
 #[derive(Debug, thiserror::Error)]
 pub enum ForecastError {
     /// An input file is wrong (every problem found, at most [`MAX_LISTED`]).
-    #[error("{} problem(s):\n{}", .problems.len() + .omitted, list(.problems, *.omitted))]
+    #[error("{}", csvread::problem_list(.problems, *.omitted))]
     Input {
         /// Problems, in file order.
         problems: Vec<Problem>,
@@ -83,14 +84,6 @@ pub enum ForecastError {
         #[source]
         source: std::io::Error,
     },
-}
-
-fn list(problems: &[Problem], omitted: usize) -> String {
-    let mut s: String = problems.iter().map(|p| format!("  {p}\n")).collect();
-    if omitted > 0 {
-        s.push_str(&format!("  … and {omitted} more\n"));
-    }
-    s
 }
 
 impl ForecastError {
@@ -292,188 +285,145 @@ pub fn supply_csv(rows: &[SupplyRow]) -> Vec<u8> {
     s.into_bytes()
 }
 
-/// Reads a CSV file with the given required columns; calls `row` with (line, fields) per
-/// record and collects its problems.
-fn read_csv<const N: usize>(
-    path: &Path,
-    columns: [&str; N],
-    mut row: impl FnMut(u64, [&str; N], &mut Vec<Problem>),
-) -> Result<(), ForecastError> {
+/// Reads a CSV file as rows of `R` with their lines; every problem is reported.
+fn read_rows<R: CsvRow>(path: &Path) -> Result<Vec<(u64, R)>, ForecastError> {
     let file = path.file_name().map_or_else(
         || path.display().to_string(),
         |n| n.to_string_lossy().into_owned(),
     );
-    let text = std::fs::read_to_string(path).map_err(|source| ForecastError::Io {
+    let bytes = std::fs::read(path).map_err(|source| ForecastError::Io {
         path: path.display().to_string(),
         source,
     })?;
-    let mut problems = Vec::new();
-    let at = |line: u64, field: Option<&str>, value: Option<&str>, message: String| Problem {
-        file: file.clone(),
-        location: Location::Line(line),
-        field: field.map(str::to_string),
-        value: value.map(str::to_string),
-        message,
-    };
-    let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
-    let headers = rdr
-        .headers()
-        .map_err(|e| ForecastError::input(vec![at(1, None, None, e.to_string())]))?
-        .clone();
-    let mut col = [0usize; N];
-    for (i, c) in columns.iter().enumerate() {
-        match headers.iter().position(|h| h.trim() == *c) {
-            Some(p) => col[i] = p,
-            None => problems.push(at(
-                1,
-                Some(c),
-                None,
-                format!(
-                    "column is missing; the header must have {}",
-                    columns.join(",")
-                ),
-            )),
-        }
-    }
-    if !problems.is_empty() {
-        return Err(ForecastError::input(problems));
-    }
-    for rec in rdr.records() {
-        match rec {
-            Ok(r) => {
-                let line = r.position().map_or(0, |p| p.line());
-                let fields: [&str; N] = std::array::from_fn(|i| r.get(col[i]).unwrap_or("").trim());
-                let before = problems.len();
-                row(line, fields, &mut problems);
-                for p in &mut problems[before..] {
-                    p.file = file.clone();
-                    p.location = Location::Line(line);
-                }
-            }
-            Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
-                problems.push(at(line, None, None, e.to_string()));
-            }
-        }
-    }
-    if !problems.is_empty() {
-        return Err(ForecastError::input(problems));
-    }
-    Ok(())
-}
-
-/// A problem whose file and line [`read_csv`] fills in.
-fn bad(field: &str, value: &str, message: &str) -> Problem {
-    Problem {
-        file: String::new(),
-        location: Location::File,
-        field: Some(field.to_string()),
-        value: Some(value.to_string()),
-        message: message.to_string(),
+    let read = csvread::read::<R>(&file, &bytes);
+    if read.problems.is_empty() {
+        Ok(read.rows)
+    } else {
+        Err(ForecastError::input(read.problems))
     }
 }
 
-fn date(field: &str, v: &str, problems: &mut Vec<Problem>) -> Option<NaiveDate> {
-    let d = NaiveDate::parse_from_str(v, "%Y-%m-%d").ok();
-    if d.is_none() {
-        problems.push(bad(field, v, "not an ISO date (YYYY-MM-DD)"));
+fn date(c: &mut Cells<'_>, col: &str) -> Option<NaiveDate> {
+    c.parse_with(col, |s| {
+        iso_date(s).ok_or_else(|| "not an ISO date (YYYY-MM-DD)".to_string())
+    })
+}
+
+impl CsvRow for Cage {
+    const COLUMNS: &'static [&'static str] = &[
+        "cage_id",
+        "facility_id",
+        "wasps_added_date",
+        "expected_yield_wasps",
+    ];
+    const UNIQUE: Option<(&'static str, &'static str)> = Some(("cage_id", "cage ids are unique"));
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let id = c.required("cage_id", "every cage needs an id");
+        let facility_id = c.required("facility_id", "every cage needs a facility id");
+        let added = date(c, "wasps_added_date");
+        let yield_w = c.parse_with("expected_yield_wasps", |s| {
+            s.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite() && *x >= 0.0)
+                .ok_or_else(|| "a number of wasps ≥ 0".to_string())
+        });
+        Some(Cage {
+            id: id?,
+            facility_id: facility_id?,
+            added: added?,
+            expected_yield_wasps: yield_w?,
+        })
     }
-    d
 }
 
 /// Reads `rearing.csv`: `cage_id,facility_id,wasps_added_date,expected_yield_wasps`.
 pub fn read_cages(path: &Path) -> Result<Vec<Cage>, ForecastError> {
-    let mut out = Vec::new();
-    let mut seen = BTreeSet::new();
-    read_csv(
-        path,
-        [
-            "cage_id",
-            "facility_id",
-            "wasps_added_date",
-            "expected_yield_wasps",
-        ],
-        |_, [id, f, added, y], p| {
-            if id.is_empty() {
-                p.push(bad("cage_id", id, "every cage needs an id"));
-            } else if !seen.insert(id.to_string()) {
-                p.push(bad(
-                    "cage_id",
-                    id,
-                    "cage ids are unique; this one is repeated",
-                ));
-            }
-            if f.is_empty() {
-                p.push(bad("facility_id", f, "every cage needs a facility id"));
-            }
-            let added = date("wasps_added_date", added, p);
-            let y_ok = y.parse::<f64>().ok().filter(|x| x.is_finite() && *x >= 0.0);
-            if y_ok.is_none() {
-                p.push(bad("expected_yield_wasps", y, "a number of wasps ≥ 0"));
-            }
-            if let (Some(added), Some(yield_w), false) =
-                (added, y_ok, id.is_empty() || f.is_empty())
-            {
-                out.push(Cage {
-                    id: id.to_string(),
-                    facility_id: f.to_string(),
-                    added,
-                    expected_yield_wasps: yield_w,
-                });
-            }
-        },
-    )?;
-    Ok(out)
+    Ok(read_rows::<Cage>(path)?
+        .into_iter()
+        .map(|(_, c)| c)
+        .collect())
+}
+
+/// One `temps.csv` row.
+struct TempRow {
+    facility_id: String,
+    date: NaiveDate,
+    mean_c: f64,
+}
+
+impl CsvRow for TempRow {
+    const COLUMNS: &'static [&'static str] = &["facility_id", "date", "mean_c"];
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let facility_id = c.required("facility_id", "every row needs a facility id");
+        let d = date(c, "date");
+        let mean_c = c.parse_with("mean_c", |s| {
+            s.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite() && (-60.0..=60.0).contains(x))
+                .ok_or_else(|| "a daily mean temperature in °C between −60 and 60".to_string())
+        });
+        Some(TempRow {
+            facility_id: facility_id?,
+            date: d?,
+            mean_c: mean_c?,
+        })
+    }
 }
 
 /// Reads `temps.csv`: `facility_id,date,mean_c`; one row per facility and day.
 pub fn read_temps(path: &Path) -> Result<Temps, ForecastError> {
+    let file = path
+        .file_name()
+        .map_or(String::new(), |n| n.to_string_lossy().into_owned());
     let mut out = Temps::new();
-    read_csv(
-        path,
-        ["facility_id", "date", "mean_c"],
-        |_, [f, d, t], p| {
-            if f.is_empty() {
-                p.push(bad("facility_id", f, "every row needs a facility id"));
-            }
-            let d = date("date", d, p);
-            let t_ok = t
-                .parse::<f64>()
-                .ok()
-                .filter(|x| x.is_finite() && (-60.0..=60.0).contains(x));
-            if t_ok.is_none() {
-                p.push(bad(
-                    "mean_c",
-                    t,
-                    "a daily mean temperature in °C between −60 and 60",
-                ));
-            }
-            if let (Some(d), Some(t), false) = (d, t_ok, f.is_empty())
-                && out.insert((f.to_string(), d), t).is_some()
-            {
-                p.push(bad(
-                    "date",
-                    &d.to_string(),
-                    "this facility already has a temperature for this day",
-                ));
-            }
-        },
-    )?;
+    let mut problems = Vec::new();
+    for (line, t) in read_rows::<TempRow>(path)? {
+        if out.insert((t.facility_id, t.date), t.mean_c).is_some() {
+            problems.push(problem(
+                &file,
+                line,
+                Some("date"),
+                Some(&t.date.to_string()),
+                "this facility already has a temperature for this day",
+            ));
+        }
+    }
+    if !problems.is_empty() {
+        return Err(ForecastError::input(problems));
+    }
     Ok(out)
+}
+
+/// `id` and `wasps_per_vial` of a `facilities.csv` row.
+struct VialSize {
+    id: String,
+    wasps_per_vial: u32,
+}
+
+impl CsvRow for VialSize {
+    const COLUMNS: &'static [&'static str] = &["id", "wasps_per_vial"];
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let id = c.required("id", "every facility needs an id");
+        let w = c.parse_with("wasps_per_vial", |s| match s.parse::<u32>() {
+            Ok(n) if n > 0 => Ok(n),
+            _ => Err("a whole number of wasps > 0".to_string()),
+        });
+        Some(VialSize {
+            id: id?,
+            wasps_per_vial: w?,
+        })
+    }
 }
 
 /// Reads `id` and `wasps_per_vial` from a `facilities.csv`.
 pub fn read_wasps_per_vial(path: &Path) -> Result<BTreeMap<String, u32>, ForecastError> {
-    let mut out = BTreeMap::new();
-    read_csv(path, ["id", "wasps_per_vial"], |_, [id, w], p| {
-        match w.parse::<u32>() {
-            Ok(n) if n > 0 && !id.is_empty() => {
-                out.insert(id.to_string(), n);
-            }
-            _ => p.push(bad("wasps_per_vial", w, "a whole number of wasps > 0")),
-        }
-    })?;
-    Ok(out)
+    Ok(read_rows::<VialSize>(path)?
+        .into_iter()
+        .map(|(_, v)| (v.id, v.wasps_per_vial))
+        .collect())
 }
 
 #[cfg(test)]
@@ -488,6 +438,21 @@ mod tests {
         (0..days)
             .map(|k| ((f.to_string(), d(from) + chrono::Days::new(k)), t))
             .collect()
+    }
+
+    #[test]
+    fn a_bad_line_of_a_crlf_rearing_log_names_its_physical_line() {
+        // csv's own line count lags one per CRLF; this reader once reported line 3 here.
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("rearing.csv");
+        std::fs::write(
+            &path,
+            "cage_id,facility_id,wasps_added_date,expected_yield_wasps\r\n\
+             C1,F1,2027-02-01,100\r\nC2,F1,2027-02-01,100\r\nC3,F1,2027-02-31,100\r\n",
+        )
+        .expect("write");
+        let e = read_cages(&path).expect_err("bad date").to_string();
+        assert!(e.contains("rearing.csv:4: field 'wasps_added_date'"), "{e}");
     }
 
     #[test]

@@ -13,6 +13,7 @@ pub mod baseline;
 pub mod check;
 pub mod cli;
 pub mod compare;
+pub mod csvread;
 pub mod demo;
 pub mod dispatch;
 pub mod eligibility;

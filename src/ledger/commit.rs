@@ -8,43 +8,14 @@
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 
-use chrono::{Datelike, NaiveDate, NaiveDateTime, Weekday};
+use chrono::{Datelike, NaiveDate, NaiveDateTime, Timelike, Weekday};
 use rusqlite::{OptionalExtension, TransactionBehavior, params};
 
 use super::{Ledger, LedgerError, line_problem, parse_date};
 use crate::arcs::Mode;
+use crate::csvread::{self, local_datetime};
+use crate::output::{AllocationRecord, ManifestRecord, iso_minutes};
 use crate::scenario::{Problem, SiteKind};
-
-/// One manifest row as the ledger keeps it (no coordinates: the ledger holds no locations).
-#[derive(Clone, Debug, PartialEq)]
-pub struct ShipmentRecord {
-    /// `shipment_id`, unique over the season.
-    pub shipment_id: String,
-    /// `facility_id`.
-    pub facility_id: String,
-    /// `dispatch_date`.
-    pub dispatch_date: NaiveDate,
-    /// `mode`.
-    pub mode: Mode,
-    /// `route_id` (routes only).
-    pub route_id: Option<String>,
-    /// `stop_seq`, 1-based (routes only).
-    pub stop_seq: Option<u32>,
-    /// `site_id`.
-    pub site_id: String,
-    /// `site_kind`.
-    pub site_kind: SiteKind,
-    /// `vials`.
-    pub vials: u32,
-    /// `wasps_packed`, wasps.
-    pub wasps_packed: u64,
-    /// `wasps_expected_alive`, wasps.
-    pub wasps_expected_alive: f64,
-    /// `eta`, ISO local date-time as written.
-    pub eta: String,
-    /// `release_by`, ISO local date-time as written.
-    pub release_by: String,
-}
 
 /// A plan folder as the ledger reads it.
 #[derive(Clone, Debug, PartialEq)]
@@ -54,8 +25,9 @@ pub struct PlanRecord {
     pub week_start: NaiveDate,
     /// `summary.json` `scenario` (empty without a summary).
     pub scenario: String,
-    /// Manifest rows, sorted by shipment id.
-    pub shipments: Vec<ShipmentRecord>,
+    /// Manifest rows, sorted by shipment id, without coordinates (`lat`, `lon` are `None`:
+    /// the ledger holds no locations).
+    pub shipments: Vec<ManifestRecord>,
     /// Dooryard requests listed in `allocation.csv` (id, reason; reason empty when served),
     /// sorted by id; empty without an `allocation.csv`. Lets the report tell how long a
     /// request has been waiting.
@@ -87,23 +59,6 @@ pub enum CommitOutcome {
 }
 
 const MANIFEST: &str = "manifest.csv";
-/// The `manifest.csv` columns a commit reads, in the order it reads them: every column of
-/// [`crate::output::MANIFEST_COLUMNS`] but `lat` and `lon` (a test keeps the two in step).
-const REQUIRED: [&str; 13] = [
-    "shipment_id",
-    "facility_id",
-    "dispatch_date",
-    "mode",
-    "route_id",
-    "stop_seq",
-    "site_id",
-    "site_kind",
-    "vials",
-    "wasps_packed",
-    "wasps_expected_alive",
-    "eta",
-    "release_by",
-];
 
 /// Reads `manifest.csv` (required), `summary.json` and `allocation.csv` (optional) from a plan
 /// folder written by `broodcast plan`. Every problem in the files is reported, each naming
@@ -111,8 +66,8 @@ const REQUIRED: [&str; 13] = [
 pub fn read_plan_folder(dir: &Path) -> Result<PlanRecord, LedgerError> {
     let mut problems = Vec::new();
     let manifest_path = dir.join(MANIFEST);
-    let text = read_text(&manifest_path)?;
-    let shipments = parse_manifest(&text, &mut problems);
+    let bytes = read_bytes(&manifest_path)?;
+    let (lines, shipments) = parse_manifest(&bytes, &mut problems);
     let (summary_week, scenario) = read_summary(dir, &mut problems)?;
     let candidates = read_candidates(dir, &mut problems)?;
     if !problems.is_empty() {
@@ -135,11 +90,11 @@ pub fn read_plan_folder(dir: &Path) -> Result<PlanRecord, LedgerError> {
         },
     };
     let week_end = week_start + chrono::Days::new(6);
-    for s in &shipments {
+    for (s, line) in shipments.iter().zip(lines) {
         if s.dispatch_date < week_start || s.dispatch_date > week_end {
             problems.push(line_problem(
                 MANIFEST,
-                0,
+                line,
                 Some("dispatch_date"),
                 Some(&s.dispatch_date.to_string()),
                 format!(
@@ -160,192 +115,31 @@ pub fn read_plan_folder(dir: &Path) -> Result<PlanRecord, LedgerError> {
     })
 }
 
-fn read_text(path: &Path) -> Result<String, LedgerError> {
-    std::fs::read_to_string(path).map_err(|source| LedgerError::Io {
+fn read_bytes(path: &Path) -> Result<Vec<u8>, LedgerError> {
+    std::fs::read(path).map_err(|source| LedgerError::Io {
         path: path.display().to_string(),
         source,
     })
 }
 
-/// Column positions of `names` in `headers`; a problem for each missing one.
-pub(super) fn columns<const N: usize>(
-    file: &str,
-    headers: &csv::StringRecord,
-    names: [&str; N],
-    problems: &mut Vec<Problem>,
-) -> Option<[usize; N]> {
-    let mut out = [0; N];
-    let mut ok = true;
-    for (i, name) in names.iter().enumerate() {
-        match headers.iter().position(|h| h.trim() == *name) {
-            Some(p) => out[i] = p,
-            None => {
-                ok = false;
-                problems.push(line_problem(
-                    file,
-                    1,
-                    Some(name),
-                    None,
-                    format!(
-                        "column is missing; the header must have {}",
-                        names.join(",")
-                    ),
-                ));
-            }
-        }
-    }
-    ok.then_some(out)
-}
-
-/// Parses an ISO local date-time with minutes or seconds.
-pub(super) fn parse_datetime(s: &str) -> Option<NaiveDateTime> {
-    let s = s.trim();
-    [
-        "%Y-%m-%dT%H:%M",
-        "%Y-%m-%dT%H:%M:%S",
-        "%Y-%m-%d %H:%M",
-        "%Y-%m-%d %H:%M:%S",
-    ]
-    .iter()
-    .find_map(|f| NaiveDateTime::parse_from_str(s, f).ok())
-}
-
-fn parse_manifest(text: &str, problems: &mut Vec<Problem>) -> Vec<ShipmentRecord> {
-    let lines = crate::scenario::CsvLines::new(text);
-    let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
-    let headers = match rdr.headers() {
-        Ok(h) => h.clone(),
-        Err(e) => {
-            problems.push(line_problem(MANIFEST, 1, None, None, e.to_string()));
-            return Vec::new();
-        }
-    };
-    let Some(col) = columns(MANIFEST, &headers, REQUIRED, problems) else {
-        return Vec::new();
-    };
-    let mut out = Vec::new();
-    let mut seen: BTreeMap<String, u64> = BTreeMap::new();
-    for rec in rdr.records() {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(e) => {
-                let line = lines.line(e.position());
-                problems.push(line_problem(MANIFEST, line, None, None, e.to_string()));
-                continue;
-            }
-        };
-        let line = lines.line(rec.position());
-        let before = problems.len();
-        let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
-        let mut bad = |field: &str, value: &str, rule: &str| {
-            problems.push(line_problem(MANIFEST, line, Some(field), Some(value), rule));
-        };
-        let shipment_id = get(0).to_string();
-        if shipment_id.is_empty() {
-            bad("shipment_id", "", "every row needs a shipment id");
-        } else if let Some(first) = seen.insert(shipment_id.clone(), line) {
-            bad(
-                "shipment_id",
-                &shipment_id,
-                &format!("already used on line {first}; shipment ids are unique"),
-            );
-        }
-        let facility_id = get(1).to_string();
-        if facility_id.is_empty() {
-            bad("facility_id", "", "every row needs a facility id");
-        }
-        let dispatch_date = parse_date(get(2));
-        if dispatch_date.is_none() {
-            bad("dispatch_date", get(2), "not an ISO date (YYYY-MM-DD)");
-        }
-        let mode = match get(3) {
-            "route" => Some(Mode::Route),
-            "parcel" => Some(Mode::Parcel),
-            v => {
-                bad("mode", v, "must be route or parcel");
-                None
-            }
-        };
-        let route_id = Some(get(4).to_string()).filter(|s| !s.is_empty());
-        let stop_seq = match get(5) {
-            "" => None,
-            v => match v.parse::<u32>() {
-                Ok(n) if n >= 1 => Some(n),
-                _ => {
-                    bad(
-                        "stop_seq",
-                        v,
-                        "a stop number is a whole number ≥ 1, or empty",
-                    );
-                    None
-                }
-            },
-        };
-        let site_id = get(6).to_string();
-        if site_id.is_empty() {
-            bad("site_id", "", "every row needs a site id");
-        }
-        let site_kind = match get(7) {
-            "block" => Some(SiteKind::Block),
-            "dooryard" => Some(SiteKind::Dooryard),
-            v => {
-                bad("site_kind", v, "must be block or dooryard");
-                None
-            }
-        };
-        let vials = get(8).parse::<u32>().ok();
-        if vials.is_none() {
-            bad("vials", get(8), "vials are a whole number ≥ 0");
-        }
-        let wasps_packed = get(9).parse::<u64>().ok();
-        if wasps_packed.is_none() {
-            bad("wasps_packed", get(9), "wasps are a whole number ≥ 0");
-        }
-        let alive = get(10)
-            .parse::<f64>()
-            .ok()
-            .filter(|x| x.is_finite() && *x >= 0.0);
-        if alive.is_none() {
-            bad(
-                "wasps_expected_alive",
-                get(10),
-                "expected live wasps are a finite number ≥ 0",
-            );
-        }
-        for (i, name) in [(11, "eta"), (12, "release_by")] {
-            if parse_datetime(get(i)).is_none() {
-                bad(
-                    name,
-                    get(i),
-                    "not an ISO local date-time (YYYY-MM-DDTHH:MM)",
-                );
-            }
-        }
-        if problems.len() > before {
-            continue;
-        }
-        if let (Some(dispatch_date), Some(mode), Some(site_kind), Some(vials), Some(wp), Some(a)) =
-            (dispatch_date, mode, site_kind, vials, wasps_packed, alive)
-        {
-            out.push(ShipmentRecord {
-                shipment_id,
-                facility_id,
-                dispatch_date,
-                mode,
-                route_id,
-                stop_seq,
-                site_id,
-                site_kind,
-                vials,
-                wasps_packed: wp,
-                wasps_expected_alive: a,
-                eta: get(11).to_string(),
-                release_by: get(12).to_string(),
-            });
-        }
-    }
-    out.sort_by(|a, b| a.shipment_id.cmp(&b.shipment_id));
-    out
+/// The manifest's shipments sorted by id, coordinates dropped, with the line of each.
+fn parse_manifest(bytes: &[u8], problems: &mut Vec<Problem>) -> (Vec<u64>, Vec<ManifestRecord>) {
+    let read = csvread::read::<ManifestRecord>(MANIFEST, bytes);
+    problems.extend(read.problems);
+    let mut out: Vec<(u64, ManifestRecord)> = read
+        .rows
+        .into_iter()
+        .map(|(line, r)| {
+            let r = ManifestRecord {
+                lat: None,
+                lon: None,
+                ..r
+            };
+            (line, r)
+        })
+        .collect();
+    out.sort_by(|a, b| a.1.shipment_id.cmp(&b.1.shipment_id));
+    out.into_iter().unzip()
 }
 
 fn read_summary(
@@ -356,8 +150,8 @@ fn read_summary(
     if !path.exists() {
         return Ok((None, String::new()));
     }
-    let text = read_text(&path)?;
-    let value: serde_json::Value = match serde_json::from_str(&text) {
+    let bytes = read_bytes(&path)?;
+    let value: serde_json::Value = match serde_json::from_slice(&bytes) {
         Ok(v) => v,
         Err(e) => {
             problems.push(line_problem(
@@ -403,48 +197,26 @@ fn read_candidates(
     if !path.exists() {
         return Ok(Vec::new());
     }
-    let text = read_text(&path)?;
-    let lines = crate::scenario::CsvLines::new(&text);
-    let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
-    let headers = match rdr.headers() {
-        Ok(h) => h.clone(),
-        Err(e) => {
-            problems.push(line_problem(FILE, 1, None, None, e.to_string()));
-            return Ok(Vec::new());
-        }
-    };
-    let Some([id, kind, reason]) =
-        columns(FILE, &headers, ["site_id", "site_kind", "reason"], problems)
-    else {
-        return Ok(Vec::new());
-    };
-    let mut out = BTreeMap::new();
-    for rec in rdr.records() {
-        match rec {
-            Ok(r) => {
-                if r.get(kind).map(str::trim) == Some("dooryard") {
-                    let site = r.get(id).unwrap_or("").trim().to_string();
-                    if site.is_empty() {
-                        let line = lines.line(r.position());
-                        problems.push(line_problem(
-                            FILE,
-                            line,
-                            Some("site_id"),
-                            Some(""),
-                            "every row needs a site id",
-                        ));
-                        continue;
-                    }
-                    out.insert(site, r.get(reason).unwrap_or("").trim().to_string());
-                }
-            }
-            Err(e) => {
-                let line = lines.line(e.position());
-                problems.push(line_problem(FILE, line, None, None, e.to_string()));
-            }
-        }
+    let read = csvread::read::<AllocationRecord>(FILE, &read_bytes(&path)?);
+    problems.extend(read.problems);
+    Ok(read
+        .rows
+        .into_iter()
+        .filter(|(_, r)| r.site_kind == SiteKind::Dooryard)
+        .map(|(_, r)| (r.site_id, r.reason))
+        .collect::<BTreeMap<_, _>>()
+        .into_iter()
+        .collect())
+}
+
+/// A time as the ledger stores it: to the minute as `manifest.csv` writes it, with seconds
+/// only when a hand-edited file gave some (so that committing that file again is a no-op).
+fn stored_time(t: NaiveDateTime) -> String {
+    if t.second() == 0 {
+        iso_minutes(t)
+    } else {
+        t.format("%Y-%m-%dT%H:%M:%S").to_string()
     }
-    Ok(out.into_iter().collect())
 }
 
 /// Outcome columns of a stored shipment: status, released_at, note.
@@ -590,8 +362,8 @@ impl Ledger {
                     // Wasps per shipment are far below i64::MAX; saturate rather than wrap.
                     i64::try_from(s.wasps_packed).unwrap_or(i64::MAX),
                     s.wasps_expected_alive,
-                    s.eta,
-                    s.release_by,
+                    stored_time(s.eta),
+                    stored_time(s.release_by),
                     status,
                     released_at,
                     note,
@@ -614,7 +386,7 @@ impl Ledger {
 fn load_week(
     tx: &rusqlite::Transaction,
     week: &str,
-) -> rusqlite::Result<(Vec<ShipmentRecord>, BTreeMap<String, Outcome>)> {
+) -> rusqlite::Result<(Vec<ManifestRecord>, BTreeMap<String, Outcome>)> {
     let mut q = tx.prepare(
         "SELECT shipment_id, facility_id, dispatch_date, mode, route_id, stop_seq, site_id,
                 site_kind, vials, wasps_packed, wasps_expected_alive, eta, release_by,
@@ -630,7 +402,9 @@ fn load_week(
         let mode: String = r.get(3)?;
         let kind: String = r.get(7)?;
         let packed: i64 = r.get(9)?;
-        rows.push(ShipmentRecord {
+        let eta: String = r.get(11)?;
+        let release_by: String = r.get(12)?;
+        rows.push(ManifestRecord {
             shipment_id: id.clone(),
             facility_id: r.get(1)?,
             // The CHECK constraints and the writer guarantee these parse; a row that does not
@@ -652,8 +426,10 @@ fn load_week(
             vials: r.get(8)?,
             wasps_packed: u64::try_from(packed).unwrap_or(0),
             wasps_expected_alive: r.get(10)?,
-            eta: r.get(11)?,
-            release_by: r.get(12)?,
+            lat: None,
+            lon: None,
+            eta: local_datetime(&eta).unwrap_or(NaiveDateTime::MIN),
+            release_by: local_datetime(&release_by).unwrap_or(NaiveDateTime::MIN),
         });
         outcomes.insert(id, (r.get(13)?, r.get(14)?, r.get(15)?));
     }
@@ -675,12 +451,7 @@ pub(crate) mod tests {
     use super::*;
 
     #[test]
-    fn required_manifest_columns_are_the_writers_but_the_position() {
-        let written: Vec<&str> = crate::output::MANIFEST_COLUMNS
-            .into_iter()
-            .filter(|c| !matches!(*c, "lat" | "lon"))
-            .collect();
-        assert_eq!(REQUIRED.as_slice(), written.as_slice());
+    fn the_test_header_is_the_writers() {
         assert_eq!(HEADER, crate::output::MANIFEST_COLUMNS.join(","));
     }
 
@@ -748,6 +519,21 @@ pub(crate) mod tests {
             }
         );
         assert_eq!(count(&l), 1);
+    }
+
+    #[test]
+    fn a_hand_edited_time_with_seconds_recommits_as_unchanged() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
+        let a = row("S-A", "2027-03-01", "B1", "block", 3).replace("T09:00", "T09:00:30");
+        let b = row("S-B", "2027-03-02", "B2", "block", 1).replace(",27.1,-81.2,", ",,,");
+        let p = read_plan_folder(folder("2027-03-01", &[&a, &b]).path()).expect("read");
+        assert_eq!(p.shipments[0].lat, None, "the ledger keeps no coordinates");
+        l.commit(&p, false).expect("first");
+        assert_eq!(
+            l.commit(&p, false).expect("again"),
+            CommitOutcome::Unchanged { shipments: 2 }
+        );
     }
 
     #[test]

@@ -6,13 +6,12 @@
 //! report (it may hold anything a coordinator types). The last import of a shipment wins;
 //! importing the same file again changes nothing.
 
-use std::collections::BTreeMap;
 use std::path::Path;
 
 use rusqlite::{OptionalExtension, TransactionBehavior, params};
 
-use super::commit::{columns, parse_datetime};
-use super::{Ledger, LedgerError, line_problem, parse_date};
+use super::{Ledger, LedgerError, line_problem};
+use crate::csvread::{self, Cells, CsvRow, iso_date, local_datetime};
 
 /// A shipment's outcome.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
@@ -85,6 +84,52 @@ pub struct ConfirmOutcome {
     pub requests_back_in_queue: Vec<String>,
 }
 
+impl CsvRow for Confirmation {
+    const COLUMNS: &'static [&'static str] = &crate::output::CONFIRMATION_COLUMNS;
+    const UNIQUE: Option<(&'static str, &'static str)> =
+        Some(("shipment_id", "give each shipment one line"));
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let shipment_id = c.required(
+            "shipment_id",
+            "every line needs a shipment id (from manifest.csv)",
+        );
+        let status = c.parse_with("status", |s| match Status::parse(s) {
+            Some(s) if s != Status::Scheduled => Ok(s),
+            _ => Err("must be released, not_released or dead_on_arrival".to_string()),
+        });
+        let released_at = c.parse_with("released_at", |raw| {
+            if raw.is_empty() {
+                Ok(None)
+            } else if let Some(t) = local_datetime(raw) {
+                Ok(Some(t.format("%Y-%m-%dT%H:%M").to_string()))
+            } else if let Some(d) = iso_date(raw) {
+                Ok(Some(d.to_string()))
+            } else {
+                Err(
+                    "not an ISO date (YYYY-MM-DD) or local date-time (YYYY-MM-DDTHH:MM); \
+                     leave it empty when unknown"
+                        .to_string(),
+                )
+            }
+        });
+        if status == Some(Status::NotReleased) && released_at.as_ref().is_some_and(Option::is_some)
+        {
+            c.problem(
+                "released_at",
+                "a shipment that was not released has no release time; leave it empty",
+            );
+        }
+        Some(Confirmation {
+            line: c.line(),
+            shipment_id: shipment_id?,
+            status: status?,
+            released_at: released_at?,
+            note: c.text("note").to_string(),
+        })
+    }
+}
+
 /// Reads a confirmations file; every problem is reported with file, line and field. O(n log n).
 pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError> {
     let file = path.file_name().map_or_else(
@@ -95,146 +140,11 @@ pub fn read_confirmations(path: &Path) -> Result<Vec<Confirmation>, LedgerError>
         path: path.display().to_string(),
         source,
     })?;
-    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
-    let text = match std::str::from_utf8(bytes) {
-        Ok(t) => t,
-        Err(e) => {
-            let good = &bytes[..e.valid_up_to()];
-            let line = 1 + good.iter().filter(|&&b| b == b'\n').count() as u64;
-            return Err(LedgerError::input(vec![line_problem(
-                &file,
-                line,
-                None,
-                None,
-                "the line is not valid UTF-8 text; save the file as 'CSV UTF-8'",
-            )]));
-        }
-    };
-    let lines = crate::scenario::CsvLines::new(text);
-    let mut problems = Vec::new();
-    let mut rdr = csv::ReaderBuilder::new().from_reader(text.as_bytes());
-    let headers = match rdr.headers() {
-        Ok(h) => h.clone(),
-        Err(e) => {
-            return Err(LedgerError::input(vec![line_problem(
-                &file,
-                1,
-                None,
-                None,
-                e.to_string(),
-            )]));
-        }
-    };
-    let Some(col) = columns(
-        &file,
-        &headers,
-        crate::output::CONFIRMATION_COLUMNS,
-        &mut problems,
-    ) else {
-        return Err(LedgerError::input(problems));
-    };
-    let mut out = Vec::new();
-    let mut seen: BTreeMap<String, u64> = BTreeMap::new();
-    for rec in rdr.records() {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(e) => {
-                let line = lines.line(e.position());
-                problems.push(line_problem(&file, line, None, None, e.to_string()));
-                continue;
-            }
-        };
-        let line = lines.line(rec.position());
-        if let Some(sw) = crate::scenario::swallowed_row(&rec, headers.len()) {
-            problems.push(line_problem(
-                &file,
-                line,
-                headers.get(sw.column).map(str::trim),
-                None,
-                sw.message(line),
-            ));
-            continue;
-        }
-        let get = |i: usize| rec.get(col[i]).unwrap_or("").trim();
-        let before = problems.len();
-        let id = get(0).to_string();
-        if id.is_empty() {
-            problems.push(line_problem(
-                &file,
-                line,
-                Some("shipment_id"),
-                Some(""),
-                "every line needs a shipment id (from manifest.csv)",
-            ));
-        } else if let Some(first) = seen.insert(id.clone(), line) {
-            problems.push(line_problem(
-                &file,
-                line,
-                Some("shipment_id"),
-                Some(&id),
-                format!("already confirmed on line {first}; give each shipment one line"),
-            ));
-        }
-        let status = match Status::parse(get(1)) {
-            Some(s) if s != Status::Scheduled => Some(s),
-            _ => {
-                problems.push(line_problem(
-                    &file,
-                    line,
-                    Some("status"),
-                    Some(get(1)),
-                    "must be released, not_released or dead_on_arrival",
-                ));
-                None
-            }
-        };
-        let raw = get(2);
-        let released_at = if raw.is_empty() {
-            None
-        } else if let Some(t) = parse_datetime(raw) {
-            Some(t.format("%Y-%m-%dT%H:%M").to_string())
-        } else if let Some(d) = parse_date(raw) {
-            Some(d.to_string())
-        } else {
-            problems.push(line_problem(
-                &file,
-                line,
-                Some("released_at"),
-                Some(raw),
-                "not an ISO date (YYYY-MM-DD) or local date-time (YYYY-MM-DDTHH:MM); leave it empty when unknown",
-            ));
-            None
-        };
-        if status == Some(Status::NotReleased) && released_at.is_some() {
-            problems.push(line_problem(
-                &file,
-                line,
-                Some("released_at"),
-                Some(raw),
-                "a shipment that was not released has no release time; leave it empty",
-            ));
-        }
-        if problems.len() > before {
-            continue;
-        }
-        if let Some(status) = status {
-            out.push(Confirmation {
-                line,
-                shipment_id: id,
-                status,
-                released_at,
-                note: get(3).to_string(),
-            });
-        }
+    let read = csvread::read::<Confirmation>(&file, &bytes);
+    if !read.problems.is_empty() {
+        return Err(LedgerError::input(read.problems));
     }
-    if !problems.is_empty() {
-        for p in &mut problems {
-            // An invisible character in a value is shown escaped (`\u{feff}`).
-            p.value = p.value.as_deref().map(crate::scenario::show_value);
-        }
-        return Err(LedgerError::input(problems));
-    }
-    Ok(out)
+    Ok(read.rows.into_iter().map(|(_, c)| c).collect())
 }
 
 impl Ledger {

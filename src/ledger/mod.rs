@@ -23,15 +23,14 @@ mod history;
 mod report;
 mod schema;
 
-use std::fmt;
 use std::path::Path;
 
 use chrono::NaiveDate;
 use rusqlite::{Connection, OpenFlags};
 
-use crate::scenario::{Location, MAX_LISTED, Problem};
+use crate::scenario::{MAX_LISTED, Problem};
 
-pub use commit::{CommitOutcome, PlanRecord, ShipmentRecord, read_plan_folder};
+pub use commit::{CommitOutcome, PlanRecord, read_plan_folder};
 pub use confirm::{ConfirmOutcome, Confirmation, Status, read_confirmations};
 pub use history::{LedgerHistory, LedgerMarks};
 pub use report::{SeasonData, SeasonShipment, render_report};
@@ -76,7 +75,7 @@ pub enum LedgerError {
         path: String,
     },
     /// An input file (manifest, summary, allocation, confirmations) is wrong.
-    #[error("{}", Problems(.problems, *.omitted))]
+    #[error("{}", crate::csvread::problem_list(.problems, *.omitted))]
     Input {
         /// Problems found, in file order (at most [`MAX_LISTED`]).
         problems: Vec<Problem>,
@@ -133,42 +132,8 @@ impl LedgerError {
     }
 }
 
-struct Problems<'a>(&'a [Problem], usize);
-
-impl fmt::Display for Problems<'_> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let n = self.0.len() + self.1;
-        writeln!(f, "{n} problem{}:", if n == 1 { "" } else { "s" })?;
-        for p in self.0 {
-            writeln!(f, "  {p}")?;
-        }
-        if self.1 > 0 {
-            writeln!(f, "  … and {} more", self.1)?;
-        }
-        Ok(())
-    }
-}
-
-/// A problem at a 1-based line of a CSV file.
-pub(crate) fn line_problem(
-    file: &str,
-    line: u64,
-    field: Option<&str>,
-    value: Option<&str>,
-    message: impl Into<String>,
-) -> Problem {
-    Problem {
-        file: file.to_string(),
-        location: if line == 0 {
-            Location::File
-        } else {
-            Location::Line(line)
-        },
-        field: field.map(str::to_string),
-        value: value.map(str::to_string),
-        message: message.into(),
-    }
-}
+/// A problem at a 1-based line of a file (0: the whole file).
+pub(crate) use crate::csvread::problem as line_problem;
 
 /// An open season ledger.
 #[derive(Debug)]
@@ -261,9 +226,7 @@ fn sql(path: &Path) -> impl Fn(rusqlite::Error) -> LedgerError + '_ {
 }
 
 /// Parses an ISO date (`YYYY-MM-DD`).
-pub(crate) fn parse_date(s: &str) -> Option<NaiveDate> {
-    NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").ok()
-}
+pub(crate) use crate::csvread::iso_date as parse_date;
 
 #[cfg(test)]
 mod tests {

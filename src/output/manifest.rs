@@ -6,9 +6,10 @@ use std::collections::{BTreeMap, BTreeSet};
 use chrono::{NaiveDate, NaiveDateTime};
 use serde::Serialize;
 
-use super::{Delivered, OutputError, PlanView, bad_site, fixed, iso_minutes, mode_str, round_to};
+use super::{Delivered, OutputError, PlanView, bad_site, iso_minutes, mode_str, round_to};
 use crate::arcs::Mode;
-use crate::scenario::{FacilityIdx, SiteIdx};
+use crate::csvread::{Cells, CsvRow, iso_date, local_datetime};
+use crate::scenario::{FacilityIdx, SiteIdx, SiteKind};
 
 /// The `manifest.csv` header, the contract's column order.
 pub const MANIFEST_COLUMNS: [&str; 15] = [
@@ -29,21 +30,19 @@ pub const MANIFEST_COLUMNS: [&str; 15] = [
     "release_by",
 ];
 
-/// One delivered shipment.
-#[derive(Clone, Debug, PartialEq)]
-pub struct ManifestRow {
+/// One `manifest.csv` row as the file holds it: written by `plan`, read back (through
+/// [`crate::csvread`]) by `ledger commit`, which keeps it in the ledger, and by `compare`.
+/// Fields in [`MANIFEST_COLUMNS`] order (a test ties the two); coordinates with 6 decimals,
+/// wasps alive with 1, times to the minute.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ManifestRecord {
     /// `S-<facility>-<yyyymmdd>-<site>` (dispatch date), with `-2`, `-3`… when the same site
     /// gets two shipments from one facility on one day (different pack days).
     pub shipment_id: String,
-    /// Index into `Allocation::shipments` of the shipment.
-    pub shipment: usize,
-    /// Sending facility.
-    pub facility: FacilityIdx,
     /// Sending facility id.
     pub facility_id: String,
-    /// Day the vials were packed.
-    pub pack_date: NaiveDate,
-    /// Day they leave the facility.
+    /// Day the vials leave the facility.
+    #[serde(serialize_with = "super::cell::date")]
     pub dispatch_date: NaiveDate,
     /// Route or parcel.
     pub mode: Mode,
@@ -51,26 +50,147 @@ pub struct ManifestRow {
     pub route_id: Option<String>,
     /// 1-based stop position on the route (routes only).
     pub stop_seq: Option<u32>,
-    /// Receiving site.
-    pub site: SiteIdx,
     /// Receiving site id.
     pub site_id: String,
-    /// `block` or `dooryard`.
-    pub site_kind: &'static str,
-    /// Stop latitude, degrees.
-    pub lat: f64,
-    /// Stop longitude, degrees.
-    pub lon: f64,
+    /// Block or dooryard.
+    pub site_kind: SiteKind,
+    /// Stop latitude, degrees (`None` when a file read back has no `lat` column or an empty
+    /// cell, and in the ledger, which keeps no locations).
+    #[serde(serialize_with = "super::cell::degrees")]
+    pub lat: Option<f64>,
+    /// Stop longitude, degrees (`None` as for `lat`).
+    #[serde(serialize_with = "super::cell::degrees")]
+    pub lon: Option<f64>,
     /// Vials delivered.
     pub vials: u32,
-    /// Wasps at packing = vials × wasps_per_vial.
+    /// Wasps at packing, wasps.
     pub wasps_packed: u64,
-    /// Expected live wasps at release.
+    /// Expected live wasps at release, wasps.
+    #[serde(serialize_with = "super::cell::fixed1")]
     pub wasps_expected_alive: f64,
-    /// Arrival (route: at the stop, before any wait for the window; parcel: delivery).
+    /// Arrival, local time (route: at the stop, before any wait for the window; parcel:
+    /// delivery).
+    #[serde(serialize_with = "super::cell::minutes")]
     pub eta: NaiveDateTime,
-    /// Latest useful release.
+    /// Latest useful release, local time.
+    #[serde(serialize_with = "super::cell::minutes")]
     pub release_by: NaiveDateTime,
+}
+
+/// A number that is finite and ≥ 0.
+fn non_negative(s: &str, fix: &str) -> Result<f64, String> {
+    s.parse::<f64>()
+        .ok()
+        .filter(|x| x.is_finite() && *x >= 0.0)
+        .ok_or_else(|| fix.to_string())
+}
+
+/// A coordinate cell read back: empty, or a number in `range`, degrees.
+fn degrees(
+    s: &str,
+    range: std::ops::RangeInclusive<f64>,
+    fix: &str,
+) -> Result<Option<f64>, String> {
+    if s.is_empty() {
+        return Ok(None);
+    }
+    s.parse::<f64>()
+        .ok()
+        .filter(|x| range.contains(x))
+        .map(Some)
+        .ok_or_else(|| format!("{fix}, or empty"))
+}
+
+const DATE_TIME: &str = "not an ISO local date-time (YYYY-MM-DDTHH:MM)";
+
+impl CsvRow for ManifestRecord {
+    const COLUMNS: &'static [&'static str] = &MANIFEST_COLUMNS;
+    /// The ledger keeps no locations, so a manifest without coordinates can be committed.
+    const OPTIONAL: &'static [&'static str] = &["lat", "lon"];
+    const UNIQUE: Option<(&'static str, &'static str)> =
+        Some(("shipment_id", "shipment ids are unique"));
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let shipment_id = c.required("shipment_id", "every row needs a shipment id");
+        let facility_id = c.required("facility_id", "every row needs a facility id");
+        let dispatch_date = c.parse_with("dispatch_date", |s| {
+            iso_date(s).ok_or_else(|| "not an ISO date (YYYY-MM-DD)".to_string())
+        });
+        let mode = c.parse("mode", "must be route or parcel");
+        let stop_seq = c.parse_with("stop_seq", |s| match s {
+            "" => Ok(None),
+            v => match v.parse::<u32>() {
+                Ok(n) if n >= 1 => Ok(Some(n)),
+                _ => Err("a stop number is a whole number ≥ 1, or empty".to_string()),
+            },
+        });
+        let site_id = c.required("site_id", "every row needs a site id");
+        let site_kind = c.parse("site_kind", "must be block or dooryard");
+        let lat = c.parse_optional_with("lat", |s| {
+            degrees(
+                s,
+                -90.0..=90.0,
+                "a latitude is a number of degrees in -90..90",
+            )
+        });
+        let lon = c.parse_optional_with("lon", |s| {
+            degrees(
+                s,
+                -180.0..=180.0,
+                "a longitude is a number of degrees in -180..180",
+            )
+        });
+        let vials = c.parse("vials", "vials are a whole number ≥ 0");
+        let wasps_packed = c.parse("wasps_packed", "wasps are a whole number ≥ 0");
+        let alive = c.parse_with("wasps_expected_alive", |s| {
+            non_negative(s, "expected live wasps are a finite number ≥ 0")
+        });
+        let eta = c.parse_with("eta", |s| local_datetime(s).ok_or_else(|| DATE_TIME.into()));
+        let release_by = c.parse_with("release_by", |s| {
+            local_datetime(s).ok_or_else(|| DATE_TIME.into())
+        });
+        Some(ManifestRecord {
+            shipment_id: shipment_id?,
+            facility_id: facility_id?,
+            dispatch_date: dispatch_date?,
+            mode: mode?,
+            route_id: Some(c.text("route_id").to_string()).filter(|s| !s.is_empty()),
+            stop_seq: stop_seq?,
+            site_id: site_id?,
+            site_kind: site_kind?,
+            lat: lat?.flatten(),
+            lon: lon?.flatten(),
+            vials: vials?,
+            wasps_packed: wasps_packed?,
+            wasps_expected_alive: alive?,
+            eta: eta?,
+            release_by: release_by?,
+        })
+    }
+}
+
+/// One delivered shipment: its `manifest.csv` row and where it comes from in the plan. Reads
+/// as its [`ManifestRecord`] (`row.site_id`, `row.eta`…).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ManifestRow {
+    /// The row as `manifest.csv` writes it (coordinates always present).
+    pub record: ManifestRecord,
+    /// Index into `Allocation::shipments` of the shipment.
+    pub shipment: usize,
+    /// Sending facility.
+    pub facility: FacilityIdx,
+    /// Day the vials were packed.
+    pub pack_date: NaiveDate,
+    /// Receiving site.
+    pub site: SiteIdx,
+}
+
+impl std::ops::Deref for ManifestRow {
+    type Target = ManifestRecord;
+
+    fn deref(&self) -> &ManifestRecord {
+        &self.record
+    }
 }
 
 /// Builds the rows from routes and parcels; `Dispatch::undeliverable` is left out.
@@ -98,29 +218,31 @@ pub(crate) fn rows(view: &PlanView) -> Result<Vec<ManifestRow>, OutputError> {
             ))
         })?;
         Ok(ManifestRow {
-            shipment_id: String::new(),
+            record: ManifestRecord {
+                shipment_id: String::new(),
+                facility_id: f.id.0.clone(),
+                dispatch_date: dispatch_date.unwrap_or(sh.arc.dispatch_date),
+                mode: if route.is_some() {
+                    Mode::Route
+                } else {
+                    Mode::Parcel
+                },
+                route_id: route.map(|(r, _)| r.to_string()),
+                stop_seq: route.map(|(_, n)| n),
+                site_id: s.id.0.clone(),
+                site_kind: s.kind(),
+                lat: Some(s.location.lat),
+                lon: Some(s.location.lon),
+                vials,
+                wasps_packed: u64::from(vials) * u64::from(f.wasps_per_vial),
+                wasps_expected_alive: wasps,
+                eta,
+                release_by,
+            },
             shipment,
             facility: sh.arc.facility,
-            facility_id: f.id.0.clone(),
             pack_date: sh.arc.pack_date,
-            dispatch_date: dispatch_date.unwrap_or(sh.arc.dispatch_date),
-            mode: if route.is_some() {
-                Mode::Route
-            } else {
-                Mode::Parcel
-            },
-            route_id: route.map(|(r, _)| r.to_string()),
-            stop_seq: route.map(|(_, n)| n),
             site,
-            site_id: s.id.0.clone(),
-            site_kind: s.kind().as_str(),
-            lat: s.location.lat,
-            lon: s.location.lon,
-            vials,
-            wasps_packed: u64::from(vials) * u64::from(f.wasps_per_vial),
-            wasps_expected_alive: wasps,
-            eta,
-            release_by,
         })
     };
     let mut out = Vec::new();
@@ -180,36 +302,14 @@ pub(crate) fn rows(view: &PlanView) -> Result<Vec<ManifestRow>, OutputError> {
         );
         let n = seen.entry(base.clone()).or_insert(0);
         *n += 1;
-        row.shipment_id = if *n == 1 { base } else { format!("{base}-{n}") };
+        row.record.shipment_id = if *n == 1 { base } else { format!("{base}-{n}") };
     }
     Ok(out)
 }
 
 /// `manifest.csv`. Coordinates with 6 decimals (about 0.1 m), wasps alive with 1.
 pub(crate) fn csv(rows: &[ManifestRow]) -> Result<Vec<u8>, OutputError> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(MANIFEST_COLUMNS)?;
-    for r in rows {
-        w.write_record([
-            r.shipment_id.clone(),
-            r.facility_id.clone(),
-            r.dispatch_date.to_string(),
-            mode_str(r.mode).to_string(),
-            r.route_id.clone().unwrap_or_default(),
-            r.stop_seq.map(|n| n.to_string()).unwrap_or_default(),
-            r.site_id.clone(),
-            r.site_kind.to_string(),
-            fixed(r.lat, 6),
-            fixed(r.lon, 6),
-            r.vials.to_string(),
-            r.wasps_packed.to_string(),
-            fixed(r.wasps_expected_alive, 1),
-            iso_minutes(r.eta),
-            iso_minutes(r.release_by),
-        ])?;
-    }
-    w.into_inner()
-        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+    super::write_csv(&MANIFEST_COLUMNS, rows.iter().map(|r| &r.record))
 }
 
 #[derive(Serialize)]
@@ -222,8 +322,8 @@ struct JsonRow<'a> {
     stop_seq: Option<u32>,
     site_id: &'a str,
     site_kind: &'static str,
-    lat: f64,
-    lon: f64,
+    lat: Option<f64>,
+    lon: Option<f64>,
     vials: u32,
     wasps_packed: u64,
     wasps_expected_alive: f64,
@@ -276,9 +376,9 @@ pub(crate) fn json(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputE
             route_id: r.route_id.as_deref(),
             stop_seq: r.stop_seq,
             site_id: &r.site_id,
-            site_kind: r.site_kind,
-            lat: round_to(r.lat, 6),
-            lon: round_to(r.lon, 6),
+            site_kind: r.site_kind.as_str(),
+            lat: r.lat.map(|x| round_to(x, 6)),
+            lon: r.lon.map(|x| round_to(x, 6)),
             vials: r.vials,
             wasps_packed: r.wasps_packed,
             wasps_expected_alive: round_to(r.wasps_expected_alive, 1),
@@ -369,6 +469,42 @@ mod tests {
             .map(|r| r.shipment_id.as_str())
             .collect();
         assert_eq!(ids, ["S-F1-20270302-B1", "S-F1-20270302-B1-2"]);
+    }
+
+    #[test]
+    fn the_file_reads_back_as_the_records_written_in_the_contract_order() {
+        let p = tiny_plan();
+        let rows = rows(&p.view()).unwrap();
+        let bytes = csv(&rows).unwrap();
+        let text = String::from_utf8(bytes.clone()).unwrap();
+        assert_eq!(
+            text.lines().next(),
+            Some(MANIFEST_COLUMNS.join(",").as_str())
+        );
+        // serde's own header (the field names) is the contract's column list.
+        let mut w = ::csv::Writer::from_writer(Vec::new());
+        w.serialize(&rows[0].record).unwrap();
+        let own = String::from_utf8(w.into_inner().unwrap()).unwrap();
+        assert_eq!(
+            own.lines().next(),
+            Some(MANIFEST_COLUMNS.join(",").as_str())
+        );
+        let read = crate::csvread::read::<ManifestRecord>("manifest.csv", &bytes);
+        assert!(read.problems.is_empty(), "{:?}", read.problems);
+        assert_eq!(read.rows.len(), rows.len());
+        for ((line, got), (i, row)) in read.rows.iter().zip(rows.iter().enumerate()) {
+            assert_eq!(*line, i as u64 + 2);
+            let mut want = row.record.clone();
+            // Written with 6 and 1 decimals, and to the minute.
+            want.lat = want.lat.map(|x| round_to(x, 6));
+            want.lon = want.lon.map(|x| round_to(x, 6));
+            want.wasps_expected_alive = round_to(want.wasps_expected_alive, 1);
+            want.eta = local_datetime(&iso_minutes(want.eta)).unwrap();
+            want.release_by = local_datetime(&iso_minutes(want.release_by)).unwrap();
+            assert_eq!(*got, want);
+        }
+        // Parcels are written with empty route cells.
+        assert!(text.contains(",parcel,,,"), "{text}");
     }
 
     #[test]

@@ -41,12 +41,12 @@ use crate::arcs::Mode;
 use crate::dispatch::Dispatch;
 use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
-pub use allocation_csv::ALLOCATION_COLUMNS;
+pub use allocation_csv::{ALLOCATION_COLUMNS, AllocationRecord};
 pub use atomic::{write_dir_atomically, write_file_atomically};
 pub use binding::BINDING_COLUMNS;
 pub use confirmations::CONFIRMATION_COLUMNS;
 pub use labels::LABELS_PER_PAGE;
-pub use manifest::{MANIFEST_COLUMNS, ManifestRow};
+pub use manifest::{MANIFEST_COLUMNS, ManifestRecord, ManifestRow};
 pub use report::MAP_MARKERS_MAX;
 pub use route_sheets::ONE_PAGE_STOPS;
 pub use target::{OutputFile, OutputFolder, TargetError, WriteError};
@@ -425,6 +425,54 @@ pub(crate) fn round_to(x: f64, decimals: i32) -> f64 {
 pub(crate) fn fixed(x: f64, decimals: usize) -> String {
     let r = round_to(x, decimals as i32);
     format!("{r:.decimals$}")
+}
+
+/// How the CSV contract writes a cell (`#[serde(serialize_with = "…")]` on the record types).
+mod cell {
+    use chrono::{NaiveDate, NaiveDateTime};
+    use serde::Serializer;
+
+    /// A date as `YYYY-MM-DD`.
+    pub(super) fn date<S: Serializer>(d: &NaiveDate, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(d)
+    }
+
+    /// A local date-time to the minute.
+    pub(super) fn minutes<S: Serializer>(t: &NaiveDateTime, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(&super::iso_minutes(*t))
+    }
+
+    /// A number with 1 decimal (wasps).
+    pub(super) fn fixed1<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(&super::fixed(*x, 1))
+    }
+
+    /// A number with 4 decimals (priority).
+    pub(super) fn fixed4<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(&super::fixed(*x, 4))
+    }
+
+    /// A coordinate with 6 decimals (about 0.1 m); empty when absent.
+    pub(super) fn degrees<S: Serializer>(x: &Option<f64>, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(&x.map(|x| super::fixed(x, 6)).unwrap_or_default())
+    }
+}
+
+/// CSV bytes: `columns` as the header, then each record serialized (no header of its own, so
+/// an empty file still has one).
+fn write_csv<R: serde::Serialize>(
+    columns: &[&str],
+    records: impl IntoIterator<Item = R>,
+) -> Result<Vec<u8>, OutputError> {
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    w.write_record(columns)?;
+    for r in records {
+        w.serialize(r)?;
+    }
+    w.into_inner()
+        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
 }
 
 /// The `mode` of a row as written in outputs.

@@ -18,12 +18,13 @@ use std::fmt;
 
 use chrono::{NaiveDate, NaiveDateTime, NaiveTime, Weekday};
 use geo::MultiPolygon;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 pub use load::{
     CsvLines, SCENARIO_KEYS, Source, SwallowedRow, limits, load, load_dir, load_embedded_demo,
     load_files, parse_travel_matrix, show_value, swallowed_row,
 };
+pub(crate) use load::{Table as CsvTable, read_csv};
 pub use problems::{InputError, Location, MAX_LISTED, Problem, Warning};
 
 macro_rules! id_type {
@@ -364,7 +365,7 @@ impl Site {
 }
 
 /// The two kinds of site.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum SiteKind {
     /// A commercial or abandoned grove block.

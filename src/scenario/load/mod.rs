@@ -26,6 +26,7 @@ use super::{
     TravelMatrix,
 };
 pub use text::{CsvLines, SwallowedRow, swallowed_row};
+pub(crate) use text::{Table, read_csv};
 
 /// A value as problems show it: at most 60 characters, control and invisible characters
 /// escaped (`\u{feff}`).

@@ -227,10 +227,25 @@ pub fn swallowed_row(rec: &StringRecord, width: usize) -> Option<SwallowedRow> {
 }
 
 /// A CSV file read whole: trimmed header names and records with their 1-based physical line.
-pub(super) struct Table<'f> {
-    pub(super) file: &'f str,
+pub(crate) struct Table<'f> {
+    pub(crate) file: &'f str,
     columns: BTreeMap<String, usize>,
-    pub(super) rows: Vec<(u64, StringRecord)>,
+    pub(crate) rows: Vec<(u64, StringRecord)>,
+}
+
+/// Decodes and reads a CSV file the way the loader reads its own (see [`decode`] and
+/// [`read_table`]), for the readers of other CSV files (`crate::csvread`): the table (`None`
+/// when the file or its header is unusable) and every problem found. A row with a problem is
+/// left out of the table; a row with every cell empty is skipped without a word.
+pub(crate) fn read_csv<'f>(
+    file: &'f str,
+    bytes: &[u8],
+    required: &[&str],
+) -> (Option<Table<'f>>, Vec<Problem>) {
+    let mut sink = Sink::default();
+    let table =
+        decode(file, bytes, &mut sink).and_then(|text| read_table(file, text, required, &mut sink));
+    (table, sink.problems)
 }
 
 /// Reads a CSV table and checks that `required` columns are present. Rows whose field count
@@ -412,8 +427,13 @@ pub(super) fn read_table<'f>(
 }
 
 impl Table<'_> {
+    /// Whether the header names `col`.
+    pub(crate) fn has(&self, col: &str) -> bool {
+        self.columns.contains_key(col)
+    }
+
     /// The trimmed cell of `col` in `rec` ("" when the column is absent).
-    pub(super) fn cell<'r>(&self, rec: &'r StringRecord, col: &str) -> &'r str {
+    pub(crate) fn cell<'r>(&self, rec: &'r StringRecord, col: &str) -> &'r str {
         self.columns
             .get(col)
             .and_then(|&i| rec.get(i))
