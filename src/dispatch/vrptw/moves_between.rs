@@ -27,6 +27,9 @@ impl State<'_> {
         let b = &self.routes[rv];
         let (la, lb) = (a.nodes.len(), b.nodes.len());
         let base = self.route_dist(ru) + self.route_dist(rv);
+        // Penalty of the two routes as they stand: the new routes' drive must beat `base`
+        // by more than this before their own penalty (never negative) is worth computing.
+        let old_pen = self.route_pen(ru) + self.route_pen(rv);
         let u = a.nodes[pu];
         // Relocate 1–3 customers starting at u, either orientation, before or after v.
         for len in 1..=3 {
@@ -39,13 +42,17 @@ impl State<'_> {
             for k in [pv, pv + 1] {
                 for (s, reversed) in [(fwd, false), (rev, true)] {
                     let parts = [&b.pre[k], s, &b.suf[k]];
-                    if !improves(dist_new_a + d.drive_cat(&parts) - base, emptied) {
+                    let delta = dist_new_a + d.drive_cat(&parts) - base;
+                    if !improves(delta - old_pen, emptied) {
                         continue;
                     }
                     let new_b = d.cat_all(&parts);
-                    let Some(who) = self.assign2(ru, new_a, rv, &new_b) else {
+                    let Some((who, pen)) = self.assign2(ru, new_a, rv, &new_b) else {
                         continue;
                     };
+                    if !improves(delta + pen - old_pen, emptied) {
+                        continue;
+                    }
                     let mut an = a.nodes.clone();
                     let mut ins: Vec<usize> = an.drain(pu..pu + len).collect();
                     if reversed {
@@ -62,8 +69,11 @@ impl State<'_> {
             let (sv, su) = (d.node_seg(v), d.node_seg(u));
             let parts_a = [&a.pre[pu], &sv, &a.suf[pu + 1]];
             let parts_b = [&b.pre[pv], &su, &b.suf[pv + 1]];
-            if improves(d.drive_cat(&parts_a) + d.drive_cat(&parts_b) - base, false)
-                && let Some(who) = self.assign2(ru, &d.cat_all(&parts_a), rv, &d.cat_all(&parts_b))
+            let delta = d.drive_cat(&parts_a) + d.drive_cat(&parts_b) - base;
+            if improves(delta - old_pen, false)
+                && let Some((who, pen)) =
+                    self.assign2(ru, &d.cat_all(&parts_a), rv, &d.cat_all(&parts_b))
+                && improves(delta + pen - old_pen, false)
             {
                 let mut an = a.nodes.clone();
                 let mut bn = b.nodes.clone();
@@ -77,11 +87,14 @@ impl State<'_> {
         for (ka, kb) in [(pu + 1, pv), (pu, pv + 1)] {
             let (pa, pb) = ([&a.pre[ka], &b.suf[kb]], [&b.pre[kb], &a.suf[ka]]);
             let emptied = (ka == 0 && kb == lb) || (kb == 0 && ka == la);
-            if !improves(d.drive_cat(&pa) + d.drive_cat(&pb) - base, emptied) {
+            let delta = d.drive_cat(&pa) + d.drive_cat(&pb) - base;
+            if !improves(delta - old_pen, emptied) {
                 continue;
             }
             let (new_a, new_b) = (d.cat(pa[0], pa[1]), d.cat(pb[0], pb[1]));
-            if let Some(who) = self.assign2(ru, &new_a, rv, &new_b) {
+            if let Some((who, pen)) = self.assign2(ru, &new_a, rv, &new_b)
+                && improves(delta + pen - old_pen, emptied)
+            {
                 let mut an = a.nodes[..ka].to_vec();
                 an.extend_from_slice(&b.nodes[kb..]);
                 let mut bn = b.nodes[..kb].to_vec();

@@ -24,22 +24,32 @@ impl State<'_> {
             }
         };
         let c = |i: usize, j: usize| d.c(i, j);
-        // Feasibility of a candidate that differs from `nodes` only inside lo..hi: on r's own
-        // vehicle, else on an unused vehicle of another kind (the route moves to it).
-        let check = |cand: &[usize], lo: usize, hi: usize| -> Option<Move> {
+        // Penalty of the route as it stands: a candidate whose drive change `delta` is not
+        // below it cannot improve, whatever its own penalty (never negative).
+        let old_pen = self.route_pen(r);
+        // A candidate that differs from `nodes` only inside lo..hi, on r's own vehicle or an
+        // unused vehicle of another kind (the route moves to it), when drive plus penalty
+        // falls.
+        let check = |cand: &[usize], lo: usize, hi: usize, delta: f64| -> Option<Move> {
             let mut s = route.pre[lo];
             for &v in &cand[lo..hi] {
                 s = d.cat(&s, &d.node_seg(v));
             }
             let s = d.cat(&s, &route.suf[hi]);
-            if d.fits(r, &s) {
-                return Some(Move(vec![(r, cand.to_vec())]));
+            let others = if d.fits(r, &s) {
+                Vec::new()
+            } else {
+                self.empty_kinds(&[r])
+            };
+            let (w, pen) = self.choose(r, &s, &others)?;
+            if delta + pen - old_pen >= -EPS {
+                return None;
             }
-            let w = self
-                .empty_kinds(&[r])
-                .into_iter()
-                .find(|&w| d.fits(w, &s))?;
-            Some(Move(vec![(r, Vec::new()), (w, cand.to_vec())]))
+            if w == r {
+                Some(Move(vec![(r, cand.to_vec())]))
+            } else {
+                Some(Move(vec![(r, Vec::new()), (w, cand.to_vec())]))
+            }
         };
         let mut cand: Vec<usize> = Vec::with_capacity(len_r);
         let (pu_i, pv_i) = (pu as isize, pv as isize);
@@ -75,7 +85,7 @@ impl State<'_> {
                         (s0, sl, 0.0)
                     };
                     let delta = c(na, f) + c(l, nb) - c(na, nb) + inner - removed;
-                    if delta >= -EPS {
+                    if delta - old_pen >= -EPS {
                         continue;
                     }
                     // Insert index in the list without the cut: after position ka.
@@ -95,7 +105,7 @@ impl State<'_> {
                     cand.extend(rest);
                     let lo = pu.min(k);
                     let hi = (pu + len).max(k + len);
-                    if let Some(m) = check(&cand, lo, hi.min(len_r)) {
+                    if let Some(m) = check(&cand, lo, hi.min(len_r), delta) {
                         return Some(m);
                     }
                 }
@@ -117,11 +127,11 @@ impl State<'_> {
                     - c(pj, v)
                     - c(v, nj)
             };
-            if delta < -EPS {
+            if delta - old_pen < -EPS {
                 cand.clear();
                 cand.extend_from_slice(nodes);
                 cand.swap(i, j);
-                if let Some(m) = check(&cand, i, j + 1) {
+                if let Some(m) = check(&cand, i, j + 1, delta) {
                     return Some(m);
                 }
             }
@@ -137,11 +147,11 @@ impl State<'_> {
                 let (a, b) = (x(p as isize - 1), x(q as isize + 1));
                 let delta =
                     c(a, nodes[q]) + c(nodes[p], b) - c(a, nodes[p]) - c(nodes[q], b) + inner;
-                if delta < -EPS {
+                if delta - old_pen < -EPS {
                     cand.clear();
                     cand.extend_from_slice(nodes);
                     cand[p..=q].reverse();
-                    if let Some(m) = check(&cand, p, q + 1) {
+                    if let Some(m) = check(&cand, p, q + 1, delta) {
                         return Some(m);
                     }
                 }

@@ -38,10 +38,10 @@ impl State<'_> {
                         dirty[*v] = true;
                     }
                     #[cfg(debug_assertions)]
-                    let before = self.total_dist();
+                    let before = self.total_cost();
                     self.apply(m);
                     #[cfg(debug_assertions)]
-                    debug_assert!(self.total_dist() <= before + 1e-6, "move lengthened routes");
+                    debug_assert!(self.total_cost() <= before + 1e-6, "move raised the cost");
                 }
             }
             dirty = next;
@@ -111,7 +111,17 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
                 .wrapping_mul(0x9E37_79B9_7F4A_7C15)
                 .wrapping_add(u64::from(j) + 1),
         );
-        let (b, tl) = ils(first.clone(), &mut rng, per_start, stall, started, opts);
+        // Odd starts search penalised (see [`ils`]).
+        let penalised = j % 2 == 1;
+        let (b, tl) = ils(
+            first.clone(),
+            &mut rng,
+            per_start,
+            stall,
+            started,
+            opts,
+            penalised,
+        );
         time_limited |= tl;
         if best.as_ref().is_none_or(|c| b.key_lt(c)) {
             best = Some(b);
@@ -124,7 +134,7 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
     if !time_limited {
         let mut rng = fastrand::Rng::with_seed(opts.seed);
         let rest = opts.max_iterations - per_start * STARTS;
-        let (b, tl) = ils(best, &mut rng, rest, stall, started, opts);
+        let (b, tl) = ils(best, &mut rng, rest, stall, started, opts, false);
         best = b;
         time_limited = tl;
     }
@@ -141,20 +151,57 @@ fn stall_limit(data: &Data<'_>, opts: &SolveOptions) -> u32 {
     opts.stall_rounds.min(per_customer).max(1)
 }
 
+/// Time-warp weight a search starts from: a minute late costs as much as a minute of drive.
+const START_WEIGHT: f64 = 1.0;
+/// The weight stays within these bounds.
+const WEIGHT_RANGE: (f64, f64) = (0.05, 1e4);
+/// Rounds between weight updates.
+const WEIGHT_EVERY: u32 = 50;
+/// Share of rounds whose local optimum should fit every vehicle: fewer, and the weight rises
+/// (×[`RAISE`]); more, and it falls (×[`LOWER`]). PyVRP's penalty manager aims its weights at
+/// a feasible share the same way: `PenaltyParams` of pyvrp 0.14.1 (read from the installed
+/// package) targets 0.65 and updates by ×1.5 / ×0.9 every 500 solutions; we update more often
+/// and more gently, since a depot-day runs a few thousand rounds, not tens of thousands.
+const TARGET_FEASIBLE: f64 = 0.65;
+/// Weight factor when too few rounds end feasible.
+const RAISE: f64 = 1.3;
+/// Weight factor when enough rounds end feasible.
+const LOWER: f64 = 0.85;
+/// A late local optimum is searched again, half the time, under this many times the weight,
+/// which usually makes it fit (PyVRP's "repair" step does the same with its own booster).
+const REPAIR_BOOST: f64 = 10.0;
+
 /// Iterated local search from `cur` for at most `rounds` rounds, stopping after `stall` rounds
 /// without a new best; returns the best and whether the time limit stopped it.
-fn ils<'a>(
+///
+/// When `cur` serves every customer, the rounds search *penalised*: a route may be late (time
+/// warp at a customer or back at the depot), at a cost of [`State::tw_weight`] drive minutes
+/// per late minute, so the search can pass through late routes between two that fit (tight
+/// windows otherwise wall local optima in). The weight adapts to the share of rounds whose
+/// local optimum fits ([`TARGET_FEASIBLE`]); a late one is half the time searched again under
+/// a boosted weight. Only solutions where every route fits its vehicle become the best, so
+/// the result always fits. Capacity stays a hard limit. With customers left out, the search
+/// keeps every route feasible (a penalised recreate would squeeze them in late).
+pub(super) fn ils<'a>(
     mut cur: State<'a>,
     rng: &mut fastrand::Rng,
     rounds: u32,
     stall: u32,
     started: Instant,
     opts: &SolveOptions,
+    penalised: bool,
 ) -> (State<'a>, bool) {
     let mut best = cur.clone();
+    let penalised = penalised && cur.unserved.is_empty() && cur.feasible();
+    let mut weight = if penalised {
+        START_WEIGHT
+    } else {
+        f64::INFINITY
+    };
+    let mut fits_seen = 0u32;
     // Late acceptance (Burke & Bykov 2017): a candidate no worse than the current solution
     // or than the current solution [`HISTORY`] rounds ago becomes current; the history
-    // slot then takes the current solution's drive.
+    // slot then takes the current solution's drive (plus penalty).
     let mut history = vec![cur.key().1; HISTORY];
     let mut last_best = 0u32;
     for it in 0..rounds {
@@ -167,12 +214,36 @@ fn ils<'a>(
             return (best, true);
         }
         let mut cand = cur.clone();
+        cand.tw_weight = weight;
         let dirty = cand.ruin_and_recreate(rng);
         cand.local_search(Some(dirty));
+        let mut fits = !penalised || cand.feasible();
+        if penalised {
+            fits_seen += u32::from(fits);
+            if !fits && rng.bool() {
+                cand.tw_weight = weight * REPAIR_BOOST;
+                let late: Vec<bool> = cand.routes.iter().map(|r| r.late > 0.0).collect();
+                cand.local_search(Some(late));
+                cand.tw_weight = weight;
+                fits = cand.feasible();
+            }
+            if (it + 1) % WEIGHT_EVERY == 0 {
+                let share = f64::from(fits_seen) / f64::from(WEIGHT_EVERY);
+                let factor = if share < TARGET_FEASIBLE {
+                    RAISE
+                } else {
+                    LOWER
+                };
+                weight = (weight * factor).clamp(WEIGHT_RANGE.0, WEIGHT_RANGE.1);
+                fits_seen = 0;
+                cand.tw_weight = weight;
+            }
+            cur.tw_weight = weight;
+        }
         let (uu, ud, _) = cur.key();
         let (cu, cd, _) = cand.key();
         let slot = it as usize % history.len();
-        if cand.key_lt(&best) {
+        if fits && cand.key_lt(&best) {
             last_best = it;
             best = cand.clone();
             cur = cand;
@@ -181,5 +252,6 @@ fn ils<'a>(
         }
         history[slot] = cur.key().1;
     }
+    best.tw_weight = f64::INFINITY;
     (best, false)
 }

@@ -248,6 +248,23 @@ impl<'a> Data<'a> {
             && body.load <= u64::from(self.inst.vehicles[vehicle].capacity_vials)
     }
 
+    /// Time warp of `vehicle` driving `body`, minutes: 0 when it [fits](Data::fits), infinite
+    /// when no lateness makes it drivable (load over capacity, unusable arc). O(1).
+    pub(super) fn lateness(&self, vehicle: usize, body: &Seg) -> f64 {
+        if body.empty {
+            return 0.0;
+        }
+        let s = self.with_depot(vehicle, body);
+        if !s.dist.is_finite() || body.load > u64::from(self.inst.vehicles[vehicle].capacity_vials)
+        {
+            f64::INFINITY
+        } else if s.tw <= FEAS_EPS {
+            0.0
+        } else {
+            s.tw
+        }
+    }
+
     /// Drive minutes of `body` out of the depot and back (0 for an empty body). The same for
     /// every vehicle: all leave from and return to node 0.
     pub(super) fn drive(&self, body: &Seg) -> f64 {

@@ -14,6 +14,9 @@ pub(super) struct Route {
     pub(super) pre: Vec<Seg>,
     /// `suf[k]`: nodes[k..], no depot.
     pub(super) suf: Vec<Seg>,
+    /// Time warp of the route on its own vehicle, minutes: 0 when it fits, infinite when the
+    /// vehicle cannot drive it at any lateness (load, unusable arc).
+    pub(super) late: f64,
 }
 
 impl Route {
@@ -34,6 +37,10 @@ pub(super) struct State<'a> {
     /// Per node: (vehicle, position) when routed.
     pub(super) at: Vec<Option<(usize, usize)>>,
     pub(super) unserved: Vec<usize>,
+    /// Drive minutes charged per minute of time warp (arriving after a window closes or
+    /// returning after the end of shift); infinite: every route must fit its vehicle. A finite
+    /// weight lets the search pass through routes that are late (see `search.rs`).
+    pub(super) tw_weight: f64,
 }
 
 impl<'a> State<'a> {
@@ -45,10 +52,12 @@ impl<'a> State<'a> {
                     nodes: Vec::new(),
                     pre: Vec::new(),
                     suf: Vec::new(),
+                    late: 0.0,
                 })
                 .collect(),
             at: vec![None; data.n],
             unserved: Vec::new(),
+            tw_weight: f64::INFINITY,
         };
         for r in 0..s.routes.len() {
             s.refresh(r);
@@ -75,6 +84,7 @@ impl<'a> State<'a> {
         for (p, &node) in route.nodes.iter().enumerate() {
             self.at[node] = Some((r, p));
         }
+        route.late = d.lateness(r, &route.suf[0]);
     }
 
     /// Drive minutes of route r.
@@ -82,17 +92,69 @@ impl<'a> State<'a> {
         self.data.drive(self.routes[r].body())
     }
 
-    pub(super) fn total_dist(&self) -> f64 {
-        (0..self.routes.len()).map(|r| self.route_dist(r)).sum()
+    /// Penalty, in drive minutes, of `vehicle` driving `body`: 0 when it fits, the time warp
+    /// times [`State::tw_weight`] when only windows or the end of shift break and the weight is
+    /// finite, `None` when it cannot drive it at all (load, unusable arc, or late under an
+    /// infinite weight). O(1).
+    pub(super) fn pen(&self, vehicle: usize, body: &Seg) -> Option<f64> {
+        self.weigh(self.data.lateness(vehicle, body))
+    }
+
+    /// Penalty of `late` minutes of time warp (see [`State::pen`]).
+    fn weigh(&self, late: f64) -> Option<f64> {
+        if late == 0.0 {
+            Some(0.0)
+        } else if late.is_finite() && self.tw_weight.is_finite() {
+            Some(self.tw_weight * late)
+        } else {
+            None
+        }
+    }
+
+    /// Penalty of route r as it stands (0 when it fits its vehicle). O(1).
+    pub(super) fn route_pen(&self, r: usize) -> f64 {
+        self.weigh(self.routes[r].late).unwrap_or(f64::INFINITY)
+    }
+
+    /// Drive plus penalty over all routes.
+    pub(super) fn total_cost(&self) -> f64 {
+        (0..self.routes.len())
+            .map(|r| self.route_dist(r) + self.route_pen(r))
+            .sum()
+    }
+
+    /// Whether every route fits its own vehicle (no time warp).
+    pub(super) fn feasible(&self) -> bool {
+        self.routes.iter().all(|r| r.late == 0.0)
+    }
+
+    /// The vehicle for a new run `s` replacing route `own`: `own` when it fits, else the first
+    /// of `others` that fits, else (finite weight only) whichever of `own` and `others` is
+    /// penalised least. Returns the vehicle and its penalty.
+    pub(super) fn choose(&self, own: usize, s: &Seg, others: &[usize]) -> Option<(usize, f64)> {
+        let d = self.data;
+        if d.fits(own, s) {
+            return Some((own, 0.0));
+        }
+        if let Some(w) = others.iter().copied().find(|&w| d.fits(w, s)) {
+            return Some((w, 0.0));
+        }
+        if !self.tw_weight.is_finite() {
+            return None;
+        }
+        std::iter::once(own)
+            .chain(others.iter().copied())
+            .filter_map(|v| self.pen(v, s).map(|p| (v, p)))
+            .min_by(|a, b| a.1.total_cmp(&b.1))
     }
 
     pub(super) fn used(&self) -> usize {
         self.routes.iter().filter(|r| !r.nodes.is_empty()).count()
     }
 
-    /// (unserved, drive, vehicles): smaller is better, lexicographically.
+    /// (unserved, drive plus penalty, vehicles): smaller is better, lexicographically.
     pub(super) fn key(&self) -> (usize, f64, usize) {
-        (self.unserved.len(), self.total_dist(), self.used())
+        (self.unserved.len(), self.total_cost(), self.used())
     }
 
     pub(super) fn key_lt(&self, other: &Self) -> bool {
@@ -112,9 +174,11 @@ impl<'a> State<'a> {
         }
     }
 
-    /// Cheapest feasible insertion of `u` into route r: (added drive, position, vehicle). The
-    /// vehicle is r's own or, where it cannot take the longer route, an unused vehicle of
-    /// another kind that can (the route then moves to it). O(len · kinds).
+    /// Cheapest insertion of `u` into route r: (added drive plus penalty, position, vehicle).
+    /// The vehicle is r's own or, where it cannot take the longer route, an unused vehicle of
+    /// another kind that can (the route then moves to it); with a finite
+    /// [`State::tw_weight`], a late route is priced with its penalty instead of refused.
+    /// O(len · kinds).
     pub(super) fn best_insert(&self, r: usize, u: usize) -> Option<(f64, usize, usize)> {
         let others = if self.routes[r].nodes.is_empty() {
             Vec::new()
@@ -134,21 +198,19 @@ impl<'a> State<'a> {
         let d = self.data;
         let route = &self.routes[r];
         let us = d.node_seg(u);
-        let before = self.route_dist(r);
+        let before = self.route_dist(r) + self.route_pen(r);
         let mut best: Option<(f64, usize, usize)> = None;
         for k in 0..=route.nodes.len() {
+            // The penalty is never negative: drive alone bounds the cost from below.
             let add = d.drive_cat(&[&route.pre[k], &us, &route.suf[k]]) - before;
             if best.is_some_and(|(b, _, _)| add >= b - EPS) {
                 continue;
             }
             let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);
-            let v = if d.fits(r, &s) {
-                Some(r)
-            } else {
-                others.iter().copied().find(|&w| d.fits(w, &s))
-            };
-            if let Some(v) = v {
-                best = Some((add, k, v));
+            if let Some((v, p)) = self.choose(r, &s, others)
+                && best.is_none_or(|(b, _, _)| add + p < b - EPS)
+            {
+                best = Some((add + p, k, v));
             }
         }
         best

@@ -285,3 +285,105 @@ fn split_hands_the_tail_to_an_unused_vehicle() {
     assert_eq!(s.routes[0].nodes, vec![1, 2, 3, 4]);
     assert_eq!(changed, vec![false]);
 }
+
+/// Three stops on a line, the depot at 0: stop 1 at 10 (window 25–26), stop 2 at 20 (window
+/// 0–1000), stop 3 at 30 (window 0–35); one vehicle, no service time.
+fn line_instance() -> Instance {
+    let pos = [0.0f64, 10.0, 20.0, 30.0];
+    let stop = |earliest: f64, latest: f64| Customer {
+        demand_vials: 1,
+        service_minutes: 0.0,
+        earliest,
+        latest,
+        deadline: 10_000.0,
+    };
+    Instance {
+        customers: vec![stop(25.0, 26.0), stop(0.0, 1000.0), stop(0.0, 35.0)],
+        minutes: pos
+            .iter()
+            .map(|a| pos.iter().map(|b| f64::abs(a - b)).collect())
+            .collect(),
+        vehicles: vec![VehicleSpec {
+            capacity_vials: 10,
+            start: 0.0,
+            latest_return: 1000.0,
+        }],
+    }
+}
+
+#[test]
+fn a_late_route_is_priced_by_its_time_warp_only_under_a_finite_weight() {
+    let inst = line_instance();
+    let d = Data::new(&inst, 2);
+    // 2 then 1: at 1 by 30, 4 after its window closes. 1 then 2 waits at 1 and fits.
+    let late = d.seq([2, 1]);
+    let mut s = state::State::empty(&d);
+    assert_eq!(s.pen(0, &late), None);
+    assert_eq!(s.pen(0, &d.seq([1, 2])), Some(0.0));
+    s.tw_weight = 2.0;
+    assert_eq!(s.pen(0, &late), Some(8.0));
+    assert_eq!(s.pen(0, &d.seq([1, 2])), Some(0.0));
+    // Capacity stays hard whatever the weight.
+    let mut small = inst.clone();
+    small.vehicles[0].capacity_vials = 1;
+    let ds = Data::new(&small, 2);
+    let mut t = state::State::empty(&ds);
+    t.tw_weight = 2.0;
+    assert_eq!(t.pen(0, &ds.seq([1, 2])), None);
+}
+
+#[test]
+fn insertion_under_a_finite_weight_takes_the_cheapest_late_place() {
+    let inst = line_instance();
+    let d = Data::new(&inst, 2);
+    let mut s = state::State::empty(&d);
+    // Route 3, 2 (at 3 by 30, at 2 by 40, back by 60). Stop 1 is late wherever it goes:
+    // first, 3 is late by 10 (drive +0); after 3 or after 2, 1 is late by 24 (+20, +0).
+    s.insert(0, 0, 3, 0);
+    s.insert(0, 1, 2, 0);
+    assert_eq!(s.routes[0].late, 0.0);
+    assert_eq!(s.best_insert(0, 1), None);
+    s.tw_weight = 0.5;
+    assert_eq!(s.best_insert(0, 1), Some((5.0, 0, 0)));
+    s.insert(0, 0, 1, 0);
+    assert_eq!(s.routes[0].late, 10.0);
+    assert!(!s.feasible());
+    assert_eq!(s.total_cost(), 65.0);
+}
+
+#[test]
+fn penalised_search_only_keeps_routes_that_fit() {
+    // Tight windows (30 minutes, opening from 100 so each stop fits alone): many local optima
+    // of a penalised round are late, so a best that took them would show here.
+    for seed in 1..=4 {
+        let mut inst = grid_instance(40, seed, 40, 30);
+        for c in &mut inst.customers {
+            c.earliest += 100.0;
+            c.latest = c.earliest + 30.0;
+        }
+        let d = Data::new(&inst, 8);
+        let mut first = state::State::empty(&d);
+        let order: Vec<usize> = (0..inst.vehicles.len()).collect();
+        first.construct(&order);
+        first.local_search(None);
+        assert!(first.unserved.is_empty(), "seed {seed}: the fleet is ample");
+        let mut rng = fastrand::Rng::with_seed(seed);
+        let (best, _) = search::ils(
+            first.clone(),
+            &mut rng,
+            400,
+            400,
+            std::time::Instant::now(),
+            &opts(),
+            true,
+        );
+        assert!(best.feasible(), "seed {seed}");
+        assert!(
+            !first.key_lt(&best),
+            "seed {seed}: never worse than the start"
+        );
+        let sol = best.into_solution();
+        assert!(sol.unserved.is_empty());
+        check(&inst, &sol);
+    }
+}
