@@ -262,6 +262,14 @@ struct Evaluation {
     knapsack: Vec<Vec<f64>>,
 }
 
+/// One site's subproblem at given prices: its best value, whether `choice` holds the
+/// maximising releases in full, and those releases as (arc, vials).
+struct SiteBest {
+    best: f64,
+    complete: bool,
+    choice: Vec<(usize, u32)>,
+}
+
 /// The Lagrangian dual function at `prices`; with `argmax`, also what the maximising releases
 /// use.
 fn lagrangian(inst: &Instance, prices: &Prices, argmax: bool) -> Evaluation {
@@ -288,7 +296,7 @@ fn lagrangian(inst: &Instance, prices: &Prices, argmax: bool) -> Evaluation {
     };
     // Each site's subproblem is independent: solved in parallel, summed in site order (the
     // same bits as a serial pass, so the bound does not depend on the thread count).
-    let per_site: Vec<Option<(f64, bool, Vec<(usize, u32)>)>> = inst
+    let per_site: Vec<Option<SiteBest>> = inst
         .sites
         .par_iter()
         .enumerate()
@@ -335,11 +343,20 @@ fn lagrangian(inst: &Instance, prices: &Prices, argmax: bool) -> Evaluation {
             }
             let mut choice = Vec::new();
             let (best, complete) = site_max(inst, sp, &arcs, &mut choice);
-            Some((best, complete, choice))
+            Some(SiteBest {
+                best,
+                complete,
+                choice,
+            })
         })
         .collect();
     let mut chosen: Vec<(usize, u32)> = Vec::new();
-    for (best, complete, choice) in per_site.into_iter().flatten() {
+    for SiteBest {
+        best,
+        complete,
+        choice,
+    } in per_site.into_iter().flatten()
+    {
         value += best;
         if let Some(u) = usage.as_mut() {
             if !complete {
