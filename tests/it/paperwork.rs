@@ -328,11 +328,7 @@ fn stop_labels_on_the_demos_densest_route_do_not_overlap() {
     let dir = tempfile::tempdir().unwrap();
     let out = plan_demo(dir.path(), "out", &[]);
     let html = std::fs::read_to_string(out.join("route-sheets.html")).unwrap();
-    let maps: Vec<&str> = html
-        .split("<svg class=\"map\"")
-        .skip(1)
-        .map(|m| &m[..m.find("</svg>").unwrap()])
-        .collect();
+    let maps = util::route_sheet_maps(&html);
     let densest = maps
         .iter()
         .max_by_key(|m| m.matches("class=\"dot\"").count())

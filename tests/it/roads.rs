@@ -508,11 +508,7 @@ fn demo_route_sheet_maps_show_named_roads_and_places_clear_of_the_stop_labels() 
         .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let html = std::fs::read_to_string(out.join("route-sheets.html")).unwrap();
-    let maps: Vec<&str> = html
-        .split("<svg class=\"map\"")
-        .skip(1)
-        .map(|m| &m[..m.find("</svg>").unwrap()])
-        .collect();
+    let maps = util::route_sheet_maps(&html);
     assert!(maps.len() >= 10, "{} maps", maps.len());
     let (mut road_names, mut place_names) = (0, 0);
     for m in &maps {

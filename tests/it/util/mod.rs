@@ -108,6 +108,15 @@ pub fn skip(test: &str, why: &str) {
     eprintln!("SKIPPED {test}: {why}");
 }
 
+/// The map SVGs of a route-sheets page, each from after its `<svg class="map"` to before
+/// its `</svg>`, in page order.
+pub fn route_sheet_maps(html: &str) -> Vec<&str> {
+    html.split("<svg class=\"map\"")
+        .skip(1)
+        .map(|m| &m[..m.find("</svg>").expect("every map closes")])
+        .collect()
+}
+
 /// The broodcast binary built for these tests.
 pub fn bin() -> PathBuf {
     PathBuf::from(env!("CARGO_BIN_EXE_broodcast"))
