@@ -22,7 +22,7 @@ fn files(n: usize) -> Vec<(String, Vec<u8>)> {
                 .map(|k| {
                     let a = std::f64::consts::TAU * k as f64 / (n - 1) as f64;
                     let r = 0.002 * if k % 2 == 0 { 1.0 } else { 1.1 };
-                    [-80.03 + r * a.cos(), 26.75 + r * a.sin()]
+                    [80.03 + r * a.cos(), 26.75 + r * a.sin()]
                 })
                 .collect();
             ring.push(ring[0]);

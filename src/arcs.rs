@@ -924,7 +924,7 @@ mod tests {
                 let mut site = templates[i % templates.len()].clone();
                 site.id = crate::scenario::SiteId(format!("S{i}"));
                 site.location = LonLat {
-                    lon: -80.30 + 0.006 * (i % side) as f64,
+                    lon: 80.30 + 0.006 * (i % side) as f64,
                     lat: 26.55 + 0.006 * (i / side) as f64,
                 };
                 site

@@ -469,7 +469,7 @@ mod tests {
         let b = s.bounding_box.unwrap();
         assert_eq!(
             (b.min_lon, b.max_lon, b.min_lat, b.max_lat),
-            (-80.05, -79.97, 26.7, 27.0)
+            (79.97, 80.05, 26.7, 27.0)
         );
         // Six squares of 0.004° side near 27° N, about 17.6 ha each (hand calculation).
         assert!(

@@ -210,7 +210,7 @@ impl GenParams {
             region: format!("Benchmark region {sites}"),
             week_start: NaiveDate::from_ymd_opt(2027, 3, 1).expect("2027-03-01 is a valid date"),
             center: LonLat {
-                lon: -81.42,
+                lon: 81.42,
                 lat: 27.28,
             },
             blocks,

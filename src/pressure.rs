@@ -390,7 +390,7 @@ mod tests {
     #[test]
     fn point_on_the_site_gives_its_weighted_value() {
         // B1 has a tap sample of 2 adults on the spot, 1 day old; other points are ≥ 4 km
-        // away (S2 at -80.05,26.95 is ≈ 4.5 km) and add their kernel terms.
+        // away (S2 at 80.05,26.95 is ≈ 4.5 km) and add their kernel terms.
         let s = tiny();
         let params = PressureParams::default();
         let pr = site_priority(&s, &params);
@@ -418,7 +418,7 @@ mod tests {
             id: "X".into(),
             date: s.week_start,
             location: LonLat {
-                lon: -80.02,
+                lon: 80.02,
                 lat: 26.98 + dlat,
             },
             kind: ScoutKind::TapAdults,
@@ -518,7 +518,7 @@ mod tests {
             (0.0, 0.0, 0.0, 1.0),
             (179.99, 45.0, -179.99, 45.0),
             (10.0, 89.99, -170.0, 89.99),
-            (-80.0, 26.0, -80.05, 26.04),
+            (80.0, 26.0, 80.05, 26.04),
         ];
         for (lo1, la1, lo2, la2) in pts {
             let a = LonLat { lon: lo1, lat: la1 };

@@ -476,7 +476,7 @@ pub(crate) mod tests {
 
     pub(crate) fn row(id: &str, date: &str, site: &str, kind: &str, vials: u32) -> String {
         format!(
-            "{id},F1,{date},route,R1,1,{site},{kind},27.1,-81.2,{vials},{},{:.1},{date}T09:00,{date}T18:00",
+            "{id},F1,{date},route,R1,1,{site},{kind},27.1,81.2,{vials},{},{:.1},{date}T09:00,{date}T18:00",
             vials * 500,
             f64::from(vials) * 400.0
         )
@@ -526,7 +526,7 @@ pub(crate) mod tests {
         let dir = tempfile::tempdir().expect("temp dir");
         let (mut l, _) = Ledger::init(&dir.path().join("s.db")).expect("init");
         let a = row("S-A", "2027-03-01", "B1", "block", 3).replace("T09:00", "T09:00:30");
-        let b = row("S-B", "2027-03-02", "B2", "block", 1).replace(",27.1,-81.2,", ",,,");
+        let b = row("S-B", "2027-03-02", "B2", "block", 1).replace(",27.1,81.2,", ",,,");
         let p = read_plan_folder(folder("2027-03-01", &[&a, &b]).path()).expect("read");
         assert_eq!(p.shipments[0].lat, None, "the ledger keeps no coordinates");
         l.commit(&p, false).expect("first");

@@ -216,7 +216,7 @@ mod tests {
             .iter()
             .find(|f| f["properties"]["id"] == "R3")
             .unwrap();
-        assert_eq!(r3["geometry"]["coordinates"][0], -79.99, "lon first");
+        assert_eq!(r3["geometry"]["coordinates"][0], 79.99, "lon first");
         assert_eq!(r3["properties"]["route_id"], Value::Null, "parcel");
         assert!(j.get("crs").is_none());
     }

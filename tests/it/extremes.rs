@@ -335,7 +335,7 @@ const KEYS: [&str; 12] = [
 const CELLS: [(&str, &str, &str); 5] = [
     ("supply.csv", "F1,2027-03-01,", "10"),
     ("fleet.csv", "V1,F1,mon;wed;fri,", "20"),
-    ("facilities.csv", "-80.000,", "100"),
+    ("facilities.csv", "80.000,", "100"),
     ("scouting.csv", "tap_adults,", "2"),
     ("overrides.csv", "B2,force,", ""),
 ];

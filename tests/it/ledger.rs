@@ -324,7 +324,7 @@ fn write_manifest(dir: &Path, n: usize, week: &str) {
         let d = w + chrono::Days::new((i % 5) as u64);
         let kind = if i % 3 == 0 { "dooryard" } else { "block" };
         text.push_str(&format!(
-            "S-{i},F{},{d},route,R-{},{},X{i},{kind},27.1,-81.2,{},{},{:.1},{d}T09:00,{d}T18:00\n",
+            "S-{i},F{},{d},route,R-{},{},X{i},{kind},27.1,81.2,{},{},{:.1},{d}T09:00,{d}T18:00\n",
             i % 3,
             i / 20,
             i % 20 + 1,

@@ -93,7 +93,7 @@ fn a_polygon_with_too_many_vertices_is_named_with_the_limit_and_the_fix() {
     let mut ring: Vec<serde_json::Value> = (0..n - 1)
         .map(|k| {
             let a = std::f64::consts::TAU * k as f64 / (n - 1) as f64;
-            serde_json::json!([-80.03 + 0.002 * a.cos(), 26.75 + 0.002 * a.sin()])
+            serde_json::json!([80.03 + 0.002 * a.cos(), 26.75 + 0.002 * a.sin()])
         })
         .collect();
     ring.push(ring[0].clone());

@@ -97,10 +97,10 @@ fn block_geometry_is_oriented_measured_and_located() {
     // ≈ 17.6 ha (hand calculation on a sphere; the geodesic value is within 0.5 ha).
     assert!((b1.area_ha - 17.6).abs() < 0.5, "{}", b1.area_ha);
     // No access point given: the centroid of a square.
-    assert!((s.sites[0].location.lon + 80.02).abs() < 1e-9);
+    assert!((s.sites[0].location.lon - 80.02).abs() < 1e-9);
     assert!((s.sites[0].location.lat - 26.98).abs() < 1e-9);
     // Explicit access point.
-    assert_eq!(s.sites[1].location.lon, -80.050);
+    assert_eq!(s.sites[1].location.lon, 80.050);
     assert_eq!(s.sites[1].location.lat, 26.947);
     // MultiPolygon keeps both parts.
     assert_eq!(s.sites[2].as_block().unwrap().geometry.0.len(), 2);
@@ -272,18 +272,8 @@ fn problems_are_capped_at_fifty_with_a_count() {
 fn a_far_point_is_a_warning_not_an_error() {
     let tmp = util::copy_minimal();
     // About 1,400 km north of both facilities.
-    util::replace(
-        tmp.path(),
-        "requests.csv",
-        "26.990,-80.010",
-        "39.990,-80.010",
-    );
-    util::replace(
-        tmp.path(),
-        "scouting.csv",
-        "26.900,-79.980",
-        "26.900,-69.980",
-    );
+    util::replace(tmp.path(), "requests.csv", "26.990,80.010", "39.990,80.010");
+    util::replace(tmp.path(), "scouting.csv", "26.900,79.980", "26.900,69.980");
     let s = scenario::load_dir(tmp.path()).expect("a far point still loads");
     let w: Vec<String> = s.warnings.iter().map(|w| w.to_string()).collect();
     assert_eq!(w.len(), 2, "{w:?}");
@@ -307,14 +297,14 @@ fn unknown_columns_and_keys_are_allowed() {
     util::replace(
         tmp.path(),
         "facilities.csv",
-        "-80.000,100\n",
-        "-80.000,100,north room\n",
+        "80.000,100\n",
+        "80.000,100,north room\n",
     );
     util::replace(
         tmp.path(),
         "facilities.csv",
-        "-80.000,120\n",
-        "-80.000,120,\n",
+        "80.000,120\n",
+        "80.000,120,\n",
     );
     util::replace(
         tmp.path(),

@@ -190,7 +190,7 @@ fn geojson_parses_with_the_geojson_crate_and_holds_no_address() {
             );
             // lon first: the tiny fixture is near lon -80, lat 27.
             let c = poly.exterior().0[0];
-            assert!(c.x < -79.0 && c.y > 26.0);
+            assert!(c.x > 79.0 && c.y > 26.0);
         }
     }
     assert_eq!(polygons, 6, "every block is a polygon");

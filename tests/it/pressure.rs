@@ -123,7 +123,7 @@ proptest! {
         older_by in 1u8..100,
         kind in any::<u8>(),
     ) {
-        let centre = LonLat { lon: -80.0, lat: 27.0 };
+        let centre = LonLat { lon: 80.0, lat: 27.0 };
         let young = scenario(centre, 5.0, 2.0, &[], &[(45.0, dist, kind, 3.0, age)]);
         let old = scenario(centre, 5.0, 2.0, &[], &[(45.0, dist, kind, 3.0, age.saturating_add(older_by))]);
         let params = PressureParams::default();
@@ -138,7 +138,7 @@ proptest! {
 fn point_just_past_the_radius_is_excluded_and_just_inside_included() {
     // 5 km radius; points 1 mm either side of it, due east at 27° N.
     let centre = LonLat {
-        lon: -80.0,
+        lon: 80.0,
         lat: 27.0,
     };
     let inside = scenario(centre, 5.0, 2.0, &[], &[(90.0, 1.0 - 2e-7, 0, 1.0, 0)]);
@@ -190,7 +190,7 @@ fn timing_35k_sites() {
         .map(|i| {
             let mut site = template.clone();
             site.location = LonLat {
-                lon: -80.5 + 0.006 * f64::from(i % 187),
+                lon: 80.5 + 0.006 * f64::from(i % 187),
                 lat: 26.5 + 0.006 * f64::from(i / 187),
             };
             site
@@ -204,7 +204,7 @@ fn timing_35k_sites() {
                 id: format!("P{i}"),
                 date: week_start - chrono::Days::new(u64::from(i % 30)),
                 location: LonLat {
-                    lon: -80.5 + step * f64::from(i % side),
+                    lon: 80.5 + step * f64::from(i % side),
                     lat: 26.5 + step * f64::from(i / side),
                 },
                 kind: kind_of((i % 3) as u8),

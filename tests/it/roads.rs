@@ -77,7 +77,7 @@ fn road_scenario(pbf: Option<&[u8]>) -> tempfile::TempDir {
 
 /// Grid over the minimal scenario (−80.10…−79.90 E, 26.60…27.10 N).
 fn covering_grid() -> Vec<u8> {
-    let (n, w) = grid((-8010, -7990), (2660, 2710), &|_, _| false);
+    let (n, w) = grid((7990, 8010), (2660, 2710), &|_, _| false);
     write_pbf(&n, &w)
 }
 
@@ -127,16 +127,16 @@ fn plans_on_roads_and_the_cache_gives_the_same_plan() {
     let geo = |a: LonLat, b: LonLat| broodcast::geodesy::distance_m(a, b) / 1000.0 / 25.0 * 60.0;
     let (fp, rp) = (
         LonLat {
-            lon: -80.0,
+            lon: 80.0,
             lat: 27.0,
         },
         LonLat {
-            lon: -80.01,
+            lon: 80.01,
             lat: 26.99,
         },
     );
     let corner = LonLat {
-        lon: -80.01,
+        lon: 80.01,
         lat: 27.0,
     };
     let expect = geo(fp, corner) + geo(corner, rp);
@@ -191,11 +191,11 @@ fn every_extract_defect_exits_2_names_the_file_and_writes_nothing() {
     let truncated = full[..full.len() * 2 / 3].to_vec();
     let far = {
         // The same grid moved 3° north (about 330 km).
-        let (n, w) = grid((-8010, -7990), (2960, 3010), &|_, _| false);
+        let (n, w) = grid((7990, 8010), (2960, 3010), &|_, _| false);
         write_pbf(&n, &w)
     };
     let footpaths = {
-        let (n, mut w) = grid((-8010, -7990), (2660, 2710), &|_, _| false);
+        let (n, mut w) = grid((7990, 8010), (2660, 2710), &|_, _| false);
         for way in &mut w {
             way.tags = vec![("highway".into(), "footway".into())];
         }
@@ -278,13 +278,13 @@ fn every_extract_defect_exits_2_names_the_file_and_writes_nothing() {
 #[test]
 fn a_site_on_a_road_island_is_out_of_reach_not_a_crash() {
     // R1 (−80.01, 26.99) sits on a street square cut off from the rest of the grid.
-    let near_r1 = |lon: f64, lat: f64| (lon + 80.01).abs() < 0.005 && (lat - 26.99).abs() < 0.005;
-    let (mut nodes, mut ways) = grid((-8010, -7990), (2660, 2710), &near_r1);
+    let near_r1 = |lon: f64, lat: f64| (lon - 80.01).abs() < 0.005 && (lat - 26.99).abs() < 0.005;
+    let (mut nodes, mut ways) = grid((7990, 8010), (2660, 2710), &near_r1);
     let square = [
-        (-80.012, 26.988),
-        (-80.008, 26.988),
-        (-80.008, 26.992),
-        (-80.012, 26.992),
+        (80.012, 26.988),
+        (80.008, 26.988),
+        (80.008, 26.992),
+        (80.012, 26.992),
     ];
     for (i, &(lon, lat)) in square.iter().enumerate() {
         nodes.push(OsmNode {
@@ -548,13 +548,8 @@ fn demo_route_sheet_maps_show_named_roads_and_places_clear_of_the_stop_labels() 
 #[test]
 fn a_site_far_from_a_road_gets_a_warning_and_still_plans() {
     let dir = road_scenario(Some(&covering_grid()));
-    // R4 moved to 2 km east of the grid's last street (−79.90 E).
-    util::replace(
-        dir.path(),
-        "requests.csv",
-        "26.880,-80.020",
-        "26.880,-79.880",
-    );
+    // R4 moved to 2 km west of the grid's westernmost street (79.90 E).
+    util::replace(dir.path(), "requests.csv", "26.880,80.020", "26.880,79.880");
     let out = tempfile::tempdir().unwrap();
     let o = plan(dir.path(), &out.path().join("plan"));
     let stderr = String::from_utf8_lossy(&o.stderr);

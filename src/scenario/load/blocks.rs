@@ -646,7 +646,7 @@ mod tests {
                     break 'outer;
                 }
                 let t = k as f64 / per_side as f64;
-                let x = -80.0 + w[0].0 + (w[1].0 - w[0].0) * t;
+                let x = 80.0 + w[0].0 + (w[1].0 - w[0].0) * t;
                 let y = 27.0 + w[0].1 + (w[1].1 - w[0].1) * t;
                 ring.push(format!("[{x},{y}]"));
             }
