@@ -318,6 +318,17 @@ fn synthetic_depot_day(opts: &DispatchOptions) -> Row {
 
 fn main() -> Result<()> {
     let mut rows = Vec::new();
+    // `-- depot-day`: only the synthetic depot-day, printed, nothing written (for profiling).
+    if std::env::args().nth(1).as_deref() == Some("depot-day") {
+        let r = synthetic_depot_day(&DispatchOptions {
+            seed: 1,
+            time_limit: None,
+            max_iterations: SolveOptions::default().max_iterations,
+            stall_rounds: SolveOptions::default().stall_rounds,
+        });
+        println!("{}: {} in {:.0} ms", r.instance, r.ours, r.ms);
+        return Ok(());
+    }
     let tsp_gaps = tsplib_rows(&mut rows)?;
     let (spread_mean, spread_worst, worst_at) = tsplib_seed_spread()?;
     // Iteration caps only, so the table is reproducible and the times are what the work costs.

@@ -33,7 +33,7 @@ pub struct DispatchOptions {
 
 impl DispatchOptions {
     /// `dispatch.seed` and, only when the scenario sets it, `dispatch.time_limit_seconds`;
-    /// 9,000 rounds, stop after 3,000 without a new best (30 per customer when fewer).
+    /// 12,000 rounds, stop after 3,000 without a new best (30 per customer when fewer).
     pub fn from_scenario(scenario: &Scenario) -> Self {
         DispatchOptions {
             seed: scenario.dispatch.seed,

@@ -42,7 +42,8 @@
 //!   of each kind is tried (after a whole-route ruin, only for customers no route can take).
 //! * `search.rs` — the driver: the best construction, then two independent searches with
 //!   their own seeds, then the better of them goes on; each round perturbs and runs the local
-//!   search, and a late-acceptance rule (Burke & Bykov 2017, "The late acceptance
+//!   search from the customers the perturbation moved or gave new neighbours (a don't-look
+//!   rule at customer level; a new best gets one full pass), and a late-acceptance rule (Burke & Bykov 2017, "The late acceptance
 //!   hill-climbing heuristic", EJOR 258) keeps the candidate when it is no longer than the
 //!   current solution or than the current solution of 300 rounds ago, always keeping the best.
 //!   The second start searches *penalised*, as PyVRP's search does (Wouda, Lan & Kool 2024,
@@ -141,13 +142,13 @@ pub struct SolveOptions {
 }
 
 impl Default for SolveOptions {
-    /// Seed 1, no time limit, 9,000 rounds, 12 neighbours, stop after 3,000 rounds without a
+    /// Seed 1, no time limit, 12,000 rounds, 12 neighbours, stop after 3,000 rounds without a
     /// new best (30 per customer when that is fewer).
     fn default() -> Self {
         SolveOptions {
             seed: 1,
             time_limit: None,
-            max_iterations: 9_000,
+            max_iterations: 12_000,
             neighbours: 12,
             stall_rounds: 3_000,
         }
