@@ -420,9 +420,9 @@ fn day_sheets_and_labels_print_in_chromium() {
 fn an_edited_or_added_gpx_file_blocks_replacing_the_plan_folder() {
     let dir = tempfile::tempdir().unwrap();
     let out = plan_demo(dir.path(), "out", &[]);
-    run_ok(&["plan", "--out", s(&out)]);
     let gpx = gpx_files(&out).remove(0);
-    let mut edited = std::fs::read(&gpx).unwrap();
+    let original = std::fs::read(&gpx).unwrap();
+    let mut edited = original.clone();
     edited.extend_from_slice(b"<!-- driver's note -->\n");
     std::fs::write(&gpx, &edited).unwrap();
     let o = run(&["plan", "--out", s(&out)]);
@@ -430,15 +430,14 @@ fn an_edited_or_added_gpx_file_blocks_replacing_the_plan_folder() {
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("routes/") && err.contains("edited"), "{err}");
     assert_eq!(std::fs::read(&gpx).unwrap(), edited, "the edit is kept");
-    // Put back, then a file of the user's own in routes/.
-    run_ok(&["plan", "--out", s(&dir.path().join("fresh"))]);
-    let name = gpx.file_name().unwrap();
-    std::fs::copy(dir.path().join("fresh/routes").join(name), &gpx).unwrap();
-    run_ok(&["plan", "--out", s(&out)]);
+    // Put back (the refusal wrote nothing), then a file of the user's own in routes/: only
+    // that file is in the way.
+    std::fs::write(&gpx, &original).unwrap();
     let mine = out.join(ROUTES_DIR).join("mine.gpx");
     std::fs::write(&mine, b"<gpx/>").unwrap();
     let o = run(&["plan", "--out", s(&out)]);
     assert_eq!(o.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&o.stderr).contains("routes/mine.gpx"));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("routes/mine.gpx") && !err.contains("edited"), "{err}");
     assert_eq!(std::fs::read(&mine).unwrap(), b"<gpx/>");
 }
