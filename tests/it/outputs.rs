@@ -552,15 +552,8 @@ fn demo_report_fits_three_pages_and_route_sheets_one_page_per_route() {
     if !printing_tools() {
         return;
     }
-    let bin = env!("CARGO_BIN_EXE_broodcast");
     let dir = tempfile::tempdir().unwrap();
-    let out = dir.path().join("out");
-    let o = Command::new(bin)
-        .args(["plan", "--out"])
-        .arg(&out)
-        .output()
-        .unwrap();
-    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let out = util::demo_plan();
 
     let report = dir.path().join("report.pdf");
     print_pdf(&out.join("report.html"), &report);

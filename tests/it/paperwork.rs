@@ -135,8 +135,7 @@ fn plan_geojson_route_lines_are_valid_rfc_7946_by_shapely() {
     ) {
         return;
     }
-    let dir = tempfile::tempdir().unwrap();
-    let out = plan_demo(dir.path(), "out", &[]);
+    let out = util::demo_plan();
     let o = Command::new("python3")
         .args(["-c", GEOJSON_CHECK])
         .arg(out.join("plan.geojson"))
@@ -145,7 +144,7 @@ fn plan_geojson_route_lines_are_valid_rfc_7946_by_shapely() {
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["problems"], serde_json::json!([]), "{}", v["problems"]);
-    let rows = manifest(&out);
+    let rows = manifest(out);
     let orders = stop_orders(&rows);
     let routes = v["routes"].as_object().unwrap();
     assert_eq!(routes.len(), orders.len(), "one line per route");
@@ -236,10 +235,10 @@ fn gpx_files_validate_against_the_gpx_1_1_schema() {
 #[test]
 fn confirmations_csv_filled_in_is_accepted_by_ledger_confirm() {
     let dir = tempfile::tempdir().unwrap();
-    let out = plan_demo(dir.path(), "out", &[]);
+    let out = util::demo_plan();
     let db = dir.path().join("season.sqlite");
     run_ok(&["ledger", "init", s(&db)]);
-    run_ok(&["ledger", "commit", s(&db), s(&out)]);
+    run_ok(&["ledger", "commit", s(&db), s(out)]);
 
     let form = out.join("confirmations.csv");
     let mut r = csv::Reader::from_path(&form).unwrap();
@@ -248,7 +247,7 @@ fn confirmations_csv_filled_in_is_accepted_by_ledger_confirm() {
         CONFIRMATION_COLUMNS
     );
     let ids: Vec<String> = r.records().map(|x| x.unwrap()[0].to_string()).collect();
-    let rows = manifest(&out);
+    let rows = manifest(out);
     let want: Vec<&str> = rows.iter().map(|r| r["shipment_id"].as_str()).collect();
     assert_eq!(ids, want, "one row per shipment, manifest order");
 
@@ -325,8 +324,7 @@ fn pairs_closer_than(p: &[(f64, f64)], d: f64) -> usize {
 /// radius 10) is printed beside it.
 #[test]
 fn stop_labels_on_the_demos_densest_route_do_not_overlap() {
-    let dir = tempfile::tempdir().unwrap();
-    let out = plan_demo(dir.path(), "out", &[]);
+    let out = util::demo_plan();
     let html = std::fs::read_to_string(out.join("route-sheets.html")).unwrap();
     let maps = util::route_sheet_maps(&html);
     let densest = maps
@@ -371,8 +369,8 @@ fn day_sheets_and_labels_print_in_chromium() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();
-    let out = plan_demo(dir.path(), "out", &[]);
-    let rows = manifest(&out);
+    let out = util::demo_plan();
+    let rows = manifest(out);
     let days: std::collections::BTreeSet<(&str, &str)> = rows
         .iter()
         .map(|r| (r["facility_id"].as_str(), r["dispatch_date"].as_str()))
@@ -438,6 +436,9 @@ fn an_edited_or_added_gpx_file_blocks_replacing_the_plan_folder() {
     let o = run(&["plan", "--out", s(&out)]);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
-    assert!(err.contains("routes/mine.gpx") && !err.contains("edited"), "{err}");
+    assert!(
+        err.contains("routes/mine.gpx") && !err.contains("edited"),
+        "{err}"
+    );
     assert_eq!(std::fs::read(&mine).unwrap(), b"<gpx/>");
 }

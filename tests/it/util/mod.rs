@@ -142,6 +142,18 @@ pub fn run_ok(args: &[&str]) -> String {
     String::from_utf8(out.stdout).expect("utf-8 stdout")
 }
 
+/// The built-in demo planned once per test run (`plan --out`, default options), for the tests
+/// that only read its outputs: never write into it. The folder sits in Cargo's scratch
+/// directory for integration tests and is replaced by the next run's plan.
+pub fn demo_plan() -> &'static Path {
+    static DIR: std::sync::OnceLock<PathBuf> = std::sync::OnceLock::new();
+    DIR.get_or_init(|| {
+        let out = Path::new(env!("CARGO_TARGET_TMPDIR")).join("shared-demo-plan");
+        run_ok(&["plan", "--out", out.to_str().expect("UTF-8 path")]);
+        out
+    })
+}
+
 /// The hand-written valid scenario folder.
 pub fn minimal_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/minimal")
