@@ -24,6 +24,7 @@ pub mod ledger;
 pub mod output;
 pub mod plan;
 pub mod pressure;
+pub mod progress;
 pub mod roads;
 pub mod scenario;
 pub mod sweep;

@@ -9,6 +9,7 @@ use crate::baseline::{self, Baseline};
 use crate::dispatch::{self, Dispatch};
 use crate::eligibility::Reason;
 use crate::pressure::{self, PressureParams};
+use crate::progress::{Progress, Step};
 use crate::scenario::Scenario;
 use crate::travel::TravelModel;
 
@@ -42,6 +43,9 @@ pub struct PlanOptions {
     /// without a new best); 0 and 1 mean the full search. `sweep` uses it for every variant
     /// but 1×, whose routes nobody prints.
     pub route_rounds_divisor: u32,
+    /// Where the stages report their steps (default: nowhere). `alloc.progress` is set from
+    /// it by [`plan_with`].
+    pub progress: Progress,
 }
 
 /// Site priority (dimensionless) for every site, in `SiteIdx` order.
@@ -63,7 +67,11 @@ pub fn prepare(scenario: &Scenario, opts: &PlanOptions) -> (TravelModel, Vec<f64
 
 /// Plans the week.
 pub fn plan(scenario: Scenario, opts: &PlanOptions) -> Result<Plan, AllocError> {
+    opts.progress.report(Step::Travel);
     let travel = TravelModel::new(&scenario);
+    opts.progress.report(Step::Priority {
+        sites: scenario.sites.len(),
+    });
     let priority = priorities(&scenario, &opts.pressure);
     plan_with(scenario, &travel, priority, opts)
 }
@@ -81,9 +89,15 @@ pub fn plan_with(
     priority: Vec<f64>,
     opts: &PlanOptions,
 ) -> Result<Plan, AllocError> {
+    let progress = &opts.progress;
+    progress.report(Step::Arcs {
+        sites: scenario.sites.len(),
+    });
     let arcs = arcs::build_arcs(&scenario, travel);
+    progress.report(Step::HandPlan);
     let baseline = baseline::hand_plan(&scenario, &priority, &arcs, &opts.alloc)?;
     let mut alloc_opts = opts.alloc.clone();
+    alloc_opts.progress = progress.clone();
     let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     // The feedback rounds re-route only the depot-days whose stops changed.
     let routes = dispatch::RouteCache::new();
@@ -92,7 +106,14 @@ pub fn plan_with(
     dispatch_opts.max_iterations = (dispatch_opts.max_iterations / divisor).max(1);
     dispatch_opts.stall_rounds = (dispatch_opts.stall_rounds / divisor).max(1);
     let route = |allocation: &Allocation| {
-        dispatch::dispatch_cached(&scenario, allocation, travel, &dispatch_opts, &routes)
+        dispatch::dispatch_reporting(
+            &scenario,
+            allocation,
+            travel,
+            &dispatch_opts,
+            &routes,
+            progress,
+        )
     };
     let first_dispatch = route(&first);
     let mut moved = Vec::new();
@@ -124,6 +145,7 @@ pub fn plan_with(
             u.reason
         ));
     }
+    progress.report(Step::Replan);
     alloc_opts.excluded.extend(removed);
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;

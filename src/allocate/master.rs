@@ -11,6 +11,7 @@ use super::constraint::ConstraintKind;
 use super::instance::{Force, Instance, share_coef};
 use super::model::{LinearModel, ModelError, ModelSolution, Sense};
 use super::pricing::{MAX_PRICING_ROUNDS, add_priced_arcs, initial_arcs, use_pricing};
+use crate::progress::Step;
 use crate::scenario::SiteKind;
 
 /// Rows of one working-set site.
@@ -258,6 +259,11 @@ pub(crate) fn solve_relaxation(
     let mut rounds = 0;
     loop {
         rounds += 1;
+        opts.progress.report(Step::LpRound {
+            round: rounds,
+            working_arcs: arc_in.iter().filter(|b| **b).count(),
+            arcs: na,
+        });
         let built = build_model(inst, &arc_in);
         let solution = built.model.solve_relaxation_with(opts.solver)?;
         let y = &solution.duals;

@@ -66,6 +66,8 @@ pub struct AllocOptions {
     /// reach the same bound; the LP solution, and so the rounded plan, may differ (HiGHS
     /// returns a vertex, clarabel a point inside the optimal face).
     pub solver: model::Solver,
+    /// Where each LP round and the whole-vial step are reported (default: nowhere).
+    pub progress: crate::progress::Progress,
 }
 
 impl Default for AllocOptions {
@@ -78,6 +80,7 @@ impl Default for AllocOptions {
             bound_steps: 1000,
             warm_start: BTreeSet::new(),
             solver: model::Solver::default(),
+            progress: crate::progress::Progress::default(),
         }
     }
 }
@@ -313,6 +316,7 @@ pub fn allocate(
             scenario: scenario.name.clone(),
             source,
         })?;
+        opts.progress.report(crate::progress::Step::WholeVials);
         if relax.priced {
             notes.push(Note::new(NoteKind::LpPriced {
                 working_arcs: relax.working_set.len(),

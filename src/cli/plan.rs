@@ -10,6 +10,7 @@ use crate::allocate::Solver;
 use crate::ledger::LedgerMarks;
 use crate::output::{self, PlanView};
 use crate::plan::{self, PlanOptions};
+use crate::progress::Progress;
 use crate::scenario;
 use crate::sweep::{self, Setting};
 
@@ -127,6 +128,10 @@ pub(crate) fn run(args: Args) -> CliResult {
     }
     let mut opts = PlanOptions::default();
     opts.alloc.solver = solver;
+    if !bar.is_hidden() {
+        let shown = bar.clone();
+        opts.progress = Progress::new(move |step| shown.set_message(step.to_string()));
+    }
     // The ledger is read here, once; planning gets typed marks, never the file.
     let marks = match &args.ledger {
         Some(db) => {
@@ -137,10 +142,6 @@ pub(crate) fn run(args: Args) -> CliResult {
         }
         None => None,
     };
-    bar.set_message(format!(
-        "planning {} sites: priority, arcs, allocation, whole vials, routes",
-        scenario.sites.len()
-    ));
     let mut p = plan::plan(scenario, &opts).map_err(|e| Failure::Internal(e.into()))?;
     bar.set_message("writing the outputs");
     if let Some(m) = &marks {

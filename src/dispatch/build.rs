@@ -13,6 +13,7 @@ use super::vrptw::{self, Customer, Instance, SolveOptions, VehicleSpec};
 use super::{Dispatch, ParcelShipment, Route, Stop, Undeliverable};
 use crate::allocate::Allocation;
 use crate::arcs::Mode;
+use crate::progress::{Progress, Step};
 use crate::scenario::{FacilityIdx, LonLat, Scenario, SiteIdx};
 use crate::travel::{Place, TravelTimes};
 
@@ -141,6 +142,26 @@ pub fn dispatch_cached(
     opts: &DispatchOptions,
     cache: &RouteCache,
 ) -> Dispatch {
+    dispatch_reporting(
+        scenario,
+        allocation,
+        travel,
+        opts,
+        cache,
+        &Progress::default(),
+    )
+}
+
+/// As [`dispatch_cached`], reporting to `progress` how many depot-days are routed (at the
+/// start and after each one, from the threads that route them).
+pub fn dispatch_reporting(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    travel: &(impl TravelTimes + Sync),
+    opts: &DispatchOptions,
+    cache: &RouteCache,
+    progress: &Progress,
+) -> Dispatch {
     let mut out = Dispatch::default();
     let mut groups: BTreeMap<(FacilityIdx, NaiveDate), BTreeMap<SiteIdx, Vec<usize>>> =
         BTreeMap::new();
@@ -159,6 +180,10 @@ pub fn dispatch_cached(
     // Depot-days are independent VRPTWs with their own seeds: solved in parallel, merged in
     // key order, so the result does not depend on the number of threads.
     let groups: Vec<_> = groups.into_iter().collect();
+    let total = groups.len();
+    // Counted and reported under one lock, so the reports never go backwards.
+    let done = Mutex::new(0);
+    progress.report(Step::Routes { done: 0, total });
     let parts: Vec<Dispatch> = groups
         .par_iter()
         .map(|((facility, date), visits)| {
@@ -166,6 +191,10 @@ pub fn dispatch_cached(
             route_depot_day(
                 scenario, allocation, travel, opts, cache, *facility, *date, visits, &mut part,
             );
+            if let Ok(mut done) = done.lock() {
+                *done += 1;
+                progress.report(Step::Routes { done: *done, total });
+            }
             part
         })
         .collect();
