@@ -50,9 +50,24 @@ pub(super) fn fixed1<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
     Fixed::<1>(*x).serialize(s)
 }
 
+/// A value written as its `Display` text (e.g. a supply multiplier, `0.5`).
+pub(super) fn text<T: fmt::Display, S: Serializer>(x: &T, s: S) -> Result<S::Ok, S::Error> {
+    s.collect_str(x)
+}
+
+/// A number with 3 decimals (objective values).
+pub(super) fn fixed3<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+    Fixed::<3>(*x).serialize(s)
+}
+
 /// A number with 4 decimals (priority).
 pub(super) fn fixed4<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
     Fixed::<4>(*x).serialize(s)
+}
+
+/// A number with 6 decimals (shares, values per vial).
+pub(super) fn fixed6<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+    Fixed::<6>(*x).serialize(s)
 }
 
 /// A coordinate with 6 decimals (about 0.1 m); an empty cell (JSON `null`) when absent.
