@@ -1,7 +1,8 @@
 //! One reader for every CSV file broodcast reads outside the scenario loader: the plan outputs
 //! read back by `ledger commit` and `compare` (`manifest.csv`, `allocation.csv`), the filled-in
-//! `confirmations.csv` of `ledger confirm`, and the rearing log, temperatures and facilities of
-//! `forecast`.
+//! `confirmations.csv` of `ledger confirm`, the rearing log, temperatures and facilities of
+//! `forecast`, and a sweep's `sweep.csv`
+//! ([`crate::output::sweep_report::SweepRecord`]).
 //!
 //! A file is decoded and split into rows by the scenario loader's own table reader, so every
 //! reader shares its rules: UTF-8 (an invalid byte names its line), physical line numbers that

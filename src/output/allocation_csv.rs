@@ -129,8 +129,7 @@ mod tests {
 
     #[test]
     fn the_record_serializes_the_columns_in_the_contract_order() {
-        let mut w = csv::Writer::from_writer(Vec::new());
-        w.serialize(AllocationRecord {
+        let record = AllocationRecord {
             site_id: "B1".into(),
             site_kind: SiteKind::Block,
             priority: 0.5,
@@ -138,9 +137,16 @@ mod tests {
             reason: String::new(),
             vials: 2,
             wasps_expected_alive: 3.24,
-        })
-        .unwrap();
-        let text = String::from_utf8(w.into_inner().unwrap()).unwrap();
+        };
+        let fields: Vec<&str> = super::super::cell::record(&record)
+            .unwrap()
+            .into_iter()
+            .map(|(k, _)| k)
+            .collect();
+        assert_eq!(fields, ALLOCATION_COLUMNS);
+        let text =
+            String::from_utf8(super::super::write_csv(&ALLOCATION_COLUMNS, [record]).unwrap())
+                .unwrap();
         assert_eq!(
             text,
             format!(

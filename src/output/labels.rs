@@ -6,11 +6,15 @@
 //! with the coordinates when redacted), the shipment id, the release-by time, the sending
 //! facility, vials and hand-over, and the cautions ([`super::CAUTIONS`]). A driver's
 //! document: with the route sheets and the GPX files, the only outputs that carry an address.
+//!
+//! The body is a `maud` template: every value spliced into it is HTML-escaped, so no name,
+//! address or id can become markup. The page head is the shared one
+//! (`super::week_page_head`), escaped with [`super::esc`].
 
-use std::fmt::Write;
+use maud::html;
 
 use super::route_sheets::WITHHELD;
-use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, esc, fixed};
+use super::{CAUTIONS, Delivered, OutputError, PlanView, bad_site, fixed};
 use crate::scenario::SiteDetail;
 
 /// Labels on one printed page (2 columns × 4 rows; measured in headless Chromium on Letter
@@ -44,82 +48,69 @@ pub(crate) fn render(
     redact: bool,
 ) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut h = super::week_page_head(sc, "Parcel labels", redact, CSS);
     let parcels = &view.dispatch.parcels;
-    if parcels.is_empty() {
-        let _ = writeln!(
-            h,
-            "<h1>Parcel labels — week of {}</h1><p class=\"intro\">No parcels this week.</p>",
-            sc.week_start
-        );
-    }
-    let cautions: String = CAUTIONS
-        .iter()
-        .map(|c| format!("<li>{}</li>", esc(c)))
-        .collect();
-    for (page, chunk) in parcels.chunks(LABELS_PER_PAGE).enumerate() {
-        if page == 0 {
-            let _ = writeln!(
-                h,
-                "<h1>Parcel labels — week of {}</h1><p class=\"intro\">{} parcels; cut along the dashed lines.{}</p>",
-                sc.week_start,
-                parcels.len(),
-                if redact {
-                    " Addresses withheld for sharing: recipients are given by request id and coordinates."
-                } else {
-                    ""
-                }
-            );
+    let body = html! {
+        @if parcels.is_empty() {
+            h1 { "Parcel labels — week of " (sc.week_start) }
+            p.intro { "No parcels this week." } "\n"
         }
-        h.push_str("<section class=\"page\">\n");
-        for p in chunk {
-            let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
-            let row = plan.row_of(p.shipment)?;
-            let coords = format!(
-                "{}, {}",
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6)
-            );
-            let to = match &site.detail {
-                SiteDetail::Dooryard(_) if redact => format!(
-                    "Request {}<br><em>{WITHHELD}</em><br><span class=\"muted\">{coords}</span>",
-                    esc(site.id.as_str())
-                ),
-                SiteDetail::Dooryard(req) => {
-                    format!("Request {}<br>{}", esc(site.id.as_str()), esc(&req.address))
+        @for (page, chunk) in parcels.chunks(LABELS_PER_PAGE).enumerate() {
+            @if page == 0 {
+                h1 { "Parcel labels — week of " (sc.week_start) }
+                p.intro {
+                    (parcels.len()) " parcels; cut along the dashed lines."
+                    @if redact {
+                        " Addresses withheld for sharing: recipients are given by request id and coordinates."
+                    }
                 }
-                SiteDetail::Block(_) => format!(
-                    "Block {}<br><span class=\"muted\">access point {coords}</span>",
-                    esc(site.id.as_str())
-                ),
-            };
-            let from = sc
-                .facilities
-                .get(row.facility)
-                .map(|f| format!("{} ({})", esc(&f.name), esc(f.id.as_str())))
-                .ok_or_else(|| OutputError::Inconsistent("parcel facility out of range".into()))?;
-            let _ = writeln!(
-                h,
-                "<div class=\"label\"><div class=\"top\"><span>From {from}</span><span>{vials} vials · hand over {ship}</span></div>\
-<div class=\"to\"><span class=\"k\">To</span>{to}</div>\
-<div class=\"ship\">{sid}</div>\
-<div class=\"by\">Release by {by}</div>\
-<div class=\"live\">LIVE INSECTS — keep cool and shaded, do not freeze</div>\
-<ul class=\"cautions\">{cautions}</ul></div>",
-                vials = p.vials,
-                ship = p.ship_at.format("%a %Y-%m-%d %H:%M"),
-                sid = esc(&row.shipment_id),
-                by = p.release_by.format("%a %Y-%m-%d %H:%M"),
-            );
+                "\n"
+            }
+            section.page {
+                "\n"
+                @for p in chunk {
+                    @let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
+                    @let row = plan.row_of(p.shipment)?;
+                    @let coords = format!("{}, {}", fixed(site.location.lat, 6), fixed(site.location.lon, 6));
+                    @let f = sc.facilities.get(row.facility).ok_or_else(|| {
+                        OutputError::Inconsistent("parcel facility out of range".into())
+                    })?;
+                    div.label {
+                        div.top {
+                            span { "From " (f.name) " (" (f.id.as_str()) ")" }
+                            span { (p.vials) " vials · hand over " (p.ship_at.format("%a %Y-%m-%d %H:%M")) }
+                        }
+                        div.to {
+                            span.k { "To" }
+                            @match &site.detail {
+                                SiteDetail::Dooryard(_) if redact => {
+                                    "Request " (site.id.as_str()) br; em { (WITHHELD) } br; span.muted { (coords) }
+                                }
+                                SiteDetail::Dooryard(req) => { "Request " (site.id.as_str()) br; (req.address) }
+                                SiteDetail::Block(_) => {
+                                    "Block " (site.id.as_str()) br; span.muted { "access point " (coords) }
+                                }
+                            }
+                        }
+                        div.ship { (row.shipment_id) }
+                        div.by { "Release by " (p.release_by.format("%a %Y-%m-%d %H:%M")) }
+                        div.live { "LIVE INSECTS — keep cool and shaded, do not freeze" }
+                        ul.cautions { @for c in CAUTIONS { li { (c) } } }
+                    }
+                    "\n"
+                }
+            }
+            "\n"
         }
-        h.push_str("</section>\n");
-    }
+    };
+    let mut h = super::week_page_head(sc, "Parcel labels", redact, CSS);
+    h.push_str(&body.into_string());
     h.push_str("</body>\n</html>\n");
     Ok(h.into_bytes())
 }
 
 #[cfg(test)]
 mod tests {
+    use super::super::esc;
     use super::super::fixture::tiny_plan;
     use super::*;
 
@@ -154,5 +145,26 @@ mod tests {
         let h = html(&p, false);
         assert_eq!(h.matches("<section class=\"page\">").count(), 3);
         assert_eq!(h.matches("<div class=\"label\">").count(), 17);
+    }
+
+    #[test]
+    fn names_and_addresses_are_escaped_by_the_template() {
+        let mut p = tiny_plan();
+        p.scenario.facilities[1].name = "<b>South</b> & \"co\"".into();
+        for s in &mut p.scenario.sites {
+            if let SiteDetail::Dooryard(r) = &mut s.detail {
+                r.address = "1 <i>Evil</i> Way".into();
+            }
+        }
+        let h = html(&p, false);
+        assert!(!h.contains("<b>South") && !h.contains("<i>Evil"), "{h}");
+        assert!(
+            h.contains("From &lt;b&gt;South&lt;/b&gt; &amp; &quot;co&quot; (F2)"),
+            "{h}"
+        );
+        assert!(
+            h.contains("Request R3<br>1 &lt;i&gt;Evil&lt;/i&gt; Way"),
+            "{h}"
+        );
     }
 }

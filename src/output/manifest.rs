@@ -6,7 +6,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use chrono::{NaiveDate, NaiveDateTime};
 use serde::Serialize;
 
-use super::{Delivered, OutputError, PlanView, bad_site, iso_minutes, mode_str, round_to};
+use super::{Delivered, OutputError, PlanView, bad_site, iso_minutes, round_to};
 use crate::arcs::Mode;
 use crate::csvread::{Cells, CsvRow, iso_date, local_datetime};
 use crate::scenario::{FacilityIdx, SiteIdx, SiteKind};
@@ -32,8 +32,9 @@ pub const MANIFEST_COLUMNS: [&str; 15] = [
 
 /// One `manifest.csv` row as the file holds it: written by `plan`, read back (through
 /// [`crate::csvread`]) by `ledger commit`, which keeps it in the ledger, and by `compare`.
-/// Fields in [`MANIFEST_COLUMNS`] order (a test ties the two); coordinates with 6 decimals,
-/// wasps alive with 1, times to the minute.
+/// Fields in [`MANIFEST_COLUMNS`] order (the CSV writer checks it, a test ties the two);
+/// coordinates with 6 decimals, wasps alive with 1, times to the minute. The same record is a
+/// row of `manifest.json` (numbers as JSON numbers, an empty cell as `null`).
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ManifestRecord {
     /// `S-<facility>-<yyyymmdd>-<site>` (dispatch date), with `-2`, `-3`… when the same site
@@ -313,25 +314,6 @@ pub(crate) fn csv(rows: &[ManifestRow]) -> Result<Vec<u8>, OutputError> {
 }
 
 #[derive(Serialize)]
-struct JsonRow<'a> {
-    shipment_id: &'a str,
-    facility_id: &'a str,
-    dispatch_date: String,
-    mode: &'static str,
-    route_id: Option<&'a str>,
-    stop_seq: Option<u32>,
-    site_id: &'a str,
-    site_kind: &'static str,
-    lat: Option<f64>,
-    lon: Option<f64>,
-    vials: u32,
-    wasps_packed: u64,
-    wasps_expected_alive: f64,
-    eta: String,
-    release_by: String,
-}
-
-#[derive(Serialize)]
 struct RouteTotal<'a> {
     route_id: &'a str,
     vehicle_id: &'a str,
@@ -356,36 +338,18 @@ struct ParcelDay {
 
 #[derive(Serialize)]
 struct ManifestJson<'a> {
-    rows: Vec<JsonRow<'a>>,
+    /// The `manifest.csv` rows, as JSON objects of the same fields.
+    rows: Vec<&'a ManifestRecord>,
     routes: Vec<RouteTotal<'a>>,
     parcels_per_day: Vec<ParcelDay>,
 }
 
-/// `manifest.json`: `rows` (same fields as the CSV, null for empty), `routes` (totals per
-/// route; `drive_minutes` in minutes) and `parcels_per_day` (hand-over date, count, vials).
+/// `manifest.json`: `rows` (the [`ManifestRecord`]s of `manifest.csv`: the same fields, null
+/// for an empty cell, numbers rounded as the CSV rounds them), `routes` (totals per route;
+/// `drive_minutes` in minutes) and `parcels_per_day` (hand-over date, count, vials).
 pub(crate) fn json(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let rows = plan
-        .rows
-        .iter()
-        .map(|r| JsonRow {
-            shipment_id: &r.shipment_id,
-            facility_id: &r.facility_id,
-            dispatch_date: r.dispatch_date.to_string(),
-            mode: mode_str(r.mode),
-            route_id: r.route_id.as_deref(),
-            stop_seq: r.stop_seq,
-            site_id: &r.site_id,
-            site_kind: r.site_kind.as_str(),
-            lat: r.lat.map(|x| round_to(x, 6)),
-            lon: r.lon.map(|x| round_to(x, 6)),
-            vials: r.vials,
-            wasps_packed: r.wasps_packed,
-            wasps_expected_alive: round_to(r.wasps_expected_alive, 1),
-            eta: iso_minutes(r.eta),
-            release_by: iso_minutes(r.release_by),
-        })
-        .collect();
+    let rows = plan.rows.iter().map(|r| &r.record).collect();
     let mut routes = Vec::new();
     for r in &view.dispatch.routes {
         let vehicle = sc.fleet.get(r.vehicle).ok_or_else(|| {
@@ -481,14 +445,13 @@ mod tests {
             text.lines().next(),
             Some(MANIFEST_COLUMNS.join(",").as_str())
         );
-        // serde's own header (the field names) is the contract's column list.
-        let mut w = ::csv::Writer::from_writer(Vec::new());
-        w.serialize(&rows[0].record).unwrap();
-        let own = String::from_utf8(w.into_inner().unwrap()).unwrap();
-        assert_eq!(
-            own.lines().next(),
-            Some(MANIFEST_COLUMNS.join(",").as_str())
-        );
+        // serde's own field names are the contract's column list.
+        let fields: Vec<&str> = super::super::cell::record(&rows[0].record)
+            .unwrap()
+            .into_iter()
+            .map(|(k, _)| k)
+            .collect();
+        assert_eq!(fields, MANIFEST_COLUMNS);
         let read = crate::csvread::read::<ManifestRecord>("manifest.csv", &bytes);
         assert!(read.problems.is_empty(), "{:?}", read.problems);
         assert_eq!(read.rows.len(), rows.len());
@@ -505,6 +468,78 @@ mod tests {
         }
         // Parcels are written with empty route cells.
         assert!(text.contains(",parcel,,,"), "{text}");
+    }
+
+    /// The keys of each object of a JSON array, in document order.
+    struct KeysInOrder(Vec<Vec<String>>);
+
+    impl<'de> serde::Deserialize<'de> for KeysInOrder {
+        fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+            struct Keys(Vec<String>);
+            impl<'de> serde::Deserialize<'de> for Keys {
+                fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+                    struct V;
+                    impl<'de> serde::de::Visitor<'de> for V {
+                        type Value = Keys;
+                        fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                            f.write_str("an object")
+                        }
+                        fn visit_map<A: serde::de::MapAccess<'de>>(
+                            self,
+                            mut m: A,
+                        ) -> Result<Keys, A::Error> {
+                            let mut keys = Vec::new();
+                            while let Some(k) = m.next_key::<String>()? {
+                                m.next_value::<serde::de::IgnoredAny>()?;
+                                keys.push(k);
+                            }
+                            Ok(Keys(keys))
+                        }
+                    }
+                    d.deserialize_map(V)
+                }
+            }
+            let rows = Vec::<Keys>::deserialize(d)?;
+            Ok(KeysInOrder(rows.into_iter().map(|k| k.0).collect()))
+        }
+    }
+
+    #[test]
+    fn json_rows_have_the_csv_columns_in_order_and_the_csv_values() {
+        let p = tiny_plan();
+        let view = p.view();
+        let plan = Delivered::build(&view).unwrap();
+        let bytes = json(&view, &plan).unwrap();
+        #[derive(serde::Deserialize)]
+        struct Doc {
+            rows: KeysInOrder,
+        }
+        let keys = serde_json::from_slice::<Doc>(&bytes).unwrap().rows;
+        let doc: serde_json::Value = serde_json::from_slice(&bytes).unwrap();
+        assert_eq!(keys.0.len(), plan.rows.len());
+        for k in &keys.0 {
+            assert_eq!(k, &MANIFEST_COLUMNS, "a manifest.json row's keys");
+        }
+        // Each JSON value is the CSV cell: text as is, numbers equal to the CSV's rounded text,
+        // null for an empty cell.
+        let csv = String::from_utf8(csv(&plan.rows).unwrap()).unwrap();
+        let mut saw_null = false;
+        for (line, obj) in csv.lines().skip(1).zip(doc["rows"].as_array().unwrap()) {
+            for (cell, col) in line.split(',').zip(MANIFEST_COLUMNS) {
+                match &obj[col] {
+                    serde_json::Value::Null => {
+                        saw_null = true;
+                        assert_eq!(cell, "", "{col}")
+                    }
+                    serde_json::Value::String(t) => assert_eq!(cell, t, "{col}"),
+                    serde_json::Value::Number(n) => {
+                        assert_eq!(cell.parse::<f64>().ok(), n.as_f64(), "{col}")
+                    }
+                    other => panic!("{col}: {other}"),
+                }
+            }
+        }
+        assert!(saw_null, "a parcel row has null route cells");
     }
 
     #[test]

@@ -15,6 +15,7 @@
 mod allocation_csv;
 mod atomic;
 mod binding;
+mod cell;
 mod confirmations;
 mod day_sheets;
 #[doc(hidden)]
@@ -37,7 +38,6 @@ use std::collections::BTreeMap;
 use chrono::{NaiveDate, NaiveDateTime};
 
 use crate::allocate::Allocation;
-use crate::arcs::Mode;
 use crate::dispatch::Dispatch;
 use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
@@ -105,6 +105,10 @@ pub enum OutputError {
     /// Writing JSON failed.
     #[error("writing JSON: {0}")]
     Json(#[from] serde_json::Error),
+    /// A record type does not fit its file's columns (a field that is not one plain cell, or
+    /// fields that differ from the column list); a bug, not an input problem.
+    #[error("writing a record: {0}")]
+    Record(String),
 }
 
 /// File names of the output contract, in the order [`render_all`] returns them; the GPX
@@ -427,57 +431,29 @@ pub(crate) fn fixed(x: f64, decimals: usize) -> String {
     format!("{r:.decimals$}")
 }
 
-/// How the CSV contract writes a cell (`#[serde(serialize_with = "…")]` on the record types).
-mod cell {
-    use chrono::{NaiveDate, NaiveDateTime};
-    use serde::Serializer;
-
-    /// A date as `YYYY-MM-DD`.
-    pub(super) fn date<S: Serializer>(d: &NaiveDate, s: S) -> Result<S::Ok, S::Error> {
-        s.collect_str(d)
-    }
-
-    /// A local date-time to the minute.
-    pub(super) fn minutes<S: Serializer>(t: &NaiveDateTime, s: S) -> Result<S::Ok, S::Error> {
-        s.serialize_str(&super::iso_minutes(*t))
-    }
-
-    /// A number with 1 decimal (wasps).
-    pub(super) fn fixed1<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
-        s.serialize_str(&super::fixed(*x, 1))
-    }
-
-    /// A number with 4 decimals (priority).
-    pub(super) fn fixed4<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
-        s.serialize_str(&super::fixed(*x, 4))
-    }
-
-    /// A coordinate with 6 decimals (about 0.1 m); empty when absent.
-    pub(super) fn degrees<S: Serializer>(x: &Option<f64>, s: S) -> Result<S::Ok, S::Error> {
-        s.serialize_str(&x.map(|x| super::fixed(x, 6)).unwrap_or_default())
-    }
-}
-
-/// CSV bytes: `columns` as the header, then each record serialized (no header of its own, so
-/// an empty file still has one).
+/// CSV bytes: `columns` as the header, then each record's cells ([`cell::record`]). A record
+/// whose field names are not `columns`, in order, is an error: the record type and its column
+/// list are one contract.
 fn write_csv<R: serde::Serialize>(
     columns: &[&str],
     records: impl IntoIterator<Item = R>,
 ) -> Result<Vec<u8>, OutputError> {
-    let mut w = csv::WriterBuilder::new()
-        .has_headers(false)
-        .from_writer(Vec::new());
+    let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(columns)?;
     for r in records {
-        w.serialize(r)?;
+        let cells = cell::record(&r)?;
+        if !cells.iter().map(|(k, _)| *k).eq(columns.iter().copied()) {
+            let fields: Vec<&str> = cells.iter().map(|(k, _)| *k).collect();
+            return Err(OutputError::Record(format!(
+                "the record's fields {} are not the columns {}",
+                fields.join(","),
+                columns.join(",")
+            )));
+        }
+        w.write_record(cells.iter().map(|(_, v)| v))?;
     }
     w.into_inner()
         .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
-}
-
-/// The `mode` of a row as written in outputs.
-pub(crate) fn mode_str(m: Mode) -> &'static str {
-    m.as_str()
 }
 
 /// HTML-escapes text for element content and quoted attribute values.

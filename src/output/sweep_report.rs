@@ -10,17 +10,20 @@
 use std::collections::BTreeMap;
 use std::fmt::Write;
 
+use serde::Serialize;
+
 use super::sweep_chart::{self, LineChart, Series};
 use super::{OutputError, PAGE_CSS, PlanView, RenderOptions, esc, fixed, render_all_with};
 
 const REDACTED: RenderOptions = RenderOptions { redact: true };
 use crate::allocate::ConstraintKind::{self, Parcel, Supply, Vehicles};
-use crate::sweep::{Sweep, VariantResult};
+use crate::csvread::{Cells, CsvRow};
+use crate::sweep::{Multiplier, Sweep, VariantResult};
 
 /// Whether a binding row is of one kind.
 type IsKind = fn(&ConstraintKind) -> bool;
 
-/// The `sweep.csv` header, in column order.
+/// The `sweep.csv` header, the contract's column order ([`SweepRecord`]).
 pub const SWEEP_COLUMNS: [&str; 17] = [
     "variant",
     "supply_multiplier",
@@ -64,32 +67,140 @@ pub fn render(sweep: &Sweep) -> Result<Vec<(String, Vec<u8>)>, OutputError> {
     Ok(files)
 }
 
-fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(SWEEP_COLUMNS)?;
-    for v in &sweep.variants {
-        w.write_record([
-            v.name.as_str(),
-            v.multiplier.as_str(),
-            &fixed(v.lp_bound, 3),
-            &fixed(v.objective, 3),
-            &fixed(v.gap, 6),
-            &v.shipped_vials.to_string(),
-            &v.supply_vials.to_string(),
-            &v.sites_served.to_string(),
-            &v.requests_served.to_string(),
-            &fixed(v.wasps_expected_alive, 1),
-            &fixed(v.marginal_value_per_vial, 6),
-            &v.blocks_served.to_string(),
-            &fixed(v.bound, 3),
-            &fixed(v.top_quarter_wasps, 1),
-            &fixed(v.hand.objective, 3),
-            &fixed(v.hand.top_quarter_wasps, 1),
-            &v.hand.unshipped_vials().to_string(),
-        ])?;
+/// One `sweep.csv` row: a variant's headline figures. Written by `sweep` and read back through
+/// [`crate::csvread`]. Fields in [`SWEEP_COLUMNS`] order (the CSV writer checks it, a test ties
+/// the two); objective values with 3 decimals, ratios and values per vial with 6, wasps with 1.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SweepRecord {
+    /// Variant name, `x` and the multiplier (`x0.5`); its folder under `variants/`.
+    pub variant: String,
+    /// Supply multiplier, as its canonical text (`0.5`, `1`, `4`).
+    #[serde(serialize_with = "super::cell::text")]
+    pub supply_multiplier: Multiplier,
+    /// LP relaxation optimum, objective units (priority-weighted live wasps).
+    #[serde(serialize_with = "super::cell::fixed3")]
+    pub lp_bound: f64,
+    /// The whole-vial plan's objective, objective units.
+    #[serde(serialize_with = "super::cell::fixed3")]
+    pub objective: f64,
+    /// 1 − objective / bound (a share, 0..1).
+    #[serde(serialize_with = "super::cell::fixed6")]
+    pub gap: f64,
+    /// Vials on a route stop or parcel.
+    pub shipped_vials: u64,
+    /// Vials packed over the week after scaling, all facilities.
+    pub supply_vials: u64,
+    /// Sites (blocks and requests) that receive vials.
+    pub sites_served: u64,
+    /// Dooryard requests that receive vials.
+    pub requests_served: u64,
+    /// Expected live wasps released, wasps.
+    #[serde(serialize_with = "super::cell::fixed1")]
+    pub wasps_expected_alive: f64,
+    /// Objective gained per extra vial, supply-weighted mean over facilities (objective units
+    /// per vial).
+    #[serde(serialize_with = "super::cell::fixed6")]
+    pub marginal_value_per_vial: f64,
+    /// Blocks that receive vials.
+    pub blocks_served: u64,
+    /// Whole-vial upper bound, objective units.
+    #[serde(serialize_with = "super::cell::fixed3")]
+    pub bound: f64,
+    /// Expected live wasps delivered to the top priority quarter of eligible sites, wasps.
+    #[serde(serialize_with = "super::cell::fixed1")]
+    pub top_quarter_wasps: f64,
+    /// The same variant planned by hand: its objective, objective units.
+    #[serde(serialize_with = "super::cell::fixed3")]
+    pub hand_objective: f64,
+    /// Planned by hand: live wasps to the top priority quarter, wasps.
+    #[serde(serialize_with = "super::cell::fixed1")]
+    pub hand_top_quarter_wasps: f64,
+    /// Planned by hand: vials packed and never shipped.
+    pub hand_unshipped_vials: u64,
+}
+
+impl SweepRecord {
+    /// The row of one variant.
+    pub fn of(v: &VariantResult) -> Self {
+        SweepRecord {
+            variant: v.name.clone(),
+            supply_multiplier: v.multiplier.clone(),
+            lp_bound: v.lp_bound,
+            objective: v.objective,
+            gap: v.gap,
+            shipped_vials: v.shipped_vials,
+            supply_vials: v.supply_vials,
+            sites_served: v.sites_served as u64,
+            requests_served: v.requests_served as u64,
+            wasps_expected_alive: v.wasps_expected_alive,
+            marginal_value_per_vial: v.marginal_value_per_vial,
+            blocks_served: v.blocks_served as u64,
+            bound: v.bound,
+            top_quarter_wasps: v.top_quarter_wasps,
+            hand_objective: v.hand.objective,
+            hand_top_quarter_wasps: v.hand.top_quarter_wasps,
+            hand_unshipped_vials: v.hand.unshipped_vials(),
+        }
     }
-    w.into_inner()
-        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+}
+
+impl CsvRow for SweepRecord {
+    const COLUMNS: &'static [&'static str] = &SWEEP_COLUMNS;
+    const UNIQUE: Option<(&'static str, &'static str)> =
+        Some(("variant", "the file has one row per variant"));
+
+    fn from_cells(c: &mut Cells<'_>) -> Option<Self> {
+        let finite = |s: &str| {
+            s.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| "a finite number".to_string())
+        };
+        const WHOLE: &str = "a whole number ≥ 0";
+        let variant = c.required("variant", "every row needs a variant name");
+        let supply_multiplier = c.parse_with("supply_multiplier", |s| {
+            Multiplier::parse(s).map_err(|e| e.to_string())
+        });
+        let lp_bound = c.parse_with("lp_bound", finite);
+        let objective = c.parse_with("objective", finite);
+        let gap = c.parse_with("gap", finite);
+        let shipped_vials = c.parse("shipped_vials", WHOLE);
+        let supply_vials = c.parse("supply_vials", WHOLE);
+        let sites_served = c.parse("sites_served", WHOLE);
+        let requests_served = c.parse("requests_served", WHOLE);
+        let wasps_expected_alive = c.parse_with("wasps_expected_alive", finite);
+        let marginal_value_per_vial = c.parse_with("marginal_value_per_vial", finite);
+        let blocks_served = c.parse("blocks_served", WHOLE);
+        let bound = c.parse_with("bound", finite);
+        let top_quarter_wasps = c.parse_with("top_quarter_wasps", finite);
+        let hand_objective = c.parse_with("hand_objective", finite);
+        let hand_top_quarter_wasps = c.parse_with("hand_top_quarter_wasps", finite);
+        let hand_unshipped_vials = c.parse("hand_unshipped_vials", WHOLE);
+        Some(SweepRecord {
+            variant: variant?,
+            supply_multiplier: supply_multiplier?,
+            lp_bound: lp_bound?,
+            objective: objective?,
+            gap: gap?,
+            shipped_vials: shipped_vials?,
+            supply_vials: supply_vials?,
+            sites_served: sites_served?,
+            requests_served: requests_served?,
+            wasps_expected_alive: wasps_expected_alive?,
+            marginal_value_per_vial: marginal_value_per_vial?,
+            blocks_served: blocks_served?,
+            bound: bound?,
+            top_quarter_wasps: top_quarter_wasps?,
+            hand_objective: hand_objective?,
+            hand_top_quarter_wasps: hand_top_quarter_wasps?,
+            hand_unshipped_vials: hand_unshipped_vials?,
+        })
+    }
+}
+
+/// `sweep.csv`: one [`SweepRecord`] per variant, in multiplier order.
+fn csv(sweep: &Sweep) -> Result<Vec<u8>, OutputError> {
+    super::write_csv(&SWEEP_COLUMNS, sweep.variants.iter().map(SweepRecord::of))
 }
 
 /// What limits a variant's vials shipped, as (short label for a chart point, sentence): the
@@ -545,7 +656,8 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
 mod tests {
     use super::*;
     use crate::allocate::Binding;
-    use crate::sweep::{Multiplier, Saturation};
+    use crate::output::round_to;
+    use crate::sweep::Saturation;
 
     fn variant(m: &str, lp: f64, mv: f64, binding: Vec<Binding>) -> VariantResult {
         VariantResult {
@@ -653,6 +765,56 @@ mod tests {
         assert_eq!(names, ["x0.5", "x1", "x2"]);
         assert_eq!(&rows[2][10], "10.000000");
         assert_eq!(&rows[0][9], "1234.6");
+    }
+
+    #[test]
+    fn the_file_reads_back_as_the_records_written_in_the_contract_order() {
+        let s = sample();
+        let records: Vec<SweepRecord> = s.variants.iter().map(SweepRecord::of).collect();
+        // serde's own field names are the contract's column list.
+        let fields: Vec<&str> = super::super::cell::record(&records[0])
+            .unwrap()
+            .into_iter()
+            .map(|(k, _)| k)
+            .collect();
+        assert_eq!(fields, SWEEP_COLUMNS);
+        let read = crate::csvread::read::<SweepRecord>("sweep.csv", &csv(&s).unwrap());
+        assert!(read.problems.is_empty(), "{:?}", read.problems);
+        let got: Vec<SweepRecord> = read.rows.into_iter().map(|(_, r)| r).collect();
+        // Written with 3, 6 and 1 decimals.
+        let want: Vec<SweepRecord> = records
+            .into_iter()
+            .map(|r| SweepRecord {
+                lp_bound: round_to(r.lp_bound, 3),
+                objective: round_to(r.objective, 3),
+                gap: round_to(r.gap, 6),
+                wasps_expected_alive: round_to(r.wasps_expected_alive, 1),
+                marginal_value_per_vial: round_to(r.marginal_value_per_vial, 6),
+                bound: round_to(r.bound, 3),
+                top_quarter_wasps: round_to(r.top_quarter_wasps, 1),
+                hand_objective: round_to(r.hand_objective, 3),
+                hand_top_quarter_wasps: round_to(r.hand_top_quarter_wasps, 1),
+                ..r
+            })
+            .collect();
+        assert_eq!(got, want);
+    }
+
+    #[test]
+    fn a_bad_sweep_csv_names_line_field_and_rule() {
+        let s = sample();
+        let text = String::from_utf8(csv(&s).unwrap()).unwrap();
+        let bad = text
+            .replacen("x1,1,", "x1,-1,", 1)
+            .replacen("x2,", "x0.5,", 1);
+        let read = crate::csvread::read::<SweepRecord>("sweep.csv", bad.as_bytes());
+        let shown: Vec<String> = read.problems.iter().map(ToString::to_string).collect();
+        assert_eq!(read.rows.len(), 1, "{shown:?}");
+        assert!(shown[0].starts_with("sweep.csv:3: field 'supply_multiplier': value '-1'"));
+        assert!(
+            shown[1].starts_with("sweep.csv:4: field 'variant': value 'x0.5': already on line 2"),
+            "{shown:?}"
+        );
     }
 
     #[test]

@@ -714,3 +714,123 @@ fn settable_keys_are_the_keys_the_loader_reads() {
         );
     }
 }
+
+/// `v × m` rounded half to even, in floats: exact for the multipliers used below (powers of
+/// two) and the fixture's vial counts. The rule `sweep` documents for scaled supply.
+fn half_even(v: u32, m: f64) -> u64 {
+    let x = f64::from(v) * m;
+    let f = x.floor();
+    let up = match (x - f).partial_cmp(&0.5) {
+        Some(std::cmp::Ordering::Greater) => true,
+        Some(std::cmp::Ordering::Equal) => f % 2.0 == 1.0,
+        _ => false,
+    };
+    (if up { f + 1.0 } else { f }) as u64
+}
+
+#[test]
+fn sweep_csv_reads_back_as_typed_rows_that_agree_with_the_variant_folders() {
+    use broodcast::csvread;
+    use broodcast::output::ManifestRecord;
+    use broodcast::output::sweep_report::SweepRecord;
+
+    let fixture = util::copy_minimal();
+    let out = fixture.path().join("out");
+    let multipliers = ["0.25", "0.5", "1", "2", "4"];
+    run_ok(&[
+        "sweep",
+        fixture.path().to_str().unwrap(),
+        "--supply",
+        &multipliers.join(","),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let got = csvread::read::<SweepRecord>("sweep.csv", read(&out.join("sweep.csv")).as_bytes());
+    assert!(got.problems.is_empty(), "{:?}", got.problems);
+    let rows: Vec<SweepRecord> = got.rows.into_iter().map(|(_, r)| r).collect();
+    let names: Vec<&str> = rows.iter().map(|r| r.variant.as_str()).collect();
+    assert_eq!(
+        names,
+        multipliers.map(|m| format!("x{m}")),
+        "one row per variant, in order"
+    );
+
+    let sc = scenario::load_dir(&util::minimal_dir()).unwrap();
+    for r in &rows {
+        let m = r.supply_multiplier.value();
+        let supply: u64 = sc.supply.iter().map(|s| half_even(s.vials, m)).sum();
+        assert_eq!(r.supply_vials, supply, "{}: supply × {m}", r.variant);
+        assert!(
+            r.shipped_vials <= r.supply_vials,
+            "{}: shipped > supply",
+            r.variant
+        );
+        assert!(r.hand_unshipped_vials <= r.supply_vials, "{}", r.variant);
+        assert_eq!(
+            r.blocks_served + r.requests_served,
+            r.sites_served,
+            "{}",
+            r.variant
+        );
+        // Written with 3 decimals: allow their rounding.
+        assert!(
+            r.objective <= r.bound + 1e-3 && r.bound <= r.lp_bound + 1e-3,
+            "{r:?}"
+        );
+        assert!(
+            (r.gap - (1.0 - r.objective / r.bound)).abs() < 1e-5,
+            "{r:?}"
+        );
+        // The row is the variant's plan: its folder's summary and manifest say the same.
+        let dir = out.join("variants").join(&r.variant);
+        let summary: serde_json::Value =
+            serde_json::from_str(&read(&dir.join("summary.json"))).unwrap();
+        assert_eq!(summary["shipped_vials"], r.shipped_vials, "{}", r.variant);
+        assert_eq!(summary["supply_vials"], r.supply_vials, "{}", r.variant);
+        let manifest = csvread::read::<ManifestRecord>(
+            "manifest.csv",
+            read(&dir.join("manifest.csv")).as_bytes(),
+        );
+        assert!(manifest.problems.is_empty(), "{:?}", manifest.problems);
+        let shipped: u64 = manifest.rows.iter().map(|(_, s)| u64::from(s.vials)).sum();
+        assert_eq!(shipped, r.shipped_vials, "{}: manifest vials", r.variant);
+        let sites: std::collections::BTreeSet<&str> = manifest
+            .rows
+            .iter()
+            .map(|(_, s)| s.site_id.as_str())
+            .collect();
+        assert_eq!(
+            sites.len() as u64,
+            r.sites_served,
+            "{}: manifest sites",
+            r.variant
+        );
+        let alive: f64 = manifest
+            .rows
+            .iter()
+            .map(|(_, s)| s.wasps_expected_alive)
+            .sum();
+        let slack = 0.05 * (manifest.rows.len() as f64 + 1.0);
+        assert!(
+            (alive - r.wasps_expected_alive).abs() <= slack,
+            "{}",
+            r.variant
+        );
+    }
+    for w in rows.windows(2) {
+        assert!(
+            w[0].supply_vials < w[1].supply_vials,
+            "supply rises with the multiplier"
+        );
+        // More supply never lowers the LP optimum (its supply rows are ≤ rows).
+        assert!(
+            w[0].lp_bound <= w[1].lp_bound + 1e-3,
+            "{} > {}",
+            w[0].variant,
+            w[1].variant
+        );
+    }
+    // The fixture's week runs short of supply at a quarter and has more than it can use at 4×.
+    assert_eq!(rows[0].shipped_vials, rows[0].supply_vials);
+    assert!(rows[4].shipped_vials < rows[4].supply_vials);
+}
