@@ -3,13 +3,16 @@
 //! route's load list in reverse stop order (the last stop's vials go in first). Ids, times and
 //! counts only: no address (the route sheets carry those). Same page size as every HTML output
 //! ([`super::PAGE_SIZE`]).
+//!
+//! The body is a `maud` template: every value spliced into it is HTML-escaped. The page head is
+//! the shared one (`super::week_page_head`).
 
 use std::collections::{BTreeMap, BTreeSet};
-use std::fmt::Write;
 
 use chrono::NaiveDate;
+use maud::{Markup, html};
 
-use super::{Delivered, ManifestRow, OutputError, PlanView, esc, hhmm};
+use super::{Delivered, ManifestRow, OutputError, PlanView, hhmm};
 use crate::arcs::Mode;
 use crate::scenario::FacilityIdx;
 
@@ -42,140 +45,156 @@ fn day(d: NaiveDate) -> String {
 /// Renders one page per (dispatch day, facility) that sends anything. O(n log n) in rows.
 pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut h = super::week_page_head(sc, "Day sheets", false, CSS);
     let mut days: BTreeMap<(NaiveDate, FacilityIdx), Vec<&ManifestRow>> = BTreeMap::new();
     for r in &plan.rows {
         days.entry((r.dispatch_date, r.facility))
             .or_default()
             .push(r);
     }
+    let mut h = super::week_page_head(sc, "Day sheets", false, CSS);
     if days.is_empty() {
-        h.push_str("<section class=\"day\"><h1>Nothing to load this week</h1></section>\n");
+        let empty = html! {
+            section.day { h1 { "Nothing to load this week" } } "\n"
+        };
+        h.push_str(&empty.into_string());
     }
     for ((date, facility), rows) in &days {
-        page(&mut h, view, *date, *facility, rows)?;
+        h.push_str(&page(view, *date, *facility, rows)?.into_string());
     }
     h.push_str("</body>\n</html>\n");
     Ok(h.into_bytes())
 }
 
+/// Vials per pack day of the rows `sel` picks, and their total.
+fn by_pack(
+    rows: &[&ManifestRow],
+    sel: impl Fn(&ManifestRow) -> bool,
+) -> (BTreeMap<NaiveDate, u64>, u64) {
+    let mut m = BTreeMap::new();
+    let mut t = 0;
+    for r in rows.iter().filter(|r| sel(r)) {
+        *m.entry(r.pack_date).or_insert(0) += u64::from(r.vials);
+        t += u64::from(r.vials);
+    }
+    (m, t)
+}
+
+/// The vials-by-pack-day cells of one row of "What to load", then its total.
+fn cells(packs: &BTreeSet<NaiveDate>, (m, t): (BTreeMap<NaiveDate, u64>, u64)) -> Markup {
+    html! {
+        @for p in packs {
+            @match m.get(p) {
+                Some(v) => { td.num { (v) } }
+                None => { td.num { "–" } }
+            }
+        }
+        td.num { (t) }
+    }
+}
+
 fn page(
-    h: &mut String,
     view: &PlanView,
     date: NaiveDate,
     facility: FacilityIdx,
     rows: &[&ManifestRow],
-) -> Result<(), OutputError> {
+) -> Result<Markup, OutputError> {
     let sc = view.scenario;
     let f = sc.facilities.get(facility).ok_or_else(|| {
         OutputError::Inconsistent(format!("facility index {facility} is out of range"))
     })?;
     let packs: BTreeSet<NaiveDate> = rows.iter().map(|r| r.pack_date).collect();
     let vials: u64 = rows.iter().map(|r| u64::from(r.vials)).sum();
-    let _ = write!(
-        h,
-        "<section class=\"day\">\n<h1>Day sheet — {} ({}) — {}</h1>\n<p class=\"sub\">{} vials in {} shipments. Load from the oldest pack day first; keep vials shaded and cool.</p>\n",
-        esc(&f.name),
-        esc(f.id.as_str()),
-        day(date),
-        vials,
-        rows.len()
-    );
-    // What goes on each vehicle, vials by pack day.
-    h.push_str("<h2>What to load</h2>\n<table><thead><tr><th>Route</th><th>Vehicle</th><th>Leave</th><th>Back</th><th class=\"num\">Stops</th>");
-    for p in &packs {
-        let _ = write!(h, "<th class=\"num\">Packed {}</th>", p.format("%a %m-%d"));
-    }
-    h.push_str("<th class=\"num\">Vials</th><th>Loaded</th></tr></thead><tbody>\n");
     let routes: Vec<&crate::dispatch::Route> = view
         .dispatch
         .routes
         .iter()
         .filter(|r| r.depot == facility && r.date == date)
         .collect();
-    let by_pack = |sel: &dyn Fn(&ManifestRow) -> bool| -> (BTreeMap<NaiveDate, u64>, u64) {
-        let mut m = BTreeMap::new();
-        let mut t = 0;
-        for r in rows.iter().filter(|r| sel(r)) {
-            *m.entry(r.pack_date).or_insert(0) += u64::from(r.vials);
-            t += u64::from(r.vials);
-        }
-        (m, t)
-    };
-    let cells = |h: &mut String, m: &BTreeMap<NaiveDate, u64>, t: u64| {
-        for p in &packs {
-            match m.get(p) {
-                Some(v) => {
-                    let _ = write!(h, "<td class=\"num\">{v}</td>");
-                }
-                None => h.push_str("<td class=\"num\">–</td>"),
-            }
-        }
-        let _ = write!(h, "<td class=\"num\">{t}</td>");
-    };
-    for r in &routes {
-        let (_, vehicle) = super::route_depot_vehicle(sc, r)?;
-        let _ = write!(
-            h,
-            "<tr><td class=\"mono\">{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"num\">{}</td>",
-            esc(&r.id),
-            esc(vehicle.id.as_str()),
-            hhmm(r.depart),
-            hhmm(r.return_at),
-            r.stops.len()
-        );
-        let (m, t) = by_pack(&|x: &ManifestRow| x.route_id.as_deref() == Some(r.id.as_str()));
-        cells(h, &m, t);
-        h.push_str("<td class=\"tick\"><span class=\"box\"></span></td></tr>\n");
-    }
     let parcels = rows.iter().filter(|r| r.mode == Mode::Parcel).count();
-    if parcels > 0 {
-        let _ = write!(
-            h,
-            "<tr><td>Parcels</td><td>carrier</td><td colspan=\"2\">see labels.html</td><td class=\"num\">{parcels}</td>"
-        );
-        let (m, t) = by_pack(&|x: &ManifestRow| x.mode == Mode::Parcel);
-        cells(h, &m, t);
-        h.push_str("<td class=\"tick\"><span class=\"box\"></span></td></tr>\n");
-    }
-    let _ = write!(
-        h,
-        "<tr class=\"total\"><td colspan=\"4\">Total</td><td class=\"num\">{}</td>",
-        rows.len()
-    );
-    let (m, t) = by_pack(&|_: &ManifestRow| true);
-    cells(h, &m, t);
-    h.push_str("<td></td></tr>\n</tbody></table>\n");
-    // Each route's load list, last stop first.
-    if !routes.is_empty() {
-        h.push_str("<h2>Load lists (last stop first)</h2>\n<div class=\"lists\">\n");
-        for r in &routes {
-            let _ = writeln!(
-                h,
-                "<section><table><thead><tr><th colspan=\"5\" class=\"mono\">{}</th></tr><tr><th>#</th><th>Shipment</th><th>Packed</th><th class=\"num\">Vials</th><th>✓</th></tr></thead><tbody>",
-                esc(&r.id)
-            );
-            let mut list: Vec<&&ManifestRow> = rows
-                .iter()
-                .filter(|x| x.route_id.as_deref() == Some(r.id.as_str()))
-                .collect();
-            list.sort_by_key(|x| std::cmp::Reverse(x.stop_seq));
-            for x in list {
-                let _ = writeln!(
-                    h,
-                    "<tr><td class=\"num\">{}</td><td class=\"mono\">{}</td><td>{}</td><td class=\"num\">{}</td><td class=\"tick\"><span class=\"box\"></span></td></tr>",
-                    x.stop_seq.unwrap_or(0),
-                    esc(&x.shipment_id),
-                    x.pack_date.format("%a %m-%d"),
-                    x.vials
-                );
+    let tick = html! { td.tick { span.box {} } };
+    Ok(html! {
+        section.day {
+            "\n"
+            h1 { "Day sheet — " (f.name) " (" (f.id.as_str()) ") — " (day(date)) } "\n"
+            p.sub { (vials) " vials in " (rows.len()) " shipments. Load from the oldest pack day first; keep vials shaded and cool." } "\n"
+            // What goes on each vehicle, vials by pack day.
+            h2 { "What to load" } "\n"
+            table {
+                thead {
+                    tr {
+                        th { "Route" } th { "Vehicle" } th { "Leave" } th { "Back" } th.num { "Stops" }
+                        @for p in &packs { th.num { "Packed " (p.format("%a %m-%d")) } }
+                        th.num { "Vials" } th { "Loaded" }
+                    }
+                }
+                tbody {
+                    "\n"
+                    @for r in &routes {
+                        @let (_, vehicle) = super::route_depot_vehicle(sc, r)?;
+                        tr {
+                            td.mono { (r.id) } td { (vehicle.id.as_str()) } td { (hhmm(r.depart)) }
+                            td { (hhmm(r.return_at)) } td.num { (r.stops.len()) }
+                            (cells(&packs, by_pack(rows, |x| x.route_id.as_deref() == Some(r.id.as_str()))))
+                            (tick)
+                        }
+                        "\n"
+                    }
+                    @if parcels > 0 {
+                        tr {
+                            td { "Parcels" } td { "carrier" } td colspan="2" { "see labels.html" }
+                            td.num { (parcels) }
+                            (cells(&packs, by_pack(rows, |x| x.mode == Mode::Parcel)))
+                            (tick)
+                        }
+                        "\n"
+                    }
+                    tr.total {
+                        td colspan="4" { "Total" } td.num { (rows.len()) }
+                        (cells(&packs, by_pack(rows, |_| true)))
+                        td {}
+                    }
+                    "\n"
+                }
             }
-            h.push_str("</tbody></table></section>\n");
+            "\n"
+            // Each route's load list, last stop first.
+            @if !routes.is_empty() {
+                h2 { "Load lists (last stop first)" } "\n"
+                div.lists {
+                    "\n"
+                    @for r in &routes {
+                        @let mut list: Vec<&&ManifestRow> = rows
+                            .iter()
+                            .filter(|x| x.route_id.as_deref() == Some(r.id.as_str()))
+                            .collect();
+                        @let () = list.sort_by_key(|x| std::cmp::Reverse(x.stop_seq));
+                        section {
+                            table {
+                                thead {
+                                    tr { th colspan="5" class="mono" { (r.id) } }
+                                    tr { th { "#" } th { "Shipment" } th { "Packed" } th.num { "Vials" } th { "✓" } }
+                                }
+                                tbody {
+                                    "\n"
+                                    @for x in list {
+                                        tr {
+                                            td.num { (x.stop_seq.unwrap_or(0)) } td.mono { (x.shipment_id) }
+                                            td { (x.pack_date.format("%a %m-%d")) } td.num { (x.vials) }
+                                            (tick)
+                                        }
+                                        "\n"
+                                    }
+                                }
+                            }
+                        }
+                        "\n"
+                    }
+                }
+                "\n"
+            }
         }
-        h.push_str("</div>\n");
-    }
-    h.push_str("</section>\n");
-    Ok(())
+        "\n"
+    })
 }
 
 #[cfg(test)]
@@ -211,6 +230,33 @@ mod tests {
             list.find("S-F1-20270302-B1").unwrap(),
         );
         assert!(s3 < s1);
+    }
+
+    #[test]
+    fn names_are_escaped_by_the_template_and_an_empty_week_says_so() {
+        let mut p = tiny_plan();
+        p.scenario.facilities[0].name = "<b>North</b> & \"co\"".into();
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let h = String::from_utf8(render(&v, &plan).unwrap()).unwrap();
+        assert!(!h.contains("<b>North"), "{h}");
+        assert!(
+            h.contains("Day sheet — &lt;b&gt;North&lt;/b&gt; &amp; &quot;co&quot; (F1)"),
+            "{h}"
+        );
+        let mut empty = tiny_plan();
+        empty.dispatch.routes.clear();
+        empty.dispatch.parcels.clear();
+        empty.allocation.shipments.clear();
+        let v = empty.view();
+        let plan = Delivered::build(&v).unwrap();
+        let h = String::from_utf8(render(&v, &plan).unwrap()).unwrap();
+        assert!(
+            h.contains(
+                "<section class=\"day\"><h1>Nothing to load this week</h1></section>\n</body>"
+            ),
+            "{h}"
+        );
     }
 
     #[test]
