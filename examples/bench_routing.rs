@@ -230,6 +230,16 @@ fn solomon_rows(rows: &mut Vec<Row>, opts: &SolveOptions) -> Result<()> {
     Ok(())
 }
 
+/// The synthetic depot-day's search: seed 1, the VRPTW's default work limits, no time limit.
+fn depot_day_options() -> DispatchOptions {
+    DispatchOptions {
+        seed: 1,
+        time_limit: None,
+        max_iterations: SolveOptions::default().max_iterations,
+        stall_rounds: SolveOptions::default().stall_rounds,
+    }
+}
+
 /// 150 dooryard stops around depot F1 of the fixture, 6 vans of 60 vials, 07:30 + 10 h.
 fn synthetic_depot_day(opts: &DispatchOptions) -> Row {
     let mut s = fixture::tiny();
@@ -320,12 +330,7 @@ fn main() -> Result<()> {
     let mut rows = Vec::new();
     // `-- depot-day`: only the synthetic depot-day, printed, nothing written (for profiling).
     if std::env::args().nth(1).as_deref() == Some("depot-day") {
-        let r = synthetic_depot_day(&DispatchOptions {
-            seed: 1,
-            time_limit: None,
-            max_iterations: SolveOptions::default().max_iterations,
-            stall_rounds: SolveOptions::default().stall_rounds,
-        });
+        let r = synthetic_depot_day(&depot_day_options());
         println!("{}: {} in {:.0} ms", r.instance, r.ours, r.ms);
         return Ok(());
     }
@@ -337,13 +342,7 @@ fn main() -> Result<()> {
         ..SolveOptions::default()
     };
     solomon_rows(&mut rows, &vrp)?;
-    let dispatch_opts = DispatchOptions {
-        seed: 1,
-        time_limit: None,
-        max_iterations: vrp.max_iterations,
-        stall_rounds: broodcast::dispatch::vrptw::SolveOptions::default().stall_rounds,
-    };
-    rows.push(synthetic_depot_day(&dispatch_opts));
+    rows.push(synthetic_depot_day(&depot_day_options()));
 
     let mut table = String::from(
         "| instance | optimum / best known | ours | gap % | time ms |\n|---|---:|---:|---:|---:|\n",

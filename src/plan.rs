@@ -106,7 +106,7 @@ pub fn plan_with(
     dispatch_opts.max_iterations = (dispatch_opts.max_iterations / divisor).max(1);
     dispatch_opts.stall_rounds = (dispatch_opts.stall_rounds / divisor).max(1);
     let route = |allocation: &Allocation| {
-        dispatch::dispatch_reporting(
+        dispatch::dispatch_cached(
             &scenario,
             allocation,
             travel,

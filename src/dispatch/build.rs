@@ -100,12 +100,11 @@ pub fn dispatch(
     allocation: &Allocation,
     travel: &(impl TravelTimes + Sync),
 ) -> Dispatch {
-    dispatch_cached(
+    dispatch_with(
         scenario,
         allocation,
         travel,
         &DispatchOptions::from_scenario(scenario),
-        &RouteCache::new(),
     )
 }
 
@@ -129,32 +128,22 @@ pub fn dispatch_with(
     travel: &(impl TravelTimes + Sync),
     opts: &DispatchOptions,
 ) -> Dispatch {
-    dispatch_cached(scenario, allocation, travel, opts, &RouteCache::new())
-}
-
-/// As [`dispatch_with`], taking a depot-day's routes from `cache` when the same depot-day
-/// (same stops, windows, vials, fleet and settings) was routed before, and storing the new
-/// ones. The result is the same as without the cache.
-pub fn dispatch_cached(
-    scenario: &Scenario,
-    allocation: &Allocation,
-    travel: &(impl TravelTimes + Sync),
-    opts: &DispatchOptions,
-    cache: &RouteCache,
-) -> Dispatch {
-    dispatch_reporting(
+    dispatch_cached(
         scenario,
         allocation,
         travel,
         opts,
-        cache,
+        &RouteCache::new(),
         &Progress::default(),
     )
 }
 
-/// As [`dispatch_cached`], reporting to `progress` how many depot-days are routed (at the
-/// start and after each one, from the threads that route them).
-pub fn dispatch_reporting(
+/// As [`dispatch_with`], taking a depot-day's routes from `cache` when the same depot-day
+/// (same stops, windows, vials, fleet and settings) was routed before, and storing the new
+/// ones, and reporting to `progress` how many depot-days are routed (at the start and after
+/// each one, from the threads that route them). The result is the same as without the cache
+/// or a listener.
+pub fn dispatch_cached(
     scenario: &Scenario,
     allocation: &Allocation,
     travel: &(impl TravelTimes + Sync),

@@ -103,6 +103,5 @@ pub mod tsp;
 pub mod vrptw;
 
 pub use build::{
-    DispatchOptions, RouteCache, depot_day_instances, dispatch, dispatch_cached,
-    dispatch_reporting, dispatch_with,
+    DispatchOptions, RouteCache, depot_day_instances, dispatch, dispatch_cached, dispatch_with,
 };

@@ -21,6 +21,7 @@ use broodcast::arcs::{Arc, Mode};
 use broodcast::dispatch::tsp::{TspOptions, best_order, tour_minutes};
 use broodcast::dispatch::vrptw::{Customer, Instance, SolveOptions, VehicleSpec, solve};
 use broodcast::dispatch::{DispatchOptions, RouteCache, dispatch, dispatch_cached, dispatch_with};
+use broodcast::progress::Progress;
 use broodcast::scenario::{Scenario, SiteKind, fixture};
 use broodcast::travel::{Place, TravelModel, TravelTimes};
 use chrono::{Datelike, NaiveDateTime};
@@ -644,14 +645,14 @@ fn cached_depot_days_route_exactly_as_a_new_search() {
         stall_rounds: u32::MAX,
     };
     let cache = RouteCache::new();
-    let first = dispatch_cached(&s, &alloc, &travel, &opts, &cache);
+    let first = dispatch_cached(&s, &alloc, &travel, &opts, &cache, &Progress::default());
     let held = cache.len();
     assert!(
         held >= 2,
         "the fixture routes several depot-days, got {held}"
     );
     // The same allocation again: every depot-day comes from the cache.
-    let again = dispatch_cached(&s, &alloc, &travel, &opts, &cache);
+    let again = dispatch_cached(&s, &alloc, &travel, &opts, &cache, &Progress::default());
     assert_eq!(format!("{first:?}"), format!("{again:?}"));
     assert_eq!(cache.len(), held);
     // One route shipment fewer (and shipment indices shifted): only its depot-day is new,
@@ -663,7 +664,7 @@ fn cached_depot_days_route_exactly_as_a_new_search() {
         .position(|sh| sh.arc.mode == Mode::Route)
         .expect("fixture has route shipments");
     fewer.shipments.remove(drop);
-    let cached = dispatch_cached(&s, &fewer, &travel, &opts, &cache);
+    let cached = dispatch_cached(&s, &fewer, &travel, &opts, &cache, &Progress::default());
     let fresh = dispatch_with(&s, &fewer, &travel, &opts);
     assert_eq!(format!("{cached:?}"), format!("{fresh:?}"));
     assert_eq!(cache.len(), held + 1);

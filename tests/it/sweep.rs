@@ -25,15 +25,20 @@ fn run_sweep(sc: &Scenario, supply: &str, without: &[&str]) -> Sweep {
     sweep::sweep(sc, &spec(supply, without), &PlanOptions::default(), &|| {}).unwrap()
 }
 
-/// As [`run_sweep`] for checks of `lp_bound` alone: no subgradient steps on the whole-vial
+/// Allocation options for checks of `lp_bound` alone: no subgradient steps on the whole-vial
 /// bound and a small rounding budget, neither of which changes the LP.
+fn lp_only() -> broodcast::allocate::AllocOptions {
+    broodcast::allocate::AllocOptions {
+        bound_steps: 0,
+        rounding_budget: 100_000,
+        ..Default::default()
+    }
+}
+
+/// As [`run_sweep`] with [`lp_only`] allocation options.
 fn run_sweep_lp(sc: &Scenario, supply: &str, without: &[&str]) -> Sweep {
     let opts = PlanOptions {
-        alloc: broodcast::allocate::AllocOptions {
-            bound_steps: 0,
-            rounding_budget: 100_000,
-            ..Default::default()
-        },
+        alloc: lp_only(),
         ..PlanOptions::default()
     };
     sweep::sweep(sc, &spec(supply, without), &opts, &|| {}).unwrap()
@@ -140,7 +145,7 @@ fn generated_lp_bound_is_concave_and_non_decreasing_in_supply() {
 /// nothing, so the optimum cannot rise.
 #[test]
 fn removing_a_facility_never_raises_the_full_model_lp_bound() {
-    use broodcast::allocate::{AllocOptions, allocate};
+    use broodcast::allocate::allocate;
     use broodcast::arcs::{ArcOptions, build_arcs_with};
     use broodcast::travel::TravelModel;
     let sc = generated(180, 11);
@@ -154,14 +159,7 @@ fn removing_a_facility_never_raises_the_full_model_lp_bound() {
             },
         );
         let pr = plan::priorities(s, &Default::default());
-        // Only the LP bound is checked: no subgradient steps and a small rounding budget
-        // (neither changes `lp_bound`).
-        let opts = AllocOptions {
-            bound_steps: 0,
-            rounding_budget: 100_000,
-            ..AllocOptions::default()
-        };
-        allocate(s, &pr, &arcs, &opts).unwrap().lp_bound
+        allocate(s, &pr, &arcs, &lp_only()).unwrap().lp_bound
     };
     for m in ["0.5", "1"] {
         let scaled = sweep::scale_supply(&sc, &Multiplier::parse(m).unwrap()).unwrap();
