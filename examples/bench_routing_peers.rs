@@ -2,7 +2,8 @@
 //! broodcast's own result on each, as JSON lines.
 //!
 //! `cargo run --release --example bench_routing_peers -- [--out FILE] [--weeks 0:1,1500:2]
-//! [--busy 1,2] [--solomon C101,R101] [--seeds 1,2] [--day-seeds 1] [--iterations N]`
+//! [--busy 1,2] [--solomon C101,R101] [--seeds 1,2] [--day-seeds 1] [--iterations N]
+//! [--only TEXT] [--replay FILE]`
 //!
 //! Instances: the route depot-days of planned generated weeks (`SITES:SEED`; SITES 0 is the
 //! demo's shape with that seed; mixed fleets from the generator;
@@ -14,7 +15,10 @@
 //! and rounded to an integer *before* any solver sees it (PyVRP and VROOM take integers), so
 //! all solvers solve the same numbers. broodcast runs with its default work limits (no time
 //! limit), one seed per `--seeds` entry (`--day-seeds` for depot-days; default the same),
-//! one thread.
+//! one thread. `--only TEXT` keeps the instances whose name contains TEXT (for profiling one
+//! depot-day); each instance's stops, drive time and seconds go to standard error.
+//! `--replay FILE` solves the instances of an earlier output again (already scaled) instead
+//! of planning weeks, e.g. to profile one slow depot-day without planning its week.
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -113,8 +117,55 @@ fn solomon(path: &Path) -> Instance {
     }
 }
 
+/// An instance as [`record`] wrote it (already scaled).
+fn from_json(v: &serde_json::Value) -> Result<Instance, Box<dyn std::error::Error>> {
+    let num = |x: &serde_json::Value| x.as_f64().ok_or("number expected");
+    let list = |x: &serde_json::Value| x.as_array().cloned().ok_or("list expected");
+    let customers = list(&v["customers"])?
+        .iter()
+        .map(|c| {
+            Ok(Customer {
+                demand_vials: u32::try_from(c["demand"].as_u64().ok_or("demand")?)?,
+                service_minutes: num(&c["service"])?,
+                earliest: num(&c["earliest"])?,
+                latest: num(&c["latest"])?,
+                deadline: num(&c["latest"])?,
+            })
+        })
+        .collect::<Result<_, Box<dyn std::error::Error>>>()?;
+    let vehicles = list(&v["vehicles"])?
+        .iter()
+        .map(|c| {
+            Ok(VehicleSpec {
+                capacity_vials: u32::try_from(c["capacity"].as_u64().ok_or("capacity")?)?,
+                start: num(&c["start"])?,
+                latest_return: num(&c["end"])?,
+            })
+        })
+        .collect::<Result<_, Box<dyn std::error::Error>>>()?;
+    let minutes = list(&v["matrix"])?
+        .iter()
+        .map(|row| list(row)?.iter().map(num).collect::<Result<Vec<f64>, _>>())
+        .collect::<Result<_, _>>()?;
+    Ok(Instance {
+        customers,
+        minutes,
+        vehicles,
+    })
+}
+
 fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], iterations: u32) -> String {
-    let inst = scaled(inst);
+    record_scaled(name, kind, &scaled(inst), seeds, iterations)
+}
+
+/// [`record`] of an instance already scaled.
+fn record_scaled(
+    name: &str,
+    kind: &str,
+    inst: &Instance,
+    seeds: &[u64],
+    iterations: u32,
+) -> String {
     let runs: Vec<serde_json::Value> = seeds
         .iter()
         .map(|&seed| {
@@ -128,6 +179,24 @@ fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], iterations: u3
                 },
             );
             let secs = t.elapsed().as_secs_f64();
+            let drive: f64 = sol
+                .routes
+                .iter()
+                .map(|r| {
+                    let mut at = 0;
+                    let mut sum = 0.0;
+                    for &c in &r.customers {
+                        sum += inst.minutes[at][c];
+                        at = c;
+                    }
+                    sum + inst.minutes[at][0]
+                })
+                .sum();
+            eprintln!(
+                "  {name} seed {seed}: {} stops, {} routes, drive {drive:.0}, {secs:.2} s",
+                inst.customers.len(),
+                sol.routes.len()
+            );
             json!({
                 "seed": seed,
                 "seconds": secs,
@@ -170,6 +239,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut seeds = vec![1u64];
     let mut day_seeds: Option<Vec<u64>> = None;
     let mut iterations = SolveOptions::default().max_iterations;
+    let mut only = String::new();
+    let mut replay: Option<PathBuf> = None;
     while let Some(a) = args.next() {
         let v = args.next().ok_or(format!("{a} needs a value"))?;
         match a.as_str() {
@@ -203,12 +274,42 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                 day_seeds = Some(v.split(',').map(str::parse).collect::<Result<_, _>>()?)
             }
             "--iterations" => iterations = v.parse()?,
+            "--only" => only = v,
+            "--replay" => replay = Some(PathBuf::from(v)),
             other => return Err(format!("unknown argument {other}; see the file's doc").into()),
         }
+    }
+    if let Some(path) = replay {
+        let text = std::fs::read_to_string(&path)?;
+        let mut f = std::io::BufWriter::new(std::fs::File::create(&out)?);
+        for line in text.lines() {
+            let v: serde_json::Value = serde_json::from_str(line)?;
+            let name = v["name"].as_str().unwrap_or_default();
+            if !name.contains(&only) {
+                continue;
+            }
+            let kind = v["kind"].as_str().unwrap_or_default();
+            let seeds = if kind == "solomon" {
+                &seeds
+            } else {
+                day_seeds.as_ref().unwrap_or(&seeds)
+            };
+            writeln!(
+                f,
+                "{}",
+                record_scaled(name, kind, &from_json(&v)?, seeds, iterations)
+            )?;
+        }
+        f.flush()?;
+        eprintln!("wrote {}", out.display());
+        return Ok(());
     }
     let mut f = std::io::BufWriter::new(std::fs::File::create(&out)?);
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/solomon");
     for name in &names {
+        if !name.contains(&only) {
+            continue;
+        }
         let inst = solomon(&data.join(format!("{name}.txt")));
         writeln!(f, "{}", record(name, "solomon", &inst, &seeds, iterations))?;
         eprintln!("{name}");
@@ -247,6 +348,9 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                 continue;
             }
             let name = format!("{label} {} {date}", p.scenario.facilities[depot].id.0);
+            if !name.contains(&only) {
+                continue;
+            }
             writeln!(f, "{}", record(&name, kind, &inst, &day_seeds, iterations))?;
         }
         eprintln!("{label}");

@@ -2,7 +2,7 @@
 //! The drive change is priced first from the few edges that change (O(1), O(stretch) for a
 //! reversal); only improving candidates get the O(stretch) time-window check.
 
-use super::segment::EPS;
+use super::segment::{EPS, FEAS_EPS, Seg};
 use super::state::{Move, State};
 
 impl State<'_> {
@@ -27,21 +27,41 @@ impl State<'_> {
         // Penalty of the route as it stands: a candidate whose drive change `delta` is not
         // below it cannot improve, whatever its own penalty (never negative).
         let old_pen = self.route_pen(r);
+        let old_drive = self.route_dist(r);
         // A candidate that differs from `nodes` only inside lo..hi, on r's own vehicle or an
         // unused vehicle of another kind (the route moves to it), when drive plus penalty
         // falls.
+        //
+        // Two lower bounds on any vehicle's time warp let a hopeless candidate go early: the
+        // warp inside the unchanged tail plus the warp of the stretch so far (warp only grows
+        // as customers are appended: every term of `Data::cat`'s warp is non-negative), and
+        // what drive plus service exceed the longest shift by (`Data::least_warp`). The
+        // stretch is abandoned as soon as the weight times either bound outweighs the drive
+        // saved; it rejects only candidates the full check would reject.
         let check = |cand: &[usize], lo: usize, hi: usize, delta: f64| -> Option<Move> {
+            let tail_tw = route.suf[hi].tw;
+            let floor = d.least_warp(old_drive + delta, route.service);
+            let hopeless = |s: &Seg| {
+                let tw = (s.tw + tail_tw).max(floor);
+                tw > FEAS_EPS && delta + self.tw_weight * tw - old_pen >= -EPS
+            };
             let mut s = route.pre[lo];
+            if hopeless(&s) {
+                return None;
+            }
             for &v in &cand[lo..hi] {
                 s = d.cat(&s, &d.node_seg(v));
+                if hopeless(&s) {
+                    return None;
+                }
             }
             let s = d.cat(&s, &route.suf[hi]);
-            let others = if d.fits(r, &s) {
-                Vec::new()
+            let own_late = d.lateness(r, &s);
+            let (w, pen) = if own_late == 0.0 {
+                (r, 0.0)
             } else {
-                self.empty_kinds(&[r])
+                self.choose_late(r, own_late, &s, &self.empty_kinds(&[r]))?
             };
-            let (w, pen) = self.choose(r, &s, &others)?;
             if delta + pen - old_pen >= -EPS {
                 return None;
             }

@@ -17,6 +17,8 @@ pub(super) struct Route {
     /// Time warp of the route on its own vehicle, minutes: 0 when it fits, infinite when the
     /// vehicle cannot drive it at any lateness (load, unusable arc).
     pub(super) late: f64,
+    /// Service minutes of all its customers.
+    pub(super) service: f64,
 }
 
 impl Route {
@@ -53,6 +55,7 @@ impl<'a> State<'a> {
                     pre: Vec::new(),
                     suf: Vec::new(),
                     late: 0.0,
+                    service: 0.0,
                 })
                 .collect(),
             at: vec![None; data.n],
@@ -85,6 +88,11 @@ impl<'a> State<'a> {
             self.at[node] = Some((r, p));
         }
         route.late = d.lateness(r, &route.suf[0]);
+        route.service = route
+            .nodes
+            .iter()
+            .map(|&v| d.customer(v).service_minutes)
+            .sum();
     }
 
     /// Drive minutes of route r.
@@ -130,22 +138,38 @@ impl<'a> State<'a> {
 
     /// The vehicle for a new run `s` replacing route `own`: `own` when it fits, else the first
     /// of `others` that fits, else (finite weight only) whichever of `own` and `others` is
-    /// penalised least. Returns the vehicle and its penalty.
+    /// penalised least (the first of equals). Returns the vehicle and its penalty. One
+    /// [`Data::lateness`] per vehicle tried.
     pub(super) fn choose(&self, own: usize, s: &Seg, others: &[usize]) -> Option<(usize, f64)> {
-        let d = self.data;
-        if d.fits(own, s) {
+        let own_late = self.data.lateness(own, s);
+        if own_late == 0.0 {
             return Some((own, 0.0));
         }
-        if let Some(w) = others.iter().copied().find(|&w| d.fits(w, s)) {
-            return Some((w, 0.0));
+        self.choose_late(own, own_late, s, others)
+    }
+
+    /// [`State::choose`] when `own` is already known to be `own_late` minutes late (> 0).
+    pub(super) fn choose_late(
+        &self,
+        own: usize,
+        own_late: f64,
+        s: &Seg,
+        others: &[usize],
+    ) -> Option<(usize, f64)> {
+        let mut least = self.weigh(own_late).map(|p| (own, p));
+        for &w in others {
+            let late = self.data.lateness(w, s);
+            if late == 0.0 {
+                return Some((w, 0.0));
+            }
+            if let Some(p) = self.weigh(late)
+                && least.is_none_or(|(_, q)| p < q)
+            {
+                least = Some((w, p));
+            }
         }
-        if !self.tw_weight.is_finite() {
-            return None;
-        }
-        std::iter::once(own)
-            .chain(others.iter().copied())
-            .filter_map(|v| self.pen(v, s).map(|p| (v, p)))
-            .min_by(|a, b| a.1.total_cmp(&b.1))
+        // With an infinite weight nothing late is ever chosen.
+        least.filter(|_| self.tw_weight.is_finite())
     }
 
     pub(super) fn used(&self) -> usize {
