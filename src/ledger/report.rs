@@ -4,12 +4,14 @@
 //! carries no area or region column, so facility × site kind stands in for "area" (each
 //! facility serves the sites nearest to it). Only ids, dates and counts appear: no names,
 //! addresses, coordinates or notes.
+//!
+//! `report.html` is a `maud` template: every value spliced into it is HTML-escaped, the bar
+//! charts' labels included.
 
 use std::collections::{BTreeMap, BTreeSet};
-use std::fmt::Write as _;
 
 use chrono::NaiveDate;
-use html_escape::encode_text;
+use maud::{DOCTYPE, Markup, PreEscaped, html};
 
 use super::{Ledger, LedgerError, Status, parse_date};
 
@@ -245,32 +247,25 @@ impl Table {
         w.into_inner().expect("CSV to memory")
     }
 
-    fn html(&self, out: &mut String) {
-        let _ = write!(
-            out,
-            "<section><h2>{}</h2><p class=\"file\">{}</p><table><thead><tr>",
-            encode_text(self.title),
-            encode_text(self.file)
-        );
-        for h in &self.header {
-            let _ = write!(out, "<th>{}</th>", encode_text(h));
-        }
-        out.push_str("</tr></thead><tbody>");
-        if self.rows.is_empty() {
-            let _ = write!(
-                out,
-                "<tr><td colspan=\"{}\">none</td></tr>",
-                self.header.len()
-            );
-        }
-        for r in &self.rows {
-            out.push_str("<tr>");
-            for c in r {
-                let _ = write!(out, "<td>{}</td>", encode_text(c));
+    fn html(&self) -> Markup {
+        html! {
+            section {
+                h2 { (self.title) }
+                p.file { (self.file) }
+                table {
+                    thead { tr { @for h in &self.header { th { (h) } } } }
+                    tbody {
+                        @if self.rows.is_empty() {
+                            tr { td colspan=(self.header.len()) { "none" } }
+                        }
+                        @for r in &self.rows {
+                            tr { @for c in r { td { (c) } } }
+                        }
+                    }
+                }
             }
-            out.push_str("</tr>");
+            "\n"
         }
-        out.push_str("</tbody></table></section>\n");
     }
 }
 
@@ -392,43 +387,51 @@ fn waiting_table(data: &SeasonData) -> Table {
     }
 }
 
-/// A horizontal bar chart (inline SVG): one bar per label, a darker part for `released`.
-fn bar_chart(title: &str, bars: &[(String, u64, u64)]) -> String {
+/// A horizontal bar chart (inline SVG): one bar per label, a darker part for `released`. The
+/// bars are written as text (`<rect/>`, numbers only); every label goes through the template.
+fn bar_chart(title: &str, bars: &[(String, u64, u64)]) -> Markup {
     let max = bars.iter().map(|b| b.1).max().unwrap_or(0).max(1) as f64;
     let (row_h, label_w, bar_w) = (18.0, 150.0, 420.0);
     let h = row_h * bars.len() as f64 + 30.0;
-    let mut s = format!(
-        "<figure><figcaption>{}</figcaption><svg xmlns=\"http://www.w3.org/2000/svg\" \
-         width=\"{:.0}\" height=\"{h:.0}\" role=\"img\">",
-        encode_text(title),
-        label_w + bar_w + 80.0
-    );
-    for (i, (label, total, released)) in bars.iter().enumerate() {
-        let y = i as f64 * row_h + 4.0;
-        let w_all = bar_w * *total as f64 / max;
-        let w_rel = bar_w * *released as f64 / max;
-        let _ = write!(
-            s,
-            "<text x=\"{:.0}\" y=\"{:.1}\" text-anchor=\"end\" font-size=\"11\">{}</text>\
-             <rect x=\"{label_w:.0}\" y=\"{y:.1}\" width=\"{w_all:.1}\" height=\"{:.0}\" fill=\"#b9cbe0\"/>\
-             <rect x=\"{label_w:.0}\" y=\"{y:.1}\" width=\"{w_rel:.1}\" height=\"{:.0}\" fill=\"#2f5f8f\"/>\
-             <text x=\"{:.1}\" y=\"{:.1}\" font-size=\"11\">{total}</text>",
-            label_w - 6.0,
-            y + 12.0,
-            encode_text(label),
-            row_h - 4.0,
-            row_h - 4.0,
-            label_w + w_all + 4.0,
-            y + 12.0,
-        );
+    html! {
+        figure {
+            figcaption { (title) }
+            svg xmlns="http://www.w3.org/2000/svg" width=(format!("{:.0}", label_w + bar_w + 80.0))
+                height=(format!("{h:.0}")) role="img" {
+                @for (i, (label, total, released)) in bars.iter().enumerate() {
+                    @let y = i as f64 * row_h + 4.0;
+                    @let w_all = bar_w * *total as f64 / max;
+                    @let w_rel = bar_w * *released as f64 / max;
+                    text x=(format!("{:.0}", label_w - 6.0)) y=(format!("{:.1}", y + 12.0))
+                        text-anchor="end" font-size="11" { (label) }
+                    (PreEscaped(format!(
+                        "<rect x=\"{label_w:.0}\" y=\"{y:.1}\" width=\"{w_all:.1}\" height=\"{:.0}\" fill=\"#b9cbe0\"/>\
+                         <rect x=\"{label_w:.0}\" y=\"{y:.1}\" width=\"{w_rel:.1}\" height=\"{:.0}\" fill=\"#2f5f8f\"/>",
+                        row_h - 4.0,
+                        row_h - 4.0,
+                    )))
+                    text x=(format!("{:.1}", label_w + w_all + 4.0)) y=(format!("{:.1}", y + 12.0))
+                        font-size="11" { (total) }
+                }
+                text x=(format!("{label_w:.0}")) y=(format!("{:.0}", h - 6.0)) font-size="10" {
+                    "vials: dark = released, light = all committed"
+                }
+            }
+        }
     }
-    let _ = write!(
-        s,
-        "<text x=\"{label_w:.0}\" y=\"{:.0}\" font-size=\"10\">vials: dark = released, light = all committed</text></svg></figure>",
-        h - 6.0
-    );
-    s
 }
+
+/// The report page's own style, after the shared page rules.
+const CSS: &str = "body{font-family:\"DejaVu Sans\",\"Liberation Sans\",Arial,sans-serif;font-size:9.5pt;margin:1.5em;color:#222}\
+         h1{font-size:15pt} h2{font-size:11pt;break-after:avoid}\
+         table{border-collapse:collapse;margin:.5em 0 1.5em;font-size:8.5pt}\
+         thead{display:table-header-group} tr{break-inside:avoid}\
+         th,td{border:1px solid #bbb;padding:2px 6px;text-align:right}\
+         th:first-child,td:first-child{text-align:left}\
+         .file{color:#666;font-size:8pt;margin:0}\
+         figure{margin:1em 0;break-inside:avoid} figcaption{font-weight:bold}\
+         svg{max-width:100%;height:auto}\
+         section{break-inside:avoid} @media print{body{margin:0}}";
 
 /// Renders the season report: `weeks.csv`, `facilities.csv`, `site_kinds.csv`,
 /// `facility_site_kinds.csv`, `blocks.csv`, `requests_waiting.csv` and `report.html`, as
@@ -487,59 +490,43 @@ pub fn render_report(data: &SeasonData) -> Vec<(String, Vec<u8>)> {
     let season = data
         .season
         .map_or_else(|| "all weeks".to_string(), |y| format!("season {y}"));
-    let mut html = String::new();
-    let _ = write!(
-        html,
-        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">\
-         <title>Season report — {s}</title><style>{page}\
-         body{{font-family:\"DejaVu Sans\",\"Liberation Sans\",Arial,sans-serif;font-size:9.5pt;margin:1.5em;color:#222}}\
-         h1{{font-size:15pt}} h2{{font-size:11pt;break-after:avoid}}\
-         table{{border-collapse:collapse;margin:.5em 0 1.5em;font-size:8.5pt}}\
-         thead{{display:table-header-group}} tr{{break-inside:avoid}}\
-         th,td{{border:1px solid #bbb;padding:2px 6px;text-align:right}}\
-         th:first-child,td:first-child{{text-align:left}}\
-         .file{{color:#666;font-size:8pt;margin:0}}\
-         figure{{margin:1em 0;break-inside:avoid}} figcaption{{font-weight:bold}}\
-         svg{{max-width:100%;height:auto}}\
-         section{{break-inside:avoid}} @media print{{body{{margin:0}}}}\
-         </style></head><body><h1>Season report — {s}</h1>",
-        s = encode_text(&season),
-        page = crate::output::PAGE_CSS,
-    );
     let first = data.weeks.first().map_or("–".into(), NaiveDate::to_string);
     let last = data.weeks.last().map_or("–".into(), NaiveDate::to_string);
-    let _ = write!(
-        html,
-        "<p>{} committed week(s), {} – {}: {} shipments, {} vials, {} released \
-         ({} not released, {} dead on arrival, {} without outcome yet).</p>",
-        data.weeks.len(),
-        encode_text(&first),
-        encode_text(&last),
-        all.shipments,
-        all.vials,
-        all.vials_released,
-        all.by_status[Status::NotReleased as usize],
-        all.by_status[Status::DeadOnArrival as usize],
-        all.by_status[Status::Scheduled as usize],
-    );
-    html.push_str(&bar_chart("Vials per week", &bars(&tables[0])));
-    html.push_str(&bar_chart("Vials per facility", &bars(&tables[1])));
-    html.push_str(&bar_chart(
-        "Vials per facility and site kind",
-        &bars(&tables[3]),
-    ));
-    for t in &tables {
-        t.html(&mut html);
-    }
-    html.push_str(
-        "<p>Decision support only: follow the release permits and rules of your jurisdiction; \
-         local extension and licensed pest-control practice decide.</p></body></html>\n",
-    );
+    let page = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                title { "Season report — " (season) }
+                // Constant style sheets: raw text, not markup to escape.
+                style { (PreEscaped(crate::output::PAGE_CSS)) (PreEscaped(CSS)) }
+            }
+            body {
+                h1 { "Season report — " (season) }
+                p {
+                    (data.weeks.len()) " committed week(s), " (first) " – " (last) ": "
+                    (all.shipments) " shipments, " (all.vials) " vials, " (all.vials_released) " released ("
+                    (all.by_status[Status::NotReleased as usize]) " not released, "
+                    (all.by_status[Status::DeadOnArrival as usize]) " dead on arrival, "
+                    (all.by_status[Status::Scheduled as usize]) " without outcome yet)."
+                }
+                (bar_chart("Vials per week", &bars(&tables[0])))
+                (bar_chart("Vials per facility", &bars(&tables[1])))
+                (bar_chart("Vials per facility and site kind", &bars(&tables[3])))
+                @for t in &tables { (t.html()) }
+                p {
+                    "Decision support only: follow the release permits and rules of your jurisdiction; \
+                     local extension and licensed pest-control practice decide."
+                }
+            }
+        }
+        "\n"
+    };
     let mut files: Vec<(String, Vec<u8>)> = tables
         .iter()
         .map(|t| (t.file.to_string(), t.csv()))
         .collect();
-    files.push(("report.html".to_string(), html.into_bytes()));
+    files.push(("report.html".to_string(), page.into_string().into_bytes()));
     files
 }
 
@@ -560,6 +547,37 @@ mod tests {
             wasps_expected_alive: f64::from(vials) * 400.0,
             status,
             release_date: w,
+        }
+    }
+
+    /// Markup, ampersands and quotes in a facility id and a site id (the ledger takes them
+    /// from a plan folder's manifest) reach the tables and the charts as text.
+    #[test]
+    fn ids_are_escaped_by_the_template() {
+        let hostile = "<script>alert(\"x\")</script> & 'co'";
+        let escaped = "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; 'co'";
+        let mut s = ship("2027-03-01", hostile, "block", 4, Status::Released);
+        s.facility_id = hostile.into();
+        let data = SeasonData {
+            season: Some(2027),
+            weeks: vec![s.week_start],
+            shipments: vec![s],
+            candidates: Vec::new(),
+        };
+        let files: BTreeMap<String, String> = render_report(&data)
+            .into_iter()
+            .map(|(n, b)| (n, String::from_utf8(b).expect("utf8")))
+            .collect();
+        let html = &files["report.html"];
+        assert!(!html.contains("<script>"), "{html}");
+        for want in [
+            // By facility, and the chart's bar label.
+            format!("<tr><td>{escaped}</td><td>1</td>"),
+            format!("font-size=\"11\">{escaped}</text>"),
+            // Releases per block.
+            format!("<tr><td>{escaped}</td><td>1</td><td>0</td><td>4</td>"),
+        ] {
+            assert!(html.contains(&want), "{want}");
         }
     }
 

@@ -10,11 +10,16 @@
 //! their first rows and say where the rest are.
 //!
 //! No homeowner personal data: requests appear by id and position only, never by address.
+//!
+//! The page is a `maud` template: every value spliced into it is HTML-escaped. The map and the
+//! supply chart are SVG written by hand (their facility ids escaped with [`super::esc`]) and
+//! enter the template as they are.
 
 use std::collections::BTreeMap;
 use std::fmt::Write;
 
 use chrono::NaiveDate;
+use maud::{DOCTYPE, Markup, PreEscaped, html};
 
 use super::binding::{self, Kind};
 use super::svg::{Frame, f1};
@@ -233,17 +238,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
     let sc = view.scenario;
     let al = view.allocation;
     let week = Week::build(view, plan);
-    let mut h = String::new();
-    let _ = writeln!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Plan report — {name}</title>\n<style>{PAGE_CSS}{CSS}</style>\n</head>\n<body>\n\
-<h1>Plan report: {name}</h1>\n<p class=\"muted\">Agent {agent} · {n_sites} candidate sites · {n_fac}</p>",
-        name = esc(&super::week_title(&sc.name, sc.week_start)),
-        agent = esc(&sc.agent.name),
-        n_sites = int(sc.sites.len() as u64),
-        n_fac = count(sc.facilities.len(), "facility", "facilities"),
-    );
-
+    let name = super::week_title(&sc.name, sc.week_start);
     let pct = |a: u64, b: u64| {
         if b > 0 {
             fixed(100.0 * a as f64 / b as f64, 0)
@@ -257,44 +252,26 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         .sum::<usize>()
         + week.served();
     let ineligible = sc.sites.len() - eligible - week.unserved_with("low-priority");
-    let _ = writeln!(
-        h,
-        "<div class=\"headline\"><p class=\"main\">{main}</p>\
-<p>{shipped} of {supply} vials shipped ({p} %) to {served}: {b} and {r}; about {wasps} live wasps released.</p>\
-<p>{elig} could get a release this week; {inel} could not (no host plant, insecticide, no flush, overrides) and {zero} have no pest pressure nearby.</p>\
-<p class=\"small muted\">{quality}</p></div>",
-        main = esc(&week.main_reason(view)),
-        shipped = int(week.shipped),
-        supply = int(week.supply),
-        p = pct(week.shipped, week.supply),
-        served = count(week.served(), "site", "sites"),
-        b = count(week.blocks.0, "grove block", "grove blocks"),
-        r = count(week.requests.0, "dooryard request", "dooryard requests"),
-        wasps = int(plan.wasps_expected_alive().round().max(0.0) as u64),
-        elig = count(eligible, "site", "sites"),
-        inel = int(ineligible as u64),
-        zero = int(week.unserved_with("low-priority") as u64),
-        quality = esc(&format!(
-            "Plan value {} (priority-weighted live wasps); no plan in whole vials can exceed {}, so this one is within {} % of the best. {}, {}{}.",
-            int(al.objective.round().max(0.0) as u64),
-            int(al.bound.round().max(0.0) as u64),
-            fixed(100.0 * al.gap, 2),
-            capitalise(&count(view.dispatch.routes.len(), "route", "routes")),
-            count(view.dispatch.parcels.len(), "parcel", "parcels"),
-            match view.dispatch.undeliverable.len() {
-                0 => String::new(),
-                n => format!(
-                    ", {} allocated but undeliverable",
-                    count(n, "shipment", "shipments")
-                ),
-            }
-        )),
+    let wasps = int(plan.wasps_expected_alive().round().max(0.0) as u64);
+    let quality = format!(
+        "Plan value {} (priority-weighted live wasps); no plan in whole vials can exceed {}, so this one is within {} % of the best. {}, {}{}.",
+        int(al.objective.round().max(0.0) as u64),
+        int(al.bound.round().max(0.0) as u64),
+        fixed(100.0 * al.gap, 2),
+        capitalise(&count(view.dispatch.routes.len(), "route", "routes")),
+        count(view.dispatch.parcels.len(), "parcel", "parcels"),
+        match view.dispatch.undeliverable.len() {
+            0 => String::new(),
+            n => format!(
+                ", {} allocated but undeliverable",
+                count(n, "shipment", "shipments")
+            ),
+        }
     );
-    h.push_str("<div class=\"figures\">");
-    for (n, l) in [
+    let figures = [
         (
             format!("{} / {}", int(week.shipped), int(week.supply)),
-            "vials shipped of supply".to_string(),
+            "vials shipped of supply",
         ),
         (
             format!(
@@ -302,7 +279,7 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
                 int(week.blocks.0 as u64),
                 int(week.blocks.1 as u64)
             ),
-            "grove blocks served of candidates".to_string(),
+            "grove blocks served of candidates",
         ),
         (
             format!(
@@ -310,76 +287,110 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
                 int(week.requests.0 as u64),
                 int(week.requests.1 as u64)
             ),
-            "dooryard requests served of candidates".to_string(),
+            "dooryard requests served of candidates",
         ),
-        (
-            int(plan.wasps_expected_alive().round().max(0.0) as u64),
-            "expected live wasps released".to_string(),
-        ),
-    ] {
-        let _ = write!(
-            h,
-            "<div class=\"fig\"><div class=\"n\">{}</div><div class=\"l\">{}</div></div>",
-            esc(&n),
-            esc(&l)
-        );
-    }
-    h.push_str("</div>\n");
-
-    h.push_str("<section><h2>Map</h2>\n");
-    h.push_str(&overview_map(view, plan));
-    h.push_str("</section>\n");
-
-    h.push_str("<section><h2>Supply used per facility and pack day</h2>\n");
-    h.push_str(&supply_chart(view, plan));
-    h.push_str("</section>\n");
-
-    priority_bands(&mut h, view, plan);
-    against_hand(&mut h, view, plan);
-    why_not(&mut h, view, &week);
-    worth_a_look(&mut h, view, &week);
-    marginal_values(&mut h, view, plan);
-    limits(&mut h, view, &week);
-
+        (wasps.clone(), "expected live wasps released"),
+    ];
     let notes: Vec<String> = view.notes().cloned().collect();
-    for (title, lines, rest) in [
+    let lists = [
         ("Notes", &notes[..], "summary.json `notes`"),
         (
             "Moved by route feedback",
             view.moved,
             "summary.json `moved`",
         ),
-    ] {
-        if lines.is_empty() {
-            continue;
+    ];
+    let page = html! {
+        (DOCTYPE) "\n"
+        html lang="en" {
+            "\n"
+            head {
+                "\n" meta charset="utf-8"; "\n"
+                title { "Plan report — " (name) } "\n"
+                // Constant style sheets: raw text, not markup to escape.
+                style { (PreEscaped(PAGE_CSS)) (PreEscaped(CSS)) } "\n"
+            }
+            "\n"
+            body {
+                "\n"
+                h1 { "Plan report: " (name) } "\n"
+                p.muted {
+                    "Agent " (sc.agent.name) " · " (int(sc.sites.len() as u64)) " candidate sites · "
+                    (count(sc.facilities.len(), "facility", "facilities"))
+                }
+                "\n"
+                div.headline {
+                    p.main { (week.main_reason(view)) }
+                    p {
+                        (int(week.shipped)) " of " (int(week.supply)) " vials shipped ("
+                        (pct(week.shipped, week.supply)) " %) to " (count(week.served(), "site", "sites")) ": "
+                        (count(week.blocks.0, "grove block", "grove blocks")) " and "
+                        (count(week.requests.0, "dooryard request", "dooryard requests"))
+                        "; about " (wasps) " live wasps released."
+                    }
+                    p {
+                        (count(eligible, "site", "sites")) " could get a release this week; "
+                        (int(ineligible as u64))
+                        " could not (no host plant, insecticide, no flush, overrides) and "
+                        (int(week.unserved_with("low-priority") as u64)) " have no pest pressure nearby."
+                    }
+                    p class="small muted" { (quality) }
+                }
+                "\n"
+                div.figures {
+                    @for (n, l) in &figures { div.fig { div.n { (n) } div.l { (l) } } }
+                }
+                "\n"
+                section { h2 { "Map" } "\n" (overview_map(view, plan)) }
+                "\n"
+                section {
+                    h2 { "Supply used per facility and pack day" } "\n"
+                    // Hand-written SVG; its facility ids are escaped with `esc`.
+                    (PreEscaped(supply_chart(view, plan)))
+                }
+                "\n"
+                (priority_bands(view, plan))
+                (against_hand(view, plan))
+                (why_not(view, &week))
+                (worth_a_look(view, &week))
+                (marginal_values(view, plan))
+                (limits(view, &week))
+                @for (title, lines, rest) in lists {
+                    @if !lines.is_empty() {
+                        section {
+                            h2 { (title) }
+                            ul.small {
+                                @for l in lines.iter().take(LIST_ROWS) { li { (l) } }
+                                @if lines.len() > LIST_ROWS {
+                                    li.muted {
+                                        "… and " (int((lines.len() - LIST_ROWS) as u64)) " more in " (rest) "."
+                                    }
+                                }
+                            }
+                        }
+                        "\n"
+                    }
+                }
+                section {
+                    h2 { "Cautions" }
+                    ul.small { @for c in CAUTIONS { li { (c) } } }
+                }
+                "\n"
+            }
+            "\n"
         }
-        let _ = write!(h, "<section><h2>{title}</h2><ul class=\"small\">");
-        for l in lines.iter().take(LIST_ROWS) {
-            let _ = write!(h, "<li>{}</li>", esc(l));
-        }
-        if lines.len() > LIST_ROWS {
-            let _ = write!(
-                h,
-                "<li class=\"muted\">… and {} more in {rest}.</li>",
-                int((lines.len() - LIST_ROWS) as u64)
-            );
-        }
-        h.push_str("</ul></section>\n");
-    }
-
-    h.push_str("<section><h2>Cautions</h2><ul class=\"small\">");
-    for c in CAUTIONS {
-        let _ = write!(h, "<li>{}</li>", esc(c));
-    }
-    h.push_str("</ul></section>\n</body>\n</html>\n");
-    Ok(h.into_bytes())
+        "\n"
+    };
+    Ok(page.into_string().into_bytes())
 }
 
 /// The map: one marker per site up to [`MAP_MARKERS_MAX`] sites (circle: block, diamond:
 /// request; served filled green, unserved eligible open orange, ineligible open grey), else a
 /// grid of cells coloured by the share of their eligible sites served. Facilities as labelled
 /// squares, scale bar, north arrow; the legend sits under the map, outside the data. O(S + F).
-fn overview_map(view: &PlanView, plan: &Delivered) -> String {
+/// The map and the legend's icons are SVG written by hand (facility ids escaped with `esc`);
+/// the legend's text is escaped by the template.
+fn overview_map(view: &PlanView, plan: &Delivered) -> Markup {
     let sc = view.scenario;
     let (w, hgt) = (700.0, 360.0);
     let mut pts: Vec<_> = sc.sites.iter().map(|s| s.location).collect();
@@ -467,58 +478,58 @@ fn overview_map(view: &PlanView, plan: &Delivered) -> String {
         );
     }
     s.push_str(&frame.furniture());
-    s.push_str("</svg>\n<div class=\"legend\">");
+    s.push_str("</svg>\n");
     let icon = |inner: String| {
         format!("<svg viewBox=\"0 0 14 14\" xmlns=\"http://www.w3.org/2000/svg\">{inner}</svg>")
     };
     let square =
         |fill: &str| format!("<rect x=\"1\" y=\"1\" width=\"12\" height=\"12\" fill=\"{fill}\"/>");
-    let mut items: Vec<(String, String)> = Vec::new();
+    let mut items: Vec<(String, &str)> = Vec::new();
     if gridded {
         items.push((
             icon(square(SERVED)),
-            "half or more of its eligible sites served".into(),
+            "half or more of its eligible sites served",
         ));
-        items.push((icon(square("#a9cf8f")), "some served".into()));
-        items.push((icon(square(UNMET)), "eligible sites, none served".into()));
-        items.push((icon(square("#d6d6d6")), "ineligible sites only".into()));
+        items.push((icon(square("#a9cf8f")), "some served"));
+        items.push((icon(square(UNMET)), "eligible sites, none served"));
+        items.push((icon(square("#d6d6d6")), "ineligible sites only"));
     } else {
         items.push((
             icon(marker(SiteKind::Block, 7.0, 7.0, SERVED, "#fff", 1.0)),
-            "served".into(),
+            "served",
         ));
         items.push((
             icon(marker(SiteKind::Block, 7.0, 7.0, "none", UNMET, 1.8)),
-            "eligible, not served".into(),
+            "eligible, not served",
         ));
         items.push((
             icon(marker(SiteKind::Block, 7.0, 7.0, "none", INELIGIBLE, 1.2)),
-            "ineligible".into(),
+            "ineligible",
         ));
         items.push((
             icon(marker(SiteKind::Block, 7.0, 7.0, "#555", "#fff", 1.0)),
-            "grove block".into(),
+            "grove block",
         ));
         items.push((
             icon(marker(SiteKind::Dooryard, 7.0, 7.0, "#555", "#fff", 1.0)),
-            "dooryard request".into(),
+            "dooryard request",
         ));
     }
-    items.push((icon(square("#000")), "facility".into()));
-    for (i, label) in items {
-        let _ = write!(s, "<span>{i}{}</span>", esc(&label));
+    items.push((icon(square("#000")), "facility"));
+    html! {
+        (PreEscaped(s))
+        div.legend {
+            @for (i, label) in items { span { (PreEscaped(i)) (label) } }
+            @if gridded {
+                span.muted {
+                    (int(sc.sites.len() as u64)) " sites drawn as cells of about "
+                    (fixed(10.0 / frame_px_per_km(&frame), 1)) " km (one marker per site up to "
+                    (int(MAP_MARKERS_MAX as u64)) ")."
+                }
+            }
+        }
+        "\n"
     }
-    if gridded {
-        let _ = write!(
-            s,
-            "<span class=\"muted\">{} sites drawn as cells of about {} km (one marker per site up to {}).</span>",
-            int(sc.sites.len() as u64),
-            fixed(10.0 / frame_px_per_km(&frame), 1),
-            int(MAP_MARKERS_MAX as u64)
-        );
-    }
-    s.push_str("</div>\n");
-    s
 }
 
 /// Pixels per km of a frame, measured between two projected points 1 km apart north–south.
@@ -536,7 +547,7 @@ fn frame_px_per_km(frame: &Frame) -> f64 {
 
 /// Service by priority quartile among eligible sites (those with an arc), highest first.
 /// O(S log S).
-fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
+fn priority_bands(view: &PlanView, plan: &Delivered) -> Markup {
     let mut ranked: Vec<(usize, f64)> = view
         .allocation
         .sites
@@ -545,9 +556,6 @@ fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
         .map(|o| (o.site, priority_of(view, o.site)))
         .collect();
     ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
-    h.push_str("<section><h2>Served and unmet by priority band</h2>\
-<p class=\"small muted\">Sites that could get a release this week, ranked by priority (pest pressure near them) and split into four equal bands.</p>\
-<table><thead><tr><th>Band</th><th class=\"num\">Priority</th><th class=\"num\">Sites</th><th class=\"num\">Served</th><th class=\"num\">Unmet</th><th class=\"num\">Vials</th><th>Share served</th></tr></thead><tbody>");
     let n = ranked.len();
     let names = [
         "Top quarter",
@@ -555,44 +563,63 @@ fn priority_bands(h: &mut String, view: &PlanView, plan: &Delivered) {
         "Third quarter",
         "Bottom quarter",
     ];
-    for (q, name) in names.iter().enumerate() {
-        let band = &ranked[n * q / 4..n * (q + 1) / 4];
-        if band.is_empty() {
-            continue;
+    let bands = names
+        .iter()
+        .enumerate()
+        .map(|(q, name)| (*name, &ranked[n * q / 4..n * (q + 1) / 4]))
+        .filter(|(_, band)| !band.is_empty());
+    html! {
+        section {
+            h2 { "Served and unmet by priority band" }
+            p class="small muted" {
+                "Sites that could get a release this week, ranked by priority (pest pressure near them) and split into four equal bands."
+            }
+            table {
+                thead {
+                    tr {
+                        th { "Band" } th.num { "Priority" } th.num { "Sites" } th.num { "Served" }
+                        th.num { "Unmet" } th.num { "Vials" } th { "Share served" }
+                    }
+                }
+                tbody {
+                    @for (name, band) in bands {
+                        @let served = band.iter().filter(|(i, _)| plan.served(*i)).count();
+                        @let vials: u64 = band
+                            .iter()
+                            .map(|(i, _)| plan.per_site.get(*i).map_or(0, |d| d.vials))
+                            .sum();
+                        @let share = served as f64 / band.len() as f64;
+                        tr {
+                            td { (name) }
+                            td.num { (fixed(band.last().map_or(0.0, |b| b.1), 2)) " – " (fixed(band[0].1, 2)) }
+                            td.num { (int(band.len() as u64)) }
+                            td.num { (int(served as u64)) }
+                            td.num { (int((band.len() - served) as u64)) }
+                            td.num { (int(vials)) }
+                            td.nw {
+                                span.bar style={ "width:" (fixed(30.0 * share, 1)) "mm" } {}
+                                span class="bar unmet" style={ "width:" (fixed(30.0 * (1.0 - share), 1)) "mm" } {}
+                                " " (fixed(100.0 * share, 0)) " %"
+                            }
+                        }
+                    }
+                    @if n == 0 {
+                        tr { td colspan="7" class="muted" { "No site could get a release this week." } }
+                    }
+                }
+            }
         }
-        let served = band.iter().filter(|(i, _)| plan.served(*i)).count();
-        let vials: u64 = band
-            .iter()
-            .map(|(i, _)| plan.per_site.get(*i).map_or(0, |d| d.vials))
-            .sum();
-        let unmet = band.len() - served;
-        let share = served as f64 / band.len() as f64;
-        let _ = write!(
-            h,
-            "<tr><td>{name}</td><td class=\"num\">{} – {}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-<td class=\"nw\"><span class=\"bar\" style=\"width:{}mm\"></span><span class=\"bar unmet\" style=\"width:{}mm\"></span> {} %</td></tr>",
-            fixed(band.last().map_or(0.0, |b| b.1), 2),
-            fixed(band[0].1, 2),
-            int(band.len() as u64),
-            int(served as u64),
-            int(unmet as u64),
-            int(vials),
-            fixed(30.0 * share, 1),
-            fixed(30.0 * (1.0 - share), 1),
-            fixed(100.0 * share, 0)
-        );
+        "\n"
     }
-    if n == 0 {
-        h.push_str("<tr><td colspan=\"7\" class=\"muted\">No site could get a release this week.</td></tr>");
-    }
-    h.push_str("</tbody></table></section>\n");
 }
 
 /// This plan beside the same week planned by hand (`crate::baseline`): value by the same
 /// objective, live wasps in the top priority quarter, vials left at the facilities. Nothing
 /// when the view has no hand plan. O(S log S).
-fn against_hand(h: &mut String, view: &PlanView, plan: &Delivered) {
-    let Some(b) = view.baseline else { return };
+fn against_hand(view: &PlanView, plan: &Delivered) -> Markup {
+    let Some(b) = view.baseline else {
+        return html! {};
+    };
     let al = view.allocation;
     let supply = view.scenario.total_supply_vials();
     let ours_left = supply.saturating_sub(plan.shipped_vials());
@@ -604,10 +631,7 @@ fn against_hand(h: &mut String, view: &PlanView, plan: &Delivered) {
     } else {
         String::new()
     };
-    h.push_str("<section><h2>Against planning by hand</h2>\
-<p class=\"small muted\">The same week, supply, shelf life and vehicles planned the way an office does by hand: requests first come, first served up to the dooryard share, blocks by scouting count, each from the nearest facility on the earliest day (docs/baseline.md).</p>\
-<table><thead><tr><th></th><th class=\"num\">This plan</th><th class=\"num\">By hand</th></tr></thead><tbody>");
-    for (what, ours, hand) in [
+    let rows = [
         (
             "Value (priority-weighted live wasps)",
             signed(al.objective),
@@ -623,69 +647,79 @@ fn against_hand(h: &mut String, view: &PlanView, plan: &Delivered) {
             int(ours_left),
             int(b.unshipped_vials()),
         ),
-    ] {
-        let _ = write!(
-            h,
-            "<tr><td>{what}</td><td class=\"num\">{ours}</td><td class=\"num\">{hand}</td></tr>"
-        );
+    ];
+    html! {
+        section {
+            h2 { "Against planning by hand" }
+            p class="small muted" {
+                "The same week, supply, shelf life and vehicles planned the way an office does by hand: requests first come, first served up to the dooryard share, blocks by scouting count, each from the nearest facility on the earliest day (docs/baseline.md)."
+            }
+            table {
+                thead { tr { th {} th.num { "This plan" } th.num { "By hand" } } }
+                tbody {
+                    @for (what, ours, hand) in &rows {
+                        tr { td { (what) } td.num { (ours) } td.num { (hand) } }
+                    }
+                }
+            }
+            p.small { (more) }
+        }
+        "\n"
     }
-    let _ = writeln!(h, "</tbody></table><p class=\"small\">{more}</p></section>");
 }
 
 /// Counts by reason, in plain words, largest first. O(reasons).
-fn why_not(h: &mut String, view: &PlanView, week: &Week) {
+fn why_not(view: &PlanView, week: &Week) -> Markup {
     let mut rows: Vec<(&str, (usize, usize))> =
         week.reasons.iter().map(|(r, c)| (*r, *c)).collect();
     rows.sort_by(|a, b| (b.1.0 + b.1.1).cmp(&(a.1.0 + a.1.1)).then(a.0.cmp(b.0)));
     let supply_out = week.binds(Kind::Supply) || (week.supply > 0 && week.shipped >= week.supply);
-    h.push_str("<section><h2>Why sites got nothing</h2><table><thead><tr><th>Reason</th><th>Code in allocation.csv</th><th class=\"num\">Blocks</th><th class=\"num\">Requests</th></tr></thead><tbody>");
-    for (r, (b, d)) in &rows {
-        let words = if *r == "below-cutoff" && supply_out {
-            "eligible, but supply ran out: the vials went to higher-value sites"
-        } else {
-            plain_reason(r)
-        };
-        let _ = write!(
-            h,
-            "<tr><td>{}</td><td class=\"nw\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-            esc(words),
-            esc(r),
-            int(*b as u64),
-            int(*d as u64)
-        );
+    html! {
+        section {
+            h2 { "Why sites got nothing" }
+            table {
+                thead {
+                    tr { th { "Reason" } th { "Code in allocation.csv" } th.num { "Blocks" } th.num { "Requests" } }
+                }
+                tbody {
+                    @for (r, (b, d)) in &rows {
+                        @let words = if *r == "below-cutoff" && supply_out {
+                            "eligible, but supply ran out: the vials went to higher-value sites"
+                        } else {
+                            plain_reason(r)
+                        };
+                        tr { td { (words) } td.nw { (r) } td.num { (int(*b as u64)) } td.num { (int(*d as u64)) } }
+                    }
+                    @if rows.is_empty() {
+                        tr { td colspan="4" class="muted" { "Every site was served." } }
+                    }
+                }
+            }
+            p class="small muted" {
+                "Insecticide window: no release within " (view.scenario.policy.insecticide_exclusion_days)
+                " days after an application."
+            }
+        }
+        "\n"
     }
-    if rows.is_empty() {
-        h.push_str("<tr><td colspan=\"4\" class=\"muted\">Every site was served.</td></tr>");
-    }
-    let _ = writeln!(
-        h,
-        "</tbody></table><p class=\"small muted\">Insecticide window: no release within {} days after an application.</p></section>",
-        view.scenario.policy.insecticide_exclusion_days
-    );
 }
 
 /// The highest-priority unserved sites that could have had a release: what serving one would
 /// take (vials from the nearest facility) and what each of those vials earns where it went
 /// instead. O(S + rows · F).
-fn worth_a_look(h: &mut String, view: &PlanView, week: &Week) {
+fn worth_a_look(view: &PlanView, week: &Week) -> Markup {
     let sc = view.scenario;
     let al = view.allocation;
-    h.push_str("<section><h2>Unserved eligible sites worth a look</h2>");
     if week.worth_a_look.is_empty() {
-        h.push_str(
-            "<p class=\"muted\">None: every site that could get a release got one.</p></section>\n",
-        );
-        return;
+        return html! {
+            section {
+                h2 { "Unserved eligible sites worth a look" }
+                p.muted { "None: every site that could get a release got one." }
+            }
+            "\n"
+        };
     }
-    let _ = write!(
-        h,
-        "<p class=\"small muted\">The {} highest-priority of {} such sites (all are in allocation.csv). \
-To serve one, the vials it needs would have to come off a site that now gets them, or be packed in addition: \
-the last column is what each such vial of the nearest facility earns where it went instead (the value of one more vial, below).</p>\
-<table><thead><tr><th>Site</th><th>Kind</th><th class=\"num\">Priority</th><th>Why not</th><th class=\"num\">Would need</th><th>Nearest facility</th><th class=\"num\">Its vial earns now</th></tr></thead><tbody>",
-        week.worth_a_look.len().min(LIST_ROWS),
-        int(week.worth_a_look.len() as u64)
-    );
+    let mut rows = Vec::new();
     for (i, p, r) in week.worth_a_look.iter().take(LIST_ROWS) {
         let site = &sc.sites[*i];
         let nearest = sc
@@ -705,7 +739,7 @@ the last column is what each such vial of the nearest facility earns where it we
                     .clamp(1.0, f64::from(u32::MAX)) as u32,
                 };
                 (
-                    format!("{} ({} km)", esc(fac.id.as_str()), fixed(m / 1000.0, 1)),
+                    format!("{} ({} km)", fac.id.as_str(), fixed(m / 1000.0, 1)),
                     count(need as usize, "vial", "vials"),
                     int(al
                         .marginal_value_per_vial
@@ -723,20 +757,40 @@ the last column is what each such vial of the nearest facility earns where it we
             "out-of-reach" => "no live wasps there in time",
             _ => "no route or parcel could carry it",
         };
-        let _ = write!(
-            h,
-            "<tr><td>{}</td><td>{}</td><td class=\"num\">{}</td><td>{why}</td><td class=\"num\">{need}</td><td class=\"nw\">{fac}</td><td class=\"num\">{last}</td></tr>",
-            esc(site.id.as_str()),
-            site.kind().as_str(),
-            fixed(*p, 2),
-        );
+        rows.push((site, *p, why, need, fac, last));
     }
-    h.push_str("</tbody></table></section>\n");
+    html! {
+        section {
+            h2 { "Unserved eligible sites worth a look" }
+            p class="small muted" {
+                "The " (week.worth_a_look.len().min(LIST_ROWS)) " highest-priority of "
+                (int(week.worth_a_look.len() as u64))
+                " such sites (all are in allocation.csv). To serve one, the vials it needs would have to come off a site that now gets them, or be packed in addition: the last column is what each such vial of the nearest facility earns where it went instead (the value of one more vial, below)."
+            }
+            table {
+                thead {
+                    tr {
+                        th { "Site" } th { "Kind" } th.num { "Priority" } th { "Why not" }
+                        th.num { "Would need" } th { "Nearest facility" } th.num { "Its vial earns now" }
+                    }
+                }
+                tbody {
+                    @for (site, p, why, need, fac, last) in &rows {
+                        tr {
+                            td { (site.id.as_str()) } td { (site.kind().as_str()) } td.num { (fixed(*p, 2)) }
+                            td { (why) } td.num { (need) } td.nw { (fac) } td.num { (last) }
+                        }
+                    }
+                }
+            }
+        }
+        "\n"
+    }
 }
 
 /// Per facility: vials packed and shipped and the value of one more vial, with one sentence
 /// on what that value means and how it relates to the sweep's single figure. O(F + rows).
-fn marginal_values(h: &mut String, view: &PlanView, plan: &Delivered) {
+fn marginal_values(view: &PlanView, plan: &Delivered) -> Markup {
     let sc = view.scenario;
     let al = view.allocation;
     let mut packed = vec![0u64; sc.facilities.len()];
@@ -757,42 +811,53 @@ fn marginal_values(h: &mut String, view: &PlanView, plan: &Delivered) {
         .zip(&al.marginal_value_per_vial)
         .map(|(p, v)| *p as f64 * v)
         .sum();
-    h.push_str("<section><h2>Value of one more vial</h2>\
-<p class=\"small\">One more vial packed at a facility (on its best day) would add this much to the plan's value, in priority-weighted live wasps: what the best site still waiting for a vial from it would gain. \
-0 means the facility had vials to spare; a higher figure means its vials ran out first and an extra vial there is worth more.</p>\
-<table><thead><tr><th>Facility</th><th class=\"num\">Vials packed</th><th class=\"num\">Shipped</th><th class=\"num\">Value of one more vial</th></tr></thead><tbody>");
-    for (f, fac) in sc.facilities.iter().enumerate() {
-        let _ = write!(
-            h,
-            "<tr><td>{} ({})</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-            esc(&fac.name),
-            esc(fac.id.as_str()),
-            int(packed[f]),
-            int(shipped[f]),
-            int(al
-                .marginal_value_per_vial
-                .get(f)
-                .copied()
-                .unwrap_or(0.0)
-                .round()
-                .max(0.0) as u64)
-        );
-    }
-    let _ = writeln!(
-        h,
-        "</tbody></table><p class=\"small muted\"><code>broodcast sweep</code> reports one figure per supply level: these values averaged over facilities, weighted by vials packed ({} for this week).</p></section>",
-        if total > 0 {
-            int((weighted / total as f64).round().max(0.0) as u64)
-        } else {
-            "0".into()
+    let one_more = |f: usize| {
+        int(al
+            .marginal_value_per_vial
+            .get(f)
+            .copied()
+            .unwrap_or(0.0)
+            .round()
+            .max(0.0) as u64)
+    };
+    let average = if total > 0 {
+        int((weighted / total as f64).round().max(0.0) as u64)
+    } else {
+        "0".into()
+    };
+    html! {
+        section {
+            h2 { "Value of one more vial" }
+            p.small {
+                "One more vial packed at a facility (on its best day) would add this much to the plan's value, in priority-weighted live wasps: what the best site still waiting for a vial from it would gain. "
+                "0 means the facility had vials to spare; a higher figure means its vials ran out first and an extra vial there is worth more."
+            }
+            table {
+                thead {
+                    tr { th { "Facility" } th.num { "Vials packed" } th.num { "Shipped" } th.num { "Value of one more vial" } }
+                }
+                tbody {
+                    @for (f, fac) in sc.facilities.iter().enumerate() {
+                        tr {
+                            td { (fac.name) " (" (fac.id.as_str()) ")" }
+                            td.num { (int(packed[f])) } td.num { (int(shipped[f])) } td.num { (one_more(f)) }
+                        }
+                    }
+                }
+            }
+            p class="small muted" {
+                code { "broodcast sweep" }
+                " reports one figure per supply level: these values averaged over facilities, weighted by vials packed ("
+                (average) " for this week)."
+            }
         }
-    );
+        "\n"
+    }
 }
 
 /// The week's binding limits by kind, in plain words. O(B).
-fn limits(h: &mut String, view: &PlanView, week: &Week) {
+fn limits(view: &PlanView, week: &Week) -> Markup {
     let sc = view.scenario;
-    h.push_str("<section><h2>What limits the week</h2><table><thead><tr><th>Limit</th><th>Where it binds</th><th class=\"num\">Value of one more unit</th></tr></thead><tbody>");
     // Duals of `≥` rows (the share floor, forces) are negative: the size is what one more
     // unit of the limit is worth (or costs).
     let range = |v: &[binding::Parsed]| {
@@ -817,22 +882,18 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
         by.into_iter()
             .map(|(f, mut ds)| {
                 ds.sort();
-                format!("{} {}", esc(f), days(&ds))
+                format!("{f} {}", days(&ds))
             })
             .collect::<Vec<_>>()
             .join("; ")
     };
-    let mut any = false;
-    let mut row = |h: &mut String, what: &str, where_: String, value: String| {
-        any = true;
-        let _ = write!(
-            h,
-            "<tr><td>{what}</td><td>{where_}</td><td class=\"num\">{value}</td></tr>"
-        );
+    // (limit, where it binds, value of one more unit)
+    let mut rows: Vec<(&str, String, String)> = Vec::new();
+    let mut row = |what: &'static str, where_: String, value: String| {
+        rows.push((what, where_, value));
     };
     if let Some(v) = week.binding.get(&Kind::Supply) {
         row(
-            h,
             "Supply (vials packed)",
             days_by_facility(v),
             format!("{} per vial", range(v)),
@@ -840,7 +901,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
     }
     if let Some(v) = week.binding.get(&Kind::DooryardShare) {
         row(
-            h,
             "Dooryard share floor",
             format!(
                 "at least {} % of vials must go to dooryard requests",
@@ -851,7 +911,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
     }
     if let Some(v) = week.binding.get(&Kind::Vehicles) {
         row(
-            h,
             "Vehicle capacity",
             days_by_facility(v),
             format!("{} per vial", range(v)),
@@ -861,7 +920,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
         let mut ds: Vec<NaiveDate> = v.iter().filter_map(|b| b.date).collect();
         ds.sort();
         row(
-            h,
             "Parcel cap",
             format!(
                 "{} vials a day on {}",
@@ -873,7 +931,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
     }
     if let Some(v) = week.binding.get(&Kind::RequestVials) {
         row(
-            h,
             "Vials per dooryard request",
             format!(
                 "{} would take more than the standard {} vials",
@@ -885,7 +942,6 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
     }
     if let Some(v) = week.binding.get(&Kind::MaxRelease) {
         row(
-            h,
             "Largest release per site",
             format!(
                 "{} at the maximum of {} live wasps",
@@ -897,22 +953,34 @@ fn limits(h: &mut String, view: &PlanView, week: &Week) {
     }
     if let Some(v) = week.binding.get(&Kind::Force) {
         row(
-            h,
             "Forced releases",
             count(v.len(), "override", "overrides"),
             format!("{} per unit", range(v)),
         );
     }
-    if !any {
-        h.push_str("<tr><td colspan=\"3\" class=\"muted\">Nothing binds: every site got what it could use.</td></tr>");
+    html! {
+        section {
+            h2 { "What limits the week" }
+            table {
+                thead { tr { th { "Limit" } th { "Where it binds" } th.num { "Value of one more unit" } } }
+                tbody {
+                    @for (what, where_, value) in &rows {
+                        tr { td { (what) } td { (where_) } td.num { (value) } }
+                    }
+                    @if rows.is_empty() {
+                        tr { td colspan="3" class="muted" { "Nothing binds: every site got what it could use." } }
+                    }
+                }
+            }
+            p class="small muted" {
+                "Values are objective units (priority-weighted live wasps) gained per unit of the limit, from the allocation's duals. "
+                "The full list of " (int(view.allocation.binding.len() as u64))
+                " binding constraints, with the " (int(week.binding.get(&Kind::SiteValue).map_or(0, Vec::len) as u64))
+                " per-site value rows that bind at every served site, is in binding-constraints.csv."
+            }
+        }
+        "\n"
     }
-    let _ = writeln!(
-        h,
-        "</tbody></table><p class=\"small muted\">Values are objective units (priority-weighted live wasps) gained per unit of the limit, from the allocation's duals. \
-The full list of {} binding constraints, with the {} per-site value rows that bind at every served site, is in binding-constraints.csv.</p></section>",
-        int(view.allocation.binding.len() as u64),
-        int(week.binding.get(&Kind::SiteValue).map_or(0, Vec::len) as u64)
-    );
 }
 
 /// Weekdays, runs of consecutive days joined: `Mon–Fri`, `Tue, Thu`.
@@ -1167,6 +1235,28 @@ mod tests {
             if let Some(r) = s.as_request() {
                 assert!(!h.contains(&r.address), "address {} leaked", r.address);
             }
+        }
+    }
+
+    /// Markup, ampersands and quotes in the scenario's name, the agent's name and a facility
+    /// name reach the report as text.
+    #[test]
+    fn names_are_escaped_by_the_template() {
+        let hostile = "<script>alert(\"x\")</script> & 'co'";
+        let escaped = "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; 'co'";
+        let mut p = tiny_plan();
+        p.scenario.name = hostile.into();
+        p.scenario.agent.name = hostile.into();
+        p.scenario.facilities[0].name = hostile.into();
+        let h = html(&p);
+        assert!(!h.contains("<script>"), "{h}");
+        for want in [
+            format!("<title>Plan report — {escaped} — week of 2027-03-01</title>"),
+            format!("<h1>Plan report: {escaped} — week of 2027-03-01</h1>"),
+            format!("<p class=\"muted\">Agent {escaped} · "),
+            format!("<tr><td>{escaped} (F1)</td>"),
+        ] {
+            assert!(h.contains(&want), "{want}");
         }
     }
 

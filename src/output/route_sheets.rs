@@ -13,11 +13,17 @@
 //!
 //! One of the driver's documents, the only outputs that carry a request's street address
 //! ([`super::carries_addresses`]): a driver needs it to find a dooryard. Blocks are found by
-//! their block id and access point. Every value from the input is HTML-escaped.
+//! their block id and access point.
+//!
+//! The sheets are a `maud` template: every value spliced into them is HTML-escaped, so no
+//! name, address or id can become markup. The page head is the shared one
+//! (`super::week_page_head`); the route map is SVG written by hand (its ids escaped with
+//! [`super::esc`]) and enters the template as it is.
 
 use std::fmt::Write;
 
 use chrono::{NaiveDate, NaiveDateTime};
+use maud::{Markup, PreEscaped, html};
 
 use super::map_layer::{self, LEGEND_H, Occupied};
 use super::svg::{Frame, f1};
@@ -98,29 +104,28 @@ pub(crate) fn render(
     let sc = view.scenario;
     let mut h = super::week_page_head(sc, "Route sheets", redact, CSS);
     if view.dispatch.routes.is_empty() && view.dispatch.parcels.is_empty() {
-        let _ = writeln!(
-            h,
-            "<section class=\"sheet\"><h1>No routes or parcels this week</h1>{}</section>",
-            cautions()
-        );
+        let empty = html! {
+            section.sheet { h1 { "No routes or parcels this week" } (cautions()) } "\n"
+        };
+        h.push_str(&empty.into_string());
     }
     for route in &view.dispatch.routes {
-        sheet(&mut h, sc, plan, route, redact)?;
+        h.push_str(&sheet(sc, plan, route, redact)?.into_string());
     }
     if !view.dispatch.parcels.is_empty() {
-        parcel_page(&mut h, view, redact)?;
+        h.push_str(&parcel_page(view, redact)?.into_string());
     }
     h.push_str("</body>\n</html>\n");
     Ok(h.into_bytes())
 }
 
-fn cautions() -> String {
-    let mut s = String::from("<footer class=\"cautions\"><strong>Cautions</strong><ul>");
-    for c in CAUTIONS {
-        let _ = write!(s, "<li>{}</li>", esc(c));
+fn cautions() -> Markup {
+    html! {
+        footer.cautions {
+            strong { "Cautions" }
+            ul { @for c in CAUTIONS { li { (c) } } }
+        }
     }
-    s.push_str("</ul></footer>");
-    s
 }
 
 /// `Tue 2027-03-02`.
@@ -152,114 +157,109 @@ pub(crate) fn duration(minutes: f64) -> String {
 }
 
 /// The line under a redacted sheet's title.
-fn redaction_note(redact: bool) -> &'static str {
-    if redact {
-        "<p class=\"muted\">Addresses withheld for sharing: dooryard stops are given by request id and coordinates.</p>\n"
-    } else {
-        ""
+fn redaction_note(redact: bool) -> Markup {
+    html! {
+        @if redact {
+            p.muted { "Addresses withheld for sharing: dooryard stops are given by request id and coordinates." } "\n"
+        }
     }
 }
 
 /// A `geo:` URI (RFC 5870, WGS 84, latitude first) as a link reading `lat, lon`: tapped on a
 /// phone it opens the map app at the stop.
-fn geo_link(p: LonLat) -> String {
+fn geo_link(p: LonLat) -> Markup {
     let (lat, lon) = (fixed(p.lat, 6), fixed(p.lon, 6));
-    format!("<a class=\"geo nw\" href=\"geo:{lat},{lon}\">{lat}, {lon}</a>")
+    html! { a class="geo nw" href={ "geo:" (lat) "," (lon) } { (lat) ", " (lon) } }
 }
 
-fn sheet(
-    h: &mut String,
-    sc: &Scenario,
-    plan: &Delivered,
-    r: &Route,
-    redact: bool,
-) -> Result<(), OutputError> {
+fn sheet(sc: &Scenario, plan: &Delivered, r: &Route, redact: bool) -> Result<Markup, OutputError> {
     let (depot, vehicle) = super::route_depot_vehicle(sc, r)?;
     let wasps: f64 = r.stops.iter().map(|s| s.wasps_expected_alive).sum();
-    let _ = write!(
-        h,
-        "<section class=\"sheet\">\n<h1>Route {id}</h1>\n{note}<table class=\"meta\"><tr>\
-<td class=\"k\">Date</td><td class=\"v d\">{date}</td>\
-<td class=\"k\">Vehicle</td><td class=\"v\">{veh}</td>\
-<td class=\"k\">Depot</td><td class=\"v\">{dname} ({did})</td></tr>\n<tr>\
-<td class=\"k\">Leave depot</td><td class=\"v\">{dep}</td>\
-<td class=\"k\">Back at depot</td><td class=\"v\">{ret}</td>\
-<td class=\"k\">Drive time</td><td class=\"v\">{drive}</td></tr>\n<tr>\
-<td class=\"k\">Stops</td><td class=\"v\">{n}</td>\
-<td class=\"k\">Vials on board</td><td class=\"v\">{vials}</td>\
-<td class=\"k\">Expected live wasps</td><td class=\"v\">{wasps}</td></tr></table>\n{cautions}\n",
-        id = esc(&r.id),
-        note = redaction_note(redact),
-        date = day(r.date),
-        veh = esc(vehicle.id.as_str()),
-        dname = esc(&depot.name),
-        did = esc(depot.id.as_str()),
-        dep = time_on(r.depart, r.date),
-        ret = time_on(r.return_at, r.date),
-        drive = duration(r.drive_minutes),
-        n = r.stops.len(),
-        vials = r.vials(),
-        wasps = fixed(wasps, 0),
-        cautions = cautions(),
-    );
-    h.push_str(&route_map(sc, r, depot.location, depot.id.as_str())?);
-    // The route line inside <thead> repeats on every printed page of a long route, so a
-    // loose second page still says which run it belongs to.
-    let _ = writeln!(
-        h,
-        "<table class=\"stops route\"><colgroup><col class=\"c-seq\"><col class=\"c-site\"><col><col class=\"c-arr\"><col class=\"c-vials\"><col class=\"c-by\"><col class=\"c-done\"><col class=\"c-notes\"></colgroup>\
-<thead><tr><th colspan=\"8\" class=\"cont\">Route {} · {} · {} stops</th></tr>\
-<tr><th>#</th><th>Site · shipment</th>\
-<th>How to find it</th><th>Arrive</th><th>Vials</th><th>Release by</th><th>Done</th>\
-<th>Notes</th></tr></thead><tbody>",
-        esc(&r.id),
-        day(r.date),
-        r.stops.len()
-    );
-    for (i, st) in r.stops.iter().enumerate() {
-        let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
-        let geo = geo_link(site.location);
-        let find = match &site.detail {
-            SiteDetail::Dooryard(_) if redact => format!(
-                "Dooryard: <em>{WITHHELD}</em> (request {})<br>{geo}",
-                esc(site.id.as_str()),
-            ),
-            SiteDetail::Dooryard(req) => {
-                format!("Dooryard: {}<br>{geo}", esc(&req.address))
+    // Written by hand as SVG (`<rect/>` and friends), escaped with `esc`; it enters the
+    // template as it is.
+    let map = route_map(sc, r, depot.location, depot.id.as_str())?;
+    Ok(html! {
+        section.sheet {
+            "\n"
+            h1 { "Route " (r.id) } "\n"
+            (redaction_note(redact))
+            table.meta {
+                tr {
+                    td.k { "Date" } td class="v d" { (day(r.date)) }
+                    td.k { "Vehicle" } td.v { (vehicle.id.as_str()) }
+                    td.k { "Depot" } td.v { (depot.name) " (" (depot.id.as_str()) ")" }
+                }
+                "\n"
+                tr {
+                    td.k { "Leave depot" } td.v { (time_on(r.depart, r.date)) }
+                    td.k { "Back at depot" } td.v { (time_on(r.return_at, r.date)) }
+                    td.k { "Drive time" } td.v { (duration(r.drive_minutes)) }
+                }
+                "\n"
+                tr {
+                    td.k { "Stops" } td.v { (r.stops.len()) }
+                    td.k { "Vials on board" } td.v { (r.vials()) }
+                    td.k { "Expected live wasps" } td.v { (fixed(wasps, 0)) }
+                }
             }
-            SiteDetail::Block(b) => format!(
-                "Block {} · {}, {} ha · open {}–{}<br>access point {geo}",
-                esc(site.id.as_str()),
-                esc(&b.crop),
-                fixed(b.area_ha, 1),
-                b.access_start.format("%H:%M"),
-                b.access_end.format("%H:%M"),
-            ),
-        };
-        let shipment = plan.row_of(st.shipment)?;
-        let arrive = if st.service_start > st.arrival {
-            format!(
-                "{}<br><span class=\"muted wait\">release {}</span>",
-                time_on(st.arrival, r.date),
-                time_on(st.service_start, r.date)
-            )
-        } else {
-            time_on(st.arrival, r.date)
-        };
-        let _ = writeln!(
-            h,
-            "<tr><td class=\"seq\">{seq}</td><td>{id}<span class=\"ship\">{ship}</span></td><td class=\"find\">{find}</td>\
-<td class=\"num\">{arrive}</td><td class=\"num\">{vials}</td><td class=\"num\">{by}</td>\
-<td class=\"tick\"><span class=\"box\"></span></td><td class=\"notes\"></td></tr>",
-            seq = i + 1,
-            id = esc(site.id.as_str()),
-            ship = esc(&shipment.shipment_id),
-            vials = st.vials,
-            by = time_on(st.release_by, r.date),
-        );
-    }
-    h.push_str("</tbody></table>\n</section>\n");
-    Ok(())
+            "\n" (cautions()) "\n"
+            (PreEscaped(map))
+            // The route line inside <thead> repeats on every printed page of a long route, so
+            // a loose second page still says which run it belongs to.
+            table class="stops route" {
+                colgroup {
+                    col.c-seq; col.c-site; col; col.c-arr; col.c-vials; col.c-by; col.c-done; col.c-notes;
+                }
+                thead {
+                    tr { th colspan="8" class="cont" { "Route " (r.id) " · " (day(r.date)) " · " (r.stops.len()) " stops" } }
+                    tr {
+                        th { "#" } th { "Site · shipment" } th { "How to find it" } th { "Arrive" }
+                        th { "Vials" } th { "Release by" } th { "Done" } th { "Notes" }
+                    }
+                }
+                tbody {
+                    "\n"
+                    @for (i, st) in r.stops.iter().enumerate() {
+                        @let site = sc.sites.get(st.site).ok_or_else(|| bad_site(st.site))?;
+                        @let shipment = plan.row_of(st.shipment)?;
+                        tr {
+                            td.seq { (i + 1) }
+                            td { (site.id.as_str()) span.ship { (shipment.shipment_id) } }
+                            td.find {
+                                @match &site.detail {
+                                    SiteDetail::Dooryard(_) if redact => {
+                                        "Dooryard: " em { (WITHHELD) } " (request " (site.id.as_str()) ")"
+                                        br; (geo_link(site.location))
+                                    }
+                                    SiteDetail::Dooryard(req) => {
+                                        "Dooryard: " (req.address) br; (geo_link(site.location))
+                                    }
+                                    SiteDetail::Block(b) => {
+                                        "Block " (site.id.as_str()) " · " (b.crop) ", " (fixed(b.area_ha, 1))
+                                        " ha · open " (b.access_start.format("%H:%M")) "–" (b.access_end.format("%H:%M"))
+                                        br; "access point " (geo_link(site.location))
+                                    }
+                                }
+                            }
+                            td.num {
+                                (time_on(st.arrival, r.date))
+                                @if st.service_start > st.arrival {
+                                    br; span class="muted wait" { "release " (time_on(st.service_start, r.date)) }
+                                }
+                            }
+                            td.num { (st.vials) }
+                            td.num { (time_on(st.release_by, r.date)) }
+                            td.tick { span.box {} }
+                            td.notes {}
+                        }
+                        "\n"
+                    }
+                }
+            }
+            "\n"
+        }
+        "\n"
+    })
 }
 
 /// The map shows the stops only when that draws them at least this many times larger than a
@@ -552,53 +552,63 @@ fn route_map(
     Ok(s)
 }
 
-fn parcel_page(h: &mut String, view: &PlanView, redact: bool) -> Result<(), OutputError> {
+fn parcel_page(view: &PlanView, redact: bool) -> Result<Markup, OutputError> {
     let sc = view.scenario;
-    let _ = write!(
-        h,
-        "<section class=\"sheet\">\n<h1>Parcel hand-over — week of {}</h1>\n{}<p class=\"muted\">Dispatcher's list: one line per parcel; the labels to cut are in labels.html. Pack with a cool pack, out of the sun.</p>\n{}\
-<table class=\"stops\"><thead><tr><th>#</th><th>Request</th><th>Address</th><th>From</th><th>Hand over</th><th>Delivery (est.)</th><th>Vials</th><th>Release by</th><th>Packed</th></tr></thead><tbody>\n",
-        sc.week_start,
-        redaction_note(redact),
-        cautions()
-    );
-    for (i, p) in view.dispatch.parcels.iter().enumerate() {
-        let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
-        let address = match &site.detail {
-            SiteDetail::Dooryard(_) if redact => format!(
-                "<em>{WITHHELD}</em><br><span class=\"muted nw\">{}, {}</span>",
-                fixed(site.location.lat, 6),
-                fixed(site.location.lon, 6)
-            ),
-            SiteDetail::Dooryard(r) => esc(&r.address),
-            SiteDetail::Block(_) => format!("block {}", esc(site.id.as_str())),
-        };
-        let from = view
-            .allocation
-            .shipments
-            .get(p.shipment)
-            .and_then(|s| sc.facilities.get(s.arc.facility))
-            .map(|f| format!("{} ({})", esc(&f.name), esc(f.id.as_str())))
-            .ok_or_else(|| {
-                OutputError::Inconsistent(format!("parcel shipment {} is out of range", p.shipment))
-            })?;
-        let base = p.ship_at.date();
-        let _ = writeln!(
-            h,
-            "<tr><td class=\"seq\">{}</td><td>{}</td><td class=\"find\">{}</td><td>{}</td><td class=\"num\">{}</td>\
-<td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"tick\"><span class=\"box\"></span></td></tr>",
-            i + 1,
-            esc(site.id.as_str()),
-            address,
-            from,
-            p.ship_at.format("%a %H:%M"),
-            time_on(p.eta, base),
-            p.vials,
-            time_on(p.release_by, base),
-        );
-    }
-    h.push_str("</tbody></table>\n</section>\n");
-    Ok(())
+    Ok(html! {
+        section.sheet {
+            "\n"
+            h1 { "Parcel hand-over — week of " (sc.week_start) } "\n"
+            (redaction_note(redact))
+            p.muted { "Dispatcher's list: one line per parcel; the labels to cut are in labels.html. Pack with a cool pack, out of the sun." } "\n"
+            (cautions())
+            table.stops {
+                thead {
+                    tr {
+                        th { "#" } th { "Request" } th { "Address" } th { "From" } th { "Hand over" }
+                        th { "Delivery (est.)" } th { "Vials" } th { "Release by" } th { "Packed" }
+                    }
+                }
+                tbody {
+                    "\n"
+                    @for (i, p) in view.dispatch.parcels.iter().enumerate() {
+                        @let site = sc.sites.get(p.site).ok_or_else(|| bad_site(p.site))?;
+                        @let from = view
+                            .allocation
+                            .shipments
+                            .get(p.shipment)
+                            .and_then(|s| sc.facilities.get(s.arc.facility))
+                            .ok_or_else(|| {
+                                OutputError::Inconsistent(format!("parcel shipment {} is out of range", p.shipment))
+                            })?;
+                        @let base = p.ship_at.date();
+                        tr {
+                            td.seq { (i + 1) }
+                            td { (site.id.as_str()) }
+                            td.find {
+                                @match &site.detail {
+                                    SiteDetail::Dooryard(_) if redact => {
+                                        em { (WITHHELD) } br;
+                                        span class="muted nw" { (fixed(site.location.lat, 6)) ", " (fixed(site.location.lon, 6)) }
+                                    }
+                                    SiteDetail::Dooryard(r) => { (r.address) }
+                                    SiteDetail::Block(_) => { "block " (site.id.as_str()) }
+                                }
+                            }
+                            td { (from.name) " (" (from.id.as_str()) ")" }
+                            td.num { (p.ship_at.format("%a %H:%M")) }
+                            td.num { (time_on(p.eta, base)) }
+                            td.num { (p.vials) }
+                            td.num { (time_on(p.release_by, base)) }
+                            td.tick { span.box {} }
+                        }
+                        "\n"
+                    }
+                }
+            }
+            "\n"
+        }
+        "\n"
+    })
 }
 
 #[cfg(test)]
@@ -646,6 +656,37 @@ mod tests {
             red.contains("26.990000, 80.010000"),
             "R1 still has its coordinates"
         );
+    }
+
+    /// Markup, ampersands and quotes in a facility name, an address and a crop reach the
+    /// sheets as text, on route sheets and on the parcel page alike.
+    #[test]
+    fn names_and_addresses_are_escaped_by_the_template() {
+        let hostile = "<script>alert(\"x\")</script> & 'co'";
+        let escaped = "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; 'co'";
+        let mut p = tiny_plan();
+        // F1 runs route 1; F2 sends the R3 parcel.
+        p.scenario.facilities[0].name = hostile.into();
+        p.scenario.facilities[1].name = hostile.into();
+        for site in &mut p.scenario.sites {
+            let id = site.id.as_str().to_owned();
+            match &mut site.detail {
+                SiteDetail::Dooryard(r) => r.address = format!("{id} {hostile}"),
+                SiteDetail::Block(b) => b.crop = hostile.into(),
+            }
+        }
+        let v = p.view();
+        let plan = Delivered::build(&v).unwrap();
+        let h = String::from_utf8(render(&v, &plan, false).unwrap()).unwrap();
+        assert!(!h.contains("<script>"), "{h}");
+        for want in [
+            format!("<td class=\"k\">Depot</td><td class=\"v\">{escaped} (F1)</td>"),
+            format!("Dooryard: R1 {escaped}<br>"),
+            format!("Block B1 · {escaped}, "),
+            format!("<td class=\"find\">R3 {escaped}</td><td>{escaped} (F2)</td>"),
+        ] {
+            assert!(h.contains(&want), "{want}");
+        }
     }
 
     #[test]

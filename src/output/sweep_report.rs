@@ -6,14 +6,18 @@
 //! No personal data: ids, counts and model figures only (a summary's notes name site and
 //! facility ids, never an address). Every number is written with fixed decimals, so the bytes
 //! depend only on the sweep. Cost: O(variants · binding rows).
+//!
+//! `sweep.html` is a `maud` template: every value spliced into it is HTML-escaped. The charts
+//! are the standalone SVG files (`sweep_chart`, which escapes their text) and enter the
+//! template as they are.
 
 use std::collections::BTreeMap;
-use std::fmt::Write;
 
+use maud::{DOCTYPE, PreEscaped, html};
 use serde::Serialize;
 
 use super::sweep_chart::{self, LineChart, Series};
-use super::{OutputError, PAGE_CSS, PlanView, RenderOptions, esc, fixed, render_all_with};
+use super::{OutputError, PAGE_CSS, PlanView, RenderOptions, fixed, render_all_with};
 
 const REDACTED: RenderOptions = RenderOptions { redact: true };
 use crate::allocate::ConstraintKind::{self, Parcel, Supply, Vehicles};
@@ -486,67 +490,29 @@ footer{margin-top:2rem;font-size:.8rem;color:#444}\
 @media print{body{margin:0;max-width:none}figure{page-break-inside:avoid}}";
 
 fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
-    let mut h = String::new();
-    let title = format!(
-        "Supply sweep — {}",
-        super::week_title(&sweep.scenario, sweep.week_start)
-    );
-    let _ = writeln!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{PAGE_CSS}{STYLE}</style></head><body>",
-        esc(&title)
-    );
-    let _ = writeln!(
-        h,
-        "<h1>Supply sweep</h1><p class=\"meta\">{} · {} {}</p>",
-        esc(&super::week_title(&sweep.scenario, sweep.week_start)),
-        sweep.variants.len(),
-        if sweep.variants.len() == 1 {
-            "variant"
-        } else {
-            "variants"
-        }
-    );
+    let week = super::week_title(&sweep.scenario, sweep.week_start);
     let list = |v: &[String]| {
-        if v.is_empty() {
-            "none".to_string()
-        } else {
-            v.iter()
-                .map(|s| format!("<code>{}</code>", esc(s)))
-                .collect::<Vec<_>>()
-                .join(", ")
+        html! {
+            @if v.is_empty() {
+                "none"
+            }
+            @for (i, s) in v.iter().enumerate() {
+                @if i > 0 { ", " }
+                code { (s) }
+            }
         }
     };
     let search = if sweep.full_routes {
-        "every variant searched routes as long as <code>plan</code> does (<code>--full-routes</code>)"
+        html! {
+            "every variant searched routes as long as " code { "plan" } " does (" code { "--full-routes" } ")"
+        }
     } else {
-        "the 1× variant searched routes as long as <code>plan</code> does, the others for a \
-         shorter time (their routes are not printed; <code>--full-routes</code> for the full \
-         search)"
+        html! {
+            "the 1× variant searched routes as long as " code { "plan" } " does, the others for a \
+             shorter time (their routes are not printed; " code { "--full-routes" } " for the full \
+             search)"
+        }
     };
-    let _ = writeln!(
-        h,
-        "<p>Every variant is a full plan (allocation, whole vials, routes) with each facility's \
-         daily vials × the multiplier, rounded half to even; {search}. Facilities removed from \
-         every variant: {}. scenario.json overrides applied to every variant: {}.</p>",
-        list(&sweep.without),
-        list(&sweep.settings)
-    );
-    let _ = writeln!(
-        h,
-        "<h2>Saturation</h2><p class=\"finding\">{}</p>",
-        esc(&saturation_text(sweep))
-    );
-    h.push_str("<h2>What limits the vials shipped</h2><table><thead><tr><th>variant</th><th style=\"text-align:left\">limit, in words</th></tr></thead><tbody>\n");
-    for (i, v) in sweep.variants.iter().enumerate() {
-        let _ = writeln!(
-            h,
-            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>",
-            esc(&v.name),
-            esc(&limit(v, sweep.plans.get(i)).1)
-        );
-    }
-    h.push_str("</tbody></table>\n");
     let reconcile = sweep.reference().map_or_else(String::new, |one| {
         let parts: Vec<String> = one
             .marginal_by_facility
@@ -574,82 +540,132 @@ fn html(sweep: &Sweep, charts: &[(&'static str, String)]) -> String {
         "Sites and dooryard requests that receive vials (delivered, as in summary.json); each \
          point names what limits the vials shipped.",
     ];
-    h.push_str("<h2>Charts</h2>\n");
-    for ((_, svg), cap) in charts.iter().zip(captions) {
-        let _ = writeln!(
-            h,
-            "<figure>{}<figcaption>{}</figcaption></figure>",
-            svg.trim_end(),
-            esc(cap)
-        );
-    }
-    h.push_str(
-        "<h2>Variants</h2><table><thead><tr><th>variant</th><th>supply (vials)</th><th>LP bound</th>\
-         <th>objective</th><th>gap %</th><th>shipped (vials)</th><th>sites</th><th>requests</th>\
-         <th>live wasps</th><th>marginal / vial</th></tr></thead><tbody>\n",
-    );
-    for v in &sweep.variants {
-        let _ = writeln!(
-            h,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>\
-             <td>{}</td><td>{}</td><td>{}</td></tr>",
-            esc(&v.name),
-            v.supply_vials,
-            fixed(v.lp_bound, 1),
-            fixed(v.objective, 1),
-            fixed(v.gap * 100.0, 2),
-            v.shipped_vials,
-            v.sites_served,
-            v.requests_served,
-            fixed(v.wasps_expected_alive, 0),
-            fixed(v.marginal_value_per_vial, 1),
-        );
-    }
-    h.push_str("</tbody></table>\n");
-    h.push_str(
-        "<h2>Against planning by hand</h2><p>Each variant planned the way an office does by hand \
-         (requests first come, first served up to the dooryard share, blocks by scouting count, \
-         nearest facility, earliest day; docs/baseline.md), valued by the same objective.</p>\
-         <table><thead><tr><th>variant</th><th>value</th><th>value by hand</th><th>plan / hand</th>\
-         <th>top-quarter wasps</th><th>by hand</th><th>vials unshipped</th><th>by hand</th>\
-         </tr></thead><tbody>\n",
-    );
-    for v in &sweep.variants {
-        let ratio = if v.hand.objective > 0.0 {
-            fixed(v.objective / v.hand.objective, 2)
-        } else {
-            "–".to_string()
-        };
-        let _ = writeln!(
-            h,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{ratio}</td><td>{}</td><td>{}</td><td>{}</td>\
-             <td>{}</td></tr>",
-            esc(&v.name),
-            fixed(v.objective, 1),
-            fixed(v.hand.objective, 1),
-            fixed(v.top_quarter_wasps, 0),
-            fixed(v.hand.top_quarter_wasps, 0),
-            v.supply_vials.saturating_sub(v.shipped_vials),
-            v.hand.unshipped_vials(),
-        );
-    }
-    h.push_str("</tbody></table>\n");
-    h.push_str("<h2>What binds</h2><table><thead><tr><th>variant</th><th style=\"text-align:left\">binding constraints (largest duals first)</th></tr></thead><tbody>\n");
-    for v in &sweep.variants {
-        let _ = writeln!(
-            h,
-            "<tr><td>{}</td><td style=\"text-align:left\">{}</td></tr>",
-            esc(&v.name),
-            esc(&binding_text(v))
-        );
-    }
-    h.push_str("</tbody></table>\n");
-    h.push_str(
-        "<footer><p>Values are in the model's objective units: live wasps expected at release, \
-         weighted by site priority. The plan is decision support: local extension and licensed \
-         pest-control practice decide.</p></footer>\n</body></html>\n",
-    );
-    h
+    let page = html! {
+        (DOCTYPE) "\n"
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                title { "Supply sweep — " (week) }
+                // Constant style sheets: raw text, not markup to escape.
+                style { (PreEscaped(PAGE_CSS)) (PreEscaped(STYLE)) }
+            }
+            body {
+                "\n"
+                h1 { "Supply sweep" }
+                p.meta {
+                    (week) " · " (sweep.variants.len()) " "
+                    @if sweep.variants.len() == 1 { "variant" } @else { "variants" }
+                }
+                "\n"
+                p {
+                    "Every variant is a full plan (allocation, whole vials, routes) with each facility's \
+                     daily vials × the multiplier, rounded half to even; " (search) ". Facilities removed from \
+                     every variant: " (list(&sweep.without)) ". scenario.json overrides applied to every variant: "
+                    (list(&sweep.settings)) "."
+                }
+                "\n"
+                h2 { "Saturation" } p.finding { (saturation_text(sweep)) } "\n"
+                h2 { "What limits the vials shipped" }
+                table {
+                    thead { tr { th { "variant" } th style="text-align:left" { "limit, in words" } } }
+                    tbody {
+                        "\n"
+                        @for (i, v) in sweep.variants.iter().enumerate() {
+                            tr { td { (v.name) } td style="text-align:left" { (limit(v, sweep.plans.get(i)).1) } }
+                            "\n"
+                        }
+                    }
+                }
+                "\n"
+                h2 { "Charts" } "\n"
+                @for ((_, svg), cap) in charts.iter().zip(captions) {
+                    // Standalone SVG from `sweep_chart`, its text escaped there.
+                    figure { (PreEscaped(svg.trim_end())) figcaption { (cap) } }
+                    "\n"
+                }
+                h2 { "Variants" }
+                table {
+                    thead {
+                        tr {
+                            th { "variant" } th { "supply (vials)" } th { "LP bound" } th { "objective" }
+                            th { "gap %" } th { "shipped (vials)" } th { "sites" } th { "requests" }
+                            th { "live wasps" } th { "marginal / vial" }
+                        }
+                    }
+                    tbody {
+                        "\n"
+                        @for v in &sweep.variants {
+                            tr {
+                                td { (v.name) } td { (v.supply_vials) } td { (fixed(v.lp_bound, 1)) }
+                                td { (fixed(v.objective, 1)) } td { (fixed(v.gap * 100.0, 2)) }
+                                td { (v.shipped_vials) } td { (v.sites_served) } td { (v.requests_served) }
+                                td { (fixed(v.wasps_expected_alive, 0)) } td { (fixed(v.marginal_value_per_vial, 1)) }
+                            }
+                            "\n"
+                        }
+                    }
+                }
+                "\n"
+                h2 { "Against planning by hand" }
+                p {
+                    "Each variant planned the way an office does by hand \
+                     (requests first come, first served up to the dooryard share, blocks by scouting count, \
+                     nearest facility, earliest day; docs/baseline.md), valued by the same objective."
+                }
+                table {
+                    thead {
+                        tr {
+                            th { "variant" } th { "value" } th { "value by hand" } th { "plan / hand" }
+                            th { "top-quarter wasps" } th { "by hand" } th { "vials unshipped" } th { "by hand" }
+                        }
+                    }
+                    tbody {
+                        "\n"
+                        @for v in &sweep.variants {
+                            tr {
+                                td { (v.name) } td { (fixed(v.objective, 1)) } td { (fixed(v.hand.objective, 1)) }
+                                td {
+                                    @if v.hand.objective > 0.0 {
+                                        (fixed(v.objective / v.hand.objective, 2))
+                                    } @else {
+                                        "–"
+                                    }
+                                }
+                                td { (fixed(v.top_quarter_wasps, 0)) } td { (fixed(v.hand.top_quarter_wasps, 0)) }
+                                td { (v.supply_vials.saturating_sub(v.shipped_vials)) } td { (v.hand.unshipped_vials()) }
+                            }
+                            "\n"
+                        }
+                    }
+                }
+                "\n"
+                h2 { "What binds" }
+                table {
+                    thead {
+                        tr { th { "variant" } th style="text-align:left" { "binding constraints (largest duals first)" } }
+                    }
+                    tbody {
+                        "\n"
+                        @for v in &sweep.variants {
+                            tr { td { (v.name) } td style="text-align:left" { (binding_text(v)) } }
+                            "\n"
+                        }
+                    }
+                }
+                "\n"
+                footer {
+                    p {
+                        "Values are in the model's objective units: live wasps expected at release, \
+                         weighted by site priority. The plan is decision support: local extension and licensed \
+                         pest-control practice decide."
+                    }
+                }
+                "\n"
+            }
+        }
+        "\n"
+    };
+    page.into_string()
 }
 
 #[cfg(test)]
@@ -835,6 +851,31 @@ mod tests {
             t.contains("vehicles_F1_2027-03-02 (dual 40.0); site rows: maxrelease 2"),
             "{t}"
         );
+    }
+
+    /// Markup, ampersands and quotes in the scenario's name, a removed facility id, a
+    /// `--set` override and a variant's name reach `sweep.html` as text.
+    #[test]
+    fn names_and_overrides_are_escaped_by_the_template() {
+        let hostile = "<script>alert(\"x\")</script> & 'co'";
+        let escaped = "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; 'co'";
+        let mut s = sample();
+        s.scenario = hostile.into();
+        s.without = vec![hostile.into()];
+        s.settings = vec![format!("name={hostile}")];
+        s.variants[0].name = hostile.into();
+        let files = render(&s).unwrap();
+        let html = String::from_utf8(files[1].1.clone()).unwrap();
+        assert!(!html.contains("<script>"), "{html}");
+        for want in [
+            format!("<title>Supply sweep — {escaped} — week of 2027-03-01</title>"),
+            format!("<p class=\"meta\">{escaped} — week of 2027-03-01 · 3 variants</p>"),
+            format!("every variant: <code>{escaped}</code>. scenario.json"),
+            format!("every variant: <code>name={escaped}</code>.</p>"),
+            format!("<tr><td>{escaped}</td><td style=\"text-align:left\">"),
+        ] {
+            assert!(html.contains(&want), "{want}");
+        }
     }
 
     #[test]
