@@ -8,7 +8,7 @@
 
 use chrono::NaiveDate;
 
-use super::{OutputError, PlanView, fixed};
+use super::{OutputError, PlanView};
 use crate::allocate::{Binding, ConstraintKind};
 use crate::scenario::{FacilityId, SiteId};
 
@@ -104,24 +104,43 @@ pub(crate) fn all<'a>(view: &PlanView<'a>) -> Vec<Parsed<'a>> {
     view.allocation.binding.iter().map(parse).collect()
 }
 
-/// Renders `binding-constraints.csv`: one row per binding constraint, largest dual first;
-/// dual with 3 decimals (objective units per unit of slack). O(B).
-pub(crate) fn render(view: &PlanView) -> Result<Vec<u8>, OutputError> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(BINDING_COLUMNS)?;
-    for b in all(view) {
-        let date = b.date.map(|d| d.to_string()).unwrap_or_default();
-        w.write_record([
-            b.name,
-            b.kind.code(),
-            b.facility.unwrap_or(""),
-            &date,
-            b.site.unwrap_or(""),
-            &fixed(b.dual, 3),
-        ])?;
+/// One `binding-constraints.csv` row. Fields in [`BINDING_COLUMNS`] order (the CSV writer
+/// checks it); ids empty where the kind has none.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct BindingRecord<'a> {
+    /// The constraint's row name in the exported model.
+    pub constraint: &'a str,
+    /// What it limits ([`Kind::code`]).
+    pub kind: &'static str,
+    /// Facility id (supply and vehicle rows), else empty.
+    pub facility_id: &'a str,
+    /// Day as `YYYY-MM-DD` (supply, vehicle and parcel rows), else empty.
+    pub date: String,
+    /// Site id (per-site rows), else empty.
+    pub site_id: &'a str,
+    /// Objective gained per unit of slack (the LP dual), 3 decimals.
+    #[serde(serialize_with = "super::cell::fixed3")]
+    pub dual: f64,
+}
+
+impl<'a> BindingRecord<'a> {
+    fn of(b: &Parsed<'a>) -> Self {
+        BindingRecord {
+            constraint: b.name,
+            kind: b.kind.code(),
+            facility_id: b.facility.unwrap_or(""),
+            date: b.date.map(|d| d.to_string()).unwrap_or_default(),
+            site_id: b.site.unwrap_or(""),
+            dual: b.dual,
+        }
     }
-    w.into_inner()
-        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+}
+
+/// Renders `binding-constraints.csv`: one [`BindingRecord`] per binding constraint, largest
+/// dual first. O(B).
+pub(crate) fn render(view: &PlanView) -> Result<Vec<u8>, OutputError> {
+    let all = all(view);
+    super::write_csv(&BINDING_COLUMNS, all.iter().map(BindingRecord::of))
 }
 
 #[cfg(test)]

@@ -10,15 +10,33 @@ use super::{Delivered, OutputError};
 /// (`crate::ledger::read_confirmations`), in its order.
 pub const CONFIRMATION_COLUMNS: [&str; 4] = ["shipment_id", "status", "released_at", "note"];
 
-/// One row per manifest row. O(n).
+/// One `confirmations.csv` row as written: the shipment id, and the three columns the
+/// coordinator fills in left empty. Fields in [`CONFIRMATION_COLUMNS`] order (the CSV writer
+/// checks it); `ledger confirm` reads the filled-in form back as
+/// `crate::ledger::Confirmation`.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct ConfirmationRecord<'a> {
+    /// The shipment's id, as in `manifest.csv`.
+    pub shipment_id: &'a str,
+    /// `released`, `not_released` or `dead_on_arrival`; empty on the blank form.
+    pub status: &'a str,
+    /// When it was released (`YYYY-MM-DD` or `YYYY-MM-DDTHH:MM`); empty on the blank form.
+    pub released_at: &'a str,
+    /// Free text; empty on the blank form.
+    pub note: &'a str,
+}
+
+/// One blank [`ConfirmationRecord`] per manifest row. O(n).
 pub(crate) fn render(plan: &Delivered) -> Result<Vec<u8>, OutputError> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(CONFIRMATION_COLUMNS)?;
-    for r in &plan.rows {
-        w.write_record([r.shipment_id.as_str(), "", "", ""])?;
-    }
-    w.into_inner()
-        .map_err(|e| OutputError::Csv(csv::Error::from(e.into_error())))
+    super::write_csv(
+        &CONFIRMATION_COLUMNS,
+        plan.rows.iter().map(|r| ConfirmationRecord {
+            shipment_id: &r.shipment_id,
+            status: "",
+            released_at: "",
+            note: "",
+        }),
+    )
 }
 
 #[cfg(test)]

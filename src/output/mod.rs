@@ -43,8 +43,8 @@ use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 
 pub use allocation_csv::{ALLOCATION_COLUMNS, AllocationRecord};
 pub use atomic::{write_dir_atomically, write_file_atomically};
-pub use binding::BINDING_COLUMNS;
-pub use confirmations::CONFIRMATION_COLUMNS;
+pub use binding::{BINDING_COLUMNS, BindingRecord};
+pub use confirmations::{CONFIRMATION_COLUMNS, ConfirmationRecord};
 pub use labels::LABELS_PER_PAGE;
 pub use manifest::{MANIFEST_COLUMNS, ManifestRecord, ManifestRow};
 pub use report::MAP_MARKERS_MAX;
