@@ -3,7 +3,7 @@
 //! and the move of a customer alone onto an unused vehicle.
 
 use super::moves_between::improves;
-use super::segment::Seg;
+use super::segment::{FEAS_EPS, Seg};
 use super::state::{Move, State};
 
 impl State<'_> {
@@ -43,6 +43,11 @@ impl State<'_> {
         b: &Seg,
     ) -> Option<((Option<usize>, Option<usize>), f64)> {
         let d = self.data;
+        // A run whose own warp is above the tolerance fits no vehicle (the depot legs only add
+        // warp): with an infinite weight nothing can be chosen.
+        if !self.tw_weight.is_finite() && (a.tw > FEAS_EPS || b.tw > FEAS_EPS) {
+            return None;
+        }
         let pick = |v: usize, s: &Seg| (!s.empty).then_some(v);
         if d.fits(va, a) && d.fits(vb, b) {
             return Some(((pick(va, a), pick(vb, b)), 0.0));

@@ -231,6 +231,14 @@ impl<'a> State<'a> {
                 continue;
             }
             let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);
+            // Every vehicle's warp is at least the body's own (the warp terms of `Data::cat`
+            // are never negative): skip the depot legs when that alone rules the place out.
+            if s.tw > FEAS_EPS
+                && (!self.tw_weight.is_finite()
+                    || best.is_some_and(|(b, _, _)| add + self.tw_weight * s.tw >= b - EPS))
+            {
+                continue;
+            }
             if let Some((v, p)) = self.choose(r, &s, others)
                 && best.is_none_or(|(b, _, _)| add + p < b - EPS)
             {
