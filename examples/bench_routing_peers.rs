@@ -171,7 +171,7 @@ fn record_scaled(
         .map(|&seed| {
             let t = Instant::now();
             let sol = solve(
-                &inst,
+                inst,
                 &SolveOptions {
                     seed,
                     max_iterations: iterations,

@@ -110,7 +110,7 @@ pub(crate) fn all<'a>(view: &PlanView<'a>) -> Vec<Parsed<'a>> {
 pub struct BindingRecord<'a> {
     /// The constraint's row name in the exported model.
     pub constraint: &'a str,
-    /// What it limits ([`Kind::code`]).
+    /// What it limits (the kind code of `docs/outputs.md`, e.g. `supply`).
     pub kind: &'static str,
     /// Facility id (supply and vehicle rows), else empty.
     pub facility_id: &'a str,
