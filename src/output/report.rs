@@ -26,6 +26,7 @@ use super::svg::{Frame, f1};
 use super::{
     CAUTIONS, Delivered, OutputError, PAGE_CSS, PlanView, esc, fixed, priority_of, round_to,
 };
+use crate::allocate::Allocation;
 use crate::geodesy::distance_m;
 use crate::scenario::SiteKind;
 
@@ -704,6 +705,18 @@ fn why_not(view: &PlanView, week: &Week) -> Markup {
     }
 }
 
+/// What one more vial packed at facility `f` would add to the plan's value (its marginal
+/// value per vial, rounded, never below 0), as the report prints it.
+fn one_more_vial(al: &Allocation, f: usize) -> String {
+    int(al
+        .marginal_value_per_vial
+        .get(f)
+        .copied()
+        .unwrap_or(0.0)
+        .round()
+        .max(0.0) as u64)
+}
+
 /// The highest-priority unserved sites that could have had a release: what serving one would
 /// take (vials from the nearest facility) and what each of those vials earns where it went
 /// instead. O(S + rows · F).
@@ -741,13 +754,7 @@ fn worth_a_look(view: &PlanView, week: &Week) -> Markup {
                 (
                     format!("{} ({} km)", fac.id.as_str(), fixed(m / 1000.0, 1)),
                     count(need as usize, "vial", "vials"),
-                    int(al
-                        .marginal_value_per_vial
-                        .get(f)
-                        .copied()
-                        .unwrap_or(0.0)
-                        .round()
-                        .max(0.0) as u64),
+                    one_more_vial(al, f),
                 )
             }
             None => ("—".into(), "—".into(), "—".into()),
@@ -811,15 +818,6 @@ fn marginal_values(view: &PlanView, plan: &Delivered) -> Markup {
         .zip(&al.marginal_value_per_vial)
         .map(|(p, v)| *p as f64 * v)
         .sum();
-    let one_more = |f: usize| {
-        int(al
-            .marginal_value_per_vial
-            .get(f)
-            .copied()
-            .unwrap_or(0.0)
-            .round()
-            .max(0.0) as u64)
-    };
     let average = if total > 0 {
         int((weighted / total as f64).round().max(0.0) as u64)
     } else {
@@ -840,7 +838,7 @@ fn marginal_values(view: &PlanView, plan: &Delivered) -> Markup {
                     @for (f, fac) in sc.facilities.iter().enumerate() {
                         tr {
                             td { (fac.name) " (" (fac.id.as_str()) ")" }
-                            td.num { (int(packed[f])) } td.num { (int(shipped[f])) } td.num { (one_more(f)) }
+                            td.num { (int(packed[f])) } td.num { (int(shipped[f])) } td.num { (one_more_vial(al, f)) }
                         }
                     }
                 }
