@@ -27,22 +27,19 @@ impl State<'_> {
         // Penalty of the route as it stands: a candidate whose drive change `delta` is not
         // below it cannot improve, whatever its own penalty (never negative).
         let old_pen = self.route_pen(r);
-        let old_drive = self.route_dist(r);
         // A candidate that differs from `nodes` only inside lo..hi, on r's own vehicle or an
         // unused vehicle of another kind (the route moves to it), when drive plus penalty
         // falls.
         //
-        // Two lower bounds on any vehicle's time warp let a hopeless candidate go early: the
+        // A lower bound on any vehicle's time warp lets a hopeless candidate go early: the
         // warp inside the unchanged tail plus the warp of the stretch so far (warp only grows
-        // as customers are appended: every term of `Data::cat`'s warp is non-negative), and
-        // what drive plus service exceed the longest shift by (`Data::least_warp`). The
-        // stretch is abandoned as soon as the weight times either bound outweighs the drive
+        // as customers are appended: every term of `Data::cat`'s warp is non-negative). The
+        // stretch is abandoned as soon as the weight times that bound outweighs the drive
         // saved; it rejects only candidates the full check would reject.
         let check = |cand: &[usize], lo: usize, hi: usize, delta: f64| -> Option<Move> {
             let tail_tw = route.suf[hi].tw;
-            let floor = d.least_warp(old_drive + delta, route.service);
             let hopeless = |s: &Seg| {
-                let tw = (s.tw + tail_tw).max(floor);
+                let tw = s.tw + tail_tw;
                 tw > FEAS_EPS && delta + self.tw_weight * tw - old_pen >= -EPS
             };
             let mut s = route.pre[lo];

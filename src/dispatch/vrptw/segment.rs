@@ -58,8 +58,6 @@ pub(super) struct Data<'a> {
     /// Per vehicle: its kind, the index of the first vehicle with the same capacity, start and
     /// latest return (vehicles of one kind are interchangeable in every verdict).
     pub(super) kind: Vec<usize>,
-    /// The longest shift of any vehicle, minutes from its departure to its latest return.
-    longest_shift: f64,
 }
 
 impl<'a> Data<'a> {
@@ -122,18 +120,12 @@ impl<'a> Data<'a> {
                     .unwrap_or(v)
             })
             .collect();
-        let longest_shift = inst
-            .vehicles
-            .iter()
-            .map(|v| v.latest_return - v.start)
-            .fold(f64::NEG_INFINITY, f64::max);
         Data {
             inst,
             n,
             d,
             neigh,
             kind,
-            longest_shift,
         }
     }
 
@@ -271,14 +263,6 @@ impl<'a> Data<'a> {
         } else {
             s.tw
         }
-    }
-
-    /// A lower bound, minutes, on the time warp of *any* vehicle driving a run of `drive`
-    /// minutes (depot legs included) and `service` minutes of service: what the drive and
-    /// service exceed the longest shift by. A vehicle leaves no earlier than its start, so
-    /// everything past its latest return must be warped. O(1).
-    pub(super) fn least_warp(&self, drive: f64, service: f64) -> f64 {
-        (drive + service - self.longest_shift).max(0.0)
     }
 
     /// Drive minutes of `body` out of the depot and back (0 for an empty body). The same for

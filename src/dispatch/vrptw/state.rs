@@ -17,8 +17,6 @@ pub(super) struct Route {
     /// Time warp of the route on its own vehicle, minutes: 0 when it fits, infinite when the
     /// vehicle cannot drive it at any lateness (load, unusable arc).
     pub(super) late: f64,
-    /// Service minutes of all its customers.
-    pub(super) service: f64,
 }
 
 impl Route {
@@ -55,7 +53,6 @@ impl<'a> State<'a> {
                     pre: Vec::new(),
                     suf: Vec::new(),
                     late: 0.0,
-                    service: 0.0,
                 })
                 .collect(),
             at: vec![None; data.n],
@@ -88,11 +85,6 @@ impl<'a> State<'a> {
             self.at[node] = Some((r, p));
         }
         route.late = d.lateness(r, &route.suf[0]);
-        route.service = route
-            .nodes
-            .iter()
-            .map(|&v| d.customer(v).service_minutes)
-            .sum();
     }
 
     /// Drive minutes of route r.
@@ -168,8 +160,8 @@ impl<'a> State<'a> {
                 least = Some((w, p));
             }
         }
-        // With an infinite weight nothing late is ever chosen.
-        least.filter(|_| self.tw_weight.is_finite())
+        // With an infinite weight `weigh` prices no lateness, so nothing late is chosen.
+        least
     }
 
     pub(super) fn used(&self) -> usize {
