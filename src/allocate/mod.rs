@@ -389,19 +389,18 @@ pub fn allocate(
         }
         // Rounding candidates: the LP's support (≥ 0.02 vials), forced sites, and near misses
         // (a first vial within 5 % of paying for the shared rows' duals): the alternates a
-        // whole-vial plan needs when rounding frees or lacks a vial.
+        // whole-vial plan needs when rounding frees or lacks a vial. Near misses are looked
+        // for among every site, not only the working set's: pricing keeps the set small.
         let cand: Vec<bool> = inst
             .sites
             .iter()
-            .enumerate()
-            .map(|(sp, site)| {
-                relax.in_set[sp]
-                    && (site.force.is_some()
-                        || site.arcs.iter().map(|&a| relax.x[a]).sum::<f64>() >= 0.02
-                        || site.arcs.iter().any(|&a| {
-                            pricing::reduced_cost(&inst, a, &relax.res_dual, relax.share_dual)
-                                >= -0.05 * site.priority * inst.arcs[a].wasps_alive_per_vial
-                        }))
+            .map(|site| {
+                site.force.is_some()
+                    || site.arcs.iter().map(|&a| relax.x[a]).sum::<f64>() >= 0.02
+                    || site.arcs.iter().any(|&a| {
+                        pricing::reduced_cost(&inst, a, &relax.res_dual, relax.share_dual)
+                            >= -0.05 * site.priority * inst.arcs[a].wasps_alive_per_vial
+                    })
             })
             .collect();
         let mut x = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
