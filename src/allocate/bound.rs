@@ -117,6 +117,13 @@ fn most_vials_per_release(inst: &Instance) -> u32 {
     block.max(inst.per_request)
 }
 
+/// The step factor below which the subgradient gives up when no step has yet improved on the
+/// LP duals' value: after six steps (two halvings). Measured: the same bounds on the 18
+/// generated 300- and 700-site weeks (3, 5, 6 facilities; 0.3, 1, 6 × supply), the 1,000- and
+/// 3,000-site weeks and the demo; on the 35,000-site week no step ever improves and the rule
+/// saves about 14 of 20 evaluations (1.3 s) per solve.
+const GIVE_UP_THETA: f64 = 0.3;
+
 /// The whole-vial Lagrangian bound, tightened from the LP's duals by projected subgradient
 /// steps on the prices (`docs/model.md`, "Bounds"): every iterate's value is a valid bound, so
 /// the smallest one seen is returned. `res_dual` and `share_dual` are the LP's duals (the
@@ -146,9 +153,11 @@ pub(crate) fn whole_vial_bound(
     let mut best = (at.clone(), prices.clone());
     // Polyak's step towards the target `lower`, with its factor halved, and the prices taken
     // back to the best point, after a few steps without a new best (the usual safeguards of
-    // subgradient methods); it stops once the factor is below 1/64 of its start.
+    // subgradient methods); it stops once the factor is below 1/64 of its start, or below
+    // [`GIVE_UP_THETA`] when no step has improved on the LP duals' value at all.
     let mut theta = 1.0;
     let mut since_best = 0;
+    let mut improved = false;
     let mut guides: Vec<Vec<f64>> = first.into_iter().collect();
     for step in 0..steps {
         // Early new bests differ most from the LP duals' releases: they guide roundings too.
@@ -210,13 +219,14 @@ pub(crate) fn whole_vial_bound(
         prices.lambda = (prices.lambda - t * g_share).max(0.0);
         at = lagrangian(inst, &prices, true);
         if at.value < best.0.value - 1e-9 * best.0.value.abs().max(1.0) {
+            improved = true;
             best = (at.clone(), prices.clone());
             since_best = 0;
         } else {
             since_best += 1;
             if since_best >= 3 {
                 theta *= 0.5;
-                if theta < 1.0 / 64.0 {
+                if theta < 1.0 / 64.0 || (!improved && theta < GIVE_UP_THETA) {
                     break;
                 }
                 since_best = 0;
