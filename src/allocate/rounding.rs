@@ -1009,6 +1009,58 @@ fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Ve
     Some(x)
 }
 
+/// Near misses are sites whose best first vial is within this fraction of its live-wasp value
+/// of paying for the shared rows' duals.
+const NEAR_MISS: f64 = 0.05;
+
+/// The rounding's candidate sites: the LP's support (at least 0.02 vials: interior-point dust
+/// below that carries no decision), forced sites, near misses ([`NEAR_MISS`]), and then the
+/// next best sites by that ratio (reduced cost of the best first vial ÷ its live-wasp value)
+/// until there are `per_support_site` candidates per support site (0: none): the alternates
+/// a whole-vial plan needs when rounding frees a vial or a site cannot take one. Every site is
+/// looked at, not only the working set's: pricing keeps the set small. O(arcs + S log S).
+pub(crate) fn candidates(
+    inst: &Instance,
+    x: &[f64],
+    res_dual: &[f64],
+    share_dual: f64,
+    per_support_site: f64,
+) -> Vec<bool> {
+    let mut cand = vec![false; inst.sites.len()];
+    let mut rest: Vec<(f64, usize)> = Vec::new();
+    let mut support = 0usize;
+    for (sp, site) in inst.sites.iter().enumerate() {
+        if site.force.is_some() || site.arcs.iter().map(|&a| x[a]).sum::<f64>() >= 0.02 {
+            cand[sp] = true;
+            support += 1;
+            continue;
+        }
+        let ratio = site
+            .arcs
+            .iter()
+            .filter_map(|&a| {
+                let value = site.priority * inst.arcs[a].wasps_alive_per_vial;
+                (value > 0.0)
+                    .then(|| super::pricing::reduced_cost(inst, a, res_dual, share_dual) / value)
+            })
+            .fold(f64::NEG_INFINITY, f64::max);
+        if ratio >= -NEAR_MISS {
+            cand[sp] = true;
+        } else if ratio.is_finite() {
+            rest.push((ratio, sp));
+        }
+    }
+    let want = (per_support_site * support as f64) as usize;
+    let have = cand.iter().filter(|c| **c).count();
+    if have < want {
+        rest.sort_by(|p, q| q.0.total_cmp(&p.0).then(p.1.cmp(&q.1)));
+        for &(_, sp) in rest.iter().take(want - have) {
+            cand[sp] = true;
+        }
+    }
+    cand
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1031,6 +1083,42 @@ mod tests {
             wasps_alive_per_vial: alive,
             drive_minutes: 20.0,
         }
+    }
+
+    #[test]
+    fn wider_candidates_add_the_sites_closest_to_paying_for_the_duals() {
+        let s = tiny();
+        let arcs = Arcs {
+            arcs: vec![arc(0, 0, 0, 90.0), arc(1, 0, 0, 95.0), arc(2, 0, 0, 80.0)],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let priority = vec![1.0; s.sites.len()];
+        let mut s2 = s.clone();
+        s2.policy.dooryard_share_min = 0.0;
+        let inst = Instance::new(&s2, &priority, &arcs, &AllocOptions::default()).expect("valid");
+        // Site 0 is the LP's support; the shared rows' duals are far above what a first vial
+        // earns anywhere, so neither other site is a near miss.
+        let x = [1.0, 0.0, 0.0];
+        let res_dual = vec![1e4; inst.res_rhs.len()];
+        let sites = |c: Vec<bool>| -> Vec<usize> {
+            (0..c.len())
+                .filter(|&i| c[i])
+                .map(|i| inst.sites[i].site)
+                .collect()
+        };
+        assert_eq!(sites(candidates(&inst, &x, &res_dual, 0.0, 0.0)), vec![0]);
+        // Two per support site: the better of the others (95 live wasps per vial against 80).
+        assert_eq!(
+            sites(candidates(&inst, &x, &res_dual, 0.0, 2.0)),
+            vec![0, 1]
+        );
+        assert_eq!(
+            sites(candidates(&inst, &x, &res_dual, 0.0, 3.0)),
+            vec![0, 1, 2]
+        );
+        // With no duals every site's first vial pays: all are near misses.
+        let free = vec![0.0; inst.res_rhs.len()];
+        assert_eq!(sites(candidates(&inst, &x, &free, 0.0, 0.0)), vec![0, 1, 2]);
     }
 
     #[test]
