@@ -246,11 +246,12 @@ const GUIDE_GAP: f64 = 0.002;
 /// Relative gap (to the whole-vial bound) above which the rounding runs again with
 /// [`WIDE_CANDIDATES_PER_SUPPORT_SITE`] candidates per site of the LP's support, and the guided
 /// roundings start from that wider set.
-/// Measured on generated weeks: the wider set gained 0.5–6.5 % where the first rounding's gap
-/// was 3.6–12.6 % (300 and 700 sites at 1× supply) and 0–0.25 % at gaps of 1.2–2.5 %
-/// (1,000, 3,000 and 35,000 sites), where it costs one more rounding of 1–4 s; 2 % keeps it
-/// where it pays.
-const WIDEN_GAP: f64 = 0.02;
+/// Measured on generated weeks (2026-12-03): the wider set gained 0.5–6.5 % where the first
+/// rounding's gap was 3.6–12.6 % (300 and 700 sites at 1× supply); on the 35,000-site week
+/// (gap 1.2 %) the first rounding went from 91,854,529 to 92,067,520 (+0.23 %) for 5 s more
+/// per `plan`; on the 1,000- and 3,000-site weeks (gaps 2.5 % and 1.6 %) it gained nothing
+/// and 0.03 % for 0.7 s and 2.5 s more. Below 1 % (every 6×-supply week) it is not tried.
+const WIDEN_GAP: f64 = 0.01;
 
 /// Candidate sites per LP support site in the widened rounding (near misses first, then the
 /// sites whose best first vial comes closest to paying for the duals). Measured on the
