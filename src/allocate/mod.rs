@@ -555,6 +555,43 @@ mod tests {
     use crate::scenario::fixture::tiny;
 
     #[test]
+    fn small_pack_days_compare_a_pack_day_with_one_target_release() {
+        let s = tiny();
+        let d = s.week_start;
+        let arc = |facility: usize| Arc {
+            facility,
+            pack_date: d,
+            dispatch_date: d,
+            site: 0,
+            mode: Mode::Route,
+            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
+            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
+            survival: 0.95,
+            wasps_alive_per_vial: 95.0,
+            drive_minutes: 20.0,
+        };
+        let arcs = Arcs {
+            arcs: vec![arc(0), arc(1)],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let priority = vec![1.0; s.sites.len()];
+        let small = |vials: u32| {
+            let mut s2 = s.clone();
+            for sup in &mut s2.supply {
+                sup.vials = vials;
+            }
+            let inst = instance::Instance::new(&s2, &priority, &arcs, &AllocOptions::default())
+                .expect("valid");
+            small_pack_days(&inst)
+        };
+        // Target 400 wasps: 4 vials at F1 (100 a vial), 3.33 at F2 (120): 7.33 over the two
+        // Monday rows the arcs draw on, against 2 × the pack day's vials.
+        assert!(small(3));
+        assert!(!small(4));
+        assert!(!small(6));
+    }
+
+    #[test]
     fn tiny_fixture_plan_is_whole_and_explained() {
         let s = tiny();
         let d = s.week_start;
