@@ -148,6 +148,11 @@ pub fn plan_with(
     progress.report(Step::Replan);
     alloc_opts.excluded.extend(removed);
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
+    alloc_opts.warm_plan = first
+        .shipments
+        .iter()
+        .map(|s| (s.order_key(), s.vials))
+        .collect();
     let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
     let second_dispatch = route(&second);
     // A stop the re-planned routes cannot serve is dropped with its site; routing the smaller

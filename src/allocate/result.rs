@@ -3,7 +3,7 @@
 
 use serde::Serialize;
 
-use super::{ConstraintKind, Mode, Note};
+use super::{ConstraintKind, Note};
 use crate::arcs::Arc;
 use crate::eligibility::Reason;
 use crate::scenario::SiteIdx;
@@ -24,7 +24,7 @@ impl Shipment {
     }
 
     /// The order of `Allocation::shipments`: (facility, dispatch date, site, pack date, mode).
-    pub fn order_key(&self) -> (usize, chrono::NaiveDate, SiteIdx, chrono::NaiveDate, Mode) {
+    pub fn order_key(&self) -> super::ShipmentKey {
         let a = &self.arc;
         (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode)
     }

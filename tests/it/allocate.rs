@@ -485,6 +485,57 @@ fn a_warm_started_resolve_reaches_the_same_optimum() {
     assert!(b.gap <= 0.01, "gap {}", b.gap);
 }
 
+#[test]
+fn a_resolve_from_the_earlier_plan_keeps_its_value_and_every_limit() {
+    // As plan's route feedback does: the re-solve rounds from the first plan.
+    let (s, p, arcs) = synthetic::generate(13, 2000, 400);
+    let first = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
+    let warm_plan: std::collections::BTreeMap<_, _> = first
+        .shipments
+        .iter()
+        .map(|sh| (sh.order_key(), sh.vials))
+        .collect();
+    // Nothing removed: the rounding starts from the first plan and only keeps improvements.
+    let same = AllocOptions {
+        warm_plan: warm_plan.clone(),
+        warm_start: first.working_set.iter().copied().collect(),
+        ..always_priced()
+    };
+    let again = allocate(&s, &p, &arcs, &same).expect("valid");
+    check_invariants(&s, &p, &arcs, &again);
+    assert!(
+        again.objective >= first.objective - 1e-9 * first.objective.abs(),
+        "{} from {}",
+        again.objective,
+        first.objective
+    );
+    // Three served arcs removed: none is used, and every limit holds.
+    let excluded: std::collections::BTreeSet<_> = first
+        .shipments
+        .iter()
+        .take(3)
+        .map(|sh| {
+            (
+                sh.arc.facility,
+                sh.arc.dispatch_date,
+                sh.arc.site,
+                sh.arc.mode,
+            )
+        })
+        .collect();
+    let resolve = AllocOptions {
+        excluded: excluded.clone(),
+        ..same
+    };
+    let b = allocate(&s, &p, &arcs, &resolve).expect("valid");
+    check_invariants(&s, &p, &arcs, &b);
+    for sh in &b.shipments {
+        let a = &sh.arc;
+        assert!(!excluded.contains(&(a.facility, a.dispatch_date, a.site, a.mode)));
+    }
+    assert!(b.gap <= 0.01, "gap {}", b.gap);
+}
+
 fn check_invariants(s: &Scenario, p: &[f64], arcs: &Arcs, a: &Allocation) {
     let (door, total) = util::check_whole_vial_limits(s, a);
     // The floor as the model keeps it (typed, not read from a note): dropped when no request
