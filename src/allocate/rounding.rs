@@ -45,6 +45,9 @@ pub(crate) struct State<'i, 'a> {
     /// Vials per usable arc.
     pub x: Vec<u32>,
     pub(super) used: Vec<f64>,
+    /// Whole vials left on each resource, ⌊rhs − used + 10⁻⁷⌋ ≥ 0, kept with `used` (the
+    /// greedy's scans ask for it millions of times on large weeks).
+    pub(super) res_free: Vec<u32>,
     pub(super) site_e: Vec<f64>,
     pub(super) site_v: Vec<u32>,
     /// Releases at each site: its arcs with vials.
@@ -71,6 +74,9 @@ impl<'i, 'a> State<'i, 'a> {
             inst,
             x: vec![0; inst.arcs.len()],
             used: vec![0.0; inst.resources.len()],
+            res_free: (0..inst.resources.len())
+                .map(|r| free_of(inst.res_rhs[r], 0.0))
+                .collect(),
             site_e: vec![0.0; inst.sites.len()],
             site_v: vec![0; inst.sites.len()],
             site_n: vec![0; inst.sites.len()],
@@ -146,6 +152,7 @@ impl<'i, 'a> State<'i, 'a> {
         }
         for &r in &inst.arc_res[a] {
             self.used[r] += df;
+            self.res_free[r] = free_of(inst.res_rhs[r], self.used[r]);
         }
         self.site_e[sp] += df * inst.arcs[a].wasps_alive_per_vial;
         if self.site_v[sp] as i64 + d <= 0 {
@@ -235,6 +242,7 @@ impl<'i, 'a> State<'i, 'a> {
         }
         for &(r, u) in saved_res.iter().rev() {
             self.used[r] = u;
+            self.res_free[r] = free_of(inst.res_rhs[r], u);
         }
         (self.door, self.total) = (door, total);
         ok.then_some(after - before - cost)
@@ -278,7 +286,7 @@ impl<'i, 'a> State<'i, 'a> {
         let inst = self.inst;
         inst.arc_res[a]
             .iter()
-            .map(|&r| (inst.res_rhs[r] - self.used[r] + 1e-7).floor().max(0.0) as u32)
+            .map(|&r| self.res_free[r])
             .min()
             .unwrap_or(0)
     }
@@ -425,6 +433,11 @@ impl<'i, 'a> State<'i, 'a> {
             arc_ok && self.release_ok(sa, e2, v2),
         )
     }
+}
+
+/// Whole vials left on a resource with right-hand side `rhs` and `used` vials.
+fn free_of(rhs: f64, used: f64) -> u32 {
+    (rhs - used + 1e-7).floor().max(0.0) as u32
 }
 
 /// Key that sorts `f64` gains in decreasing order (total order, as `f64::total_cmp`).
