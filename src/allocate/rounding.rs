@@ -447,9 +447,11 @@ fn desc_key(g: f64) -> u64 {
     !ascending
 }
 
-/// Rounds LP vials `lp_x` (per usable arc) to a whole-vial plan over the site positions with
-/// `cand[s]` (the caller passes the LP support and near misses: interior-point dust carries no
-/// decision, and scanning the whole pool would cost time for nothing). Returns vials per usable arc. `budget` caps evaluated moves (deterministic).
+/// Rounds LP vials `lp_x` (per usable arc; or an earlier whole-vial plan, which the seed keeps
+/// where it still fits) to a whole-vial plan over the site positions with `cand[s]` (the
+/// caller passes [`candidates`], and a warm start's sites: interior-point dust carries no
+/// decision, and scanning the whole pool would cost time for nothing). Returns vials per
+/// usable arc. `budget` caps evaluated moves (deterministic).
 pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -> Vec<u32> {
     let mut st = State::new(inst);
     let cand_list: Vec<usize> = (0..inst.sites.len()).filter(|&s| cand[s]).collect();
