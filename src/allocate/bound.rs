@@ -542,7 +542,8 @@ fn enumerate(
     if *nodes > NODES_PER_SITE {
         return false;
     }
-    if i == arcs.len() {
+    // With no release left, every further arc can only take 0 vials: the leaf is the same.
+    if i == arcs.len() || left == 0 {
         if inst.release_ok(sp, e, n) {
             let v = inst.site_value(sp, e, n) - cost;
             if v > best.0 {
