@@ -442,7 +442,7 @@ pub fn allocate(
             rounding::candidates(&inst, &relax.x, &relax.res_dual, relax.share_dual, 0.0);
         // A re-solve rounds from the earlier plan (`AllocOptions::warm_plan`), else from the LP.
         let warm = !opts.warm_plan.is_empty();
-        let start: Vec<f64> = if warm {
+        let earlier: Option<Vec<f64>> = warm.then(|| {
             let start: Vec<f64> = inst
                 .arcs
                 .iter()
@@ -455,10 +455,9 @@ pub fn allocate(
                 *c = *c || site.arcs.iter().any(|&a| start[a] > 0.0);
             }
             start
-        } else {
-            relax.x.clone()
-        };
-        let mut x = rounding::round(&inst, &start, &cand, opts.rounding_budget);
+        });
+        let start = earlier.as_deref().unwrap_or(&relax.x);
+        let mut x = rounding::round(&inst, start, &cand, opts.rounding_budget);
         let mut lower = objective_of(&inst, scenario, &shipments_of(&inst, &x));
         let (bound, guides) = bound::whole_vial_bound(
             &inst,
@@ -588,21 +587,11 @@ mod tests {
     #[test]
     fn small_pack_days_compare_a_pack_day_with_one_target_release() {
         let s = tiny();
-        let d = s.week_start;
-        let arc = |facility: usize| Arc {
-            facility,
-            pack_date: d,
-            dispatch_date: d,
-            site: 0,
-            mode: Mode::Route,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: 0.95,
-            wasps_alive_per_vial: 95.0,
-            drive_minutes: 20.0,
-        };
         let arcs = Arcs {
-            arcs: vec![arc(0), arc(1)],
+            arcs: vec![
+                synthetic::same_day_arc(&s, 0, 0, Mode::Route),
+                synthetic::same_day_arc(&s, 0, 1, Mode::Route),
+            ],
             no_arc_reason: vec![None; s.sites.len()],
         };
         let priority = vec![1.0; s.sites.len()];
