@@ -6,7 +6,7 @@ use std::collections::BTreeMap;
 
 use broodcast::allocate::model::{LinearModel, Sense};
 use broodcast::allocate::{
-    AllocOptions, Allocation, NoteKind, allocate, export_mps, plan_objective, synthetic,
+    AllocOptions, Allocation, ArcKey, NoteKind, allocate, export_mps, plan_objective, synthetic,
 };
 
 use broodcast::arcs::{Arc, Arcs, Mode};
@@ -449,25 +449,25 @@ fn pricing_reaches_the_full_pool_optimum() {
     assert!(rel < 1e-6, "{} vs {}", with.lp_bound, without.lp_bound);
 }
 
+/// The arcs of the first `n` shipments of `plan`, as the route feedback excludes them.
+fn first_arcs(plan: &Allocation, n: usize) -> std::collections::BTreeSet<ArcKey> {
+    plan.shipments
+        .iter()
+        .take(n)
+        .map(|sh| {
+            let a = &sh.arc;
+            (a.facility, a.dispatch_date, a.site, a.mode)
+        })
+        .collect()
+}
+
 #[test]
 fn a_warm_started_resolve_reaches_the_same_optimum() {
     // As plan's route feedback does: drop a few served arcs, solve again from the first
     // solve's working set.
     let (s, p, arcs) = synthetic::generate(11, 2000, 400);
     let first = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
-    let excluded: std::collections::BTreeSet<_> = first
-        .shipments
-        .iter()
-        .take(3)
-        .map(|sh| {
-            (
-                sh.arc.facility,
-                sh.arc.dispatch_date,
-                sh.arc.site,
-                sh.arc.mode,
-            )
-        })
-        .collect();
+    let excluded = first_arcs(&first, 3);
     assert!(!first.working_set.is_empty());
     let cold = AllocOptions {
         excluded,
@@ -510,19 +510,7 @@ fn a_resolve_from_the_earlier_plan_keeps_its_value_and_every_limit() {
         first.objective
     );
     // Three served arcs removed: none is used, and every limit holds.
-    let excluded: std::collections::BTreeSet<_> = first
-        .shipments
-        .iter()
-        .take(3)
-        .map(|sh| {
-            (
-                sh.arc.facility,
-                sh.arc.dispatch_date,
-                sh.arc.site,
-                sh.arc.mode,
-            )
-        })
-        .collect();
+    let excluded = first_arcs(&first, 3);
     let resolve = AllocOptions {
         excluded: excluded.clone(),
         ..same
