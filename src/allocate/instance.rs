@@ -175,7 +175,8 @@ impl<'a> Instance<'a> {
         let mut source: Vec<usize> = Vec::new();
         let mut arc_res = Vec::new();
         let mut cost = Vec::new();
-        let (mut excluded, mut dead, mut no_resource) = (0usize, 0usize, 0usize);
+        let (mut excluded, mut dead, mut no_resource, mut too_small) =
+            (0usize, 0usize, 0usize, 0usize);
         for (i, a) in arcs.arcs.iter().enumerate() {
             if a.site >= n || a.facility >= scenario.facilities.len() {
                 return Err(AllocError::ArcsMismatch {
@@ -228,6 +229,10 @@ impl<'a> Instance<'a> {
                 no_resource += 1;
                 continue;
             }
+            if !whole_release_fits(scenario, a, sup, second.1) {
+                too_small += 1;
+                continue;
+            }
             let r0 = res_of(Resource::Supply(a.facility, a.pack_date), sup);
             let r1 = res_of(second.0, second.1);
             arc_res.push([r0, r1]);
@@ -244,6 +249,11 @@ impl<'a> Instance<'a> {
         if no_resource > 0 {
             notes.push(Note::new(NoteKind::ArcsWithoutCapacity {
                 arcs: no_resource,
+            }));
+        }
+        if too_small > 0 {
+            notes.push(Note::new(NoteKind::ArcsWithoutWholeRelease {
+                arcs: too_small,
             }));
         }
         let mut by_site: BTreeMap<SiteIdx, Vec<usize>> = BTreeMap::new();
@@ -459,6 +469,28 @@ impl<'a> Instance<'a> {
             SiteKind::Dooryard => v == self.per_request,
         }
     }
+}
+
+/// Whether arc `a` can carry one whole release on its own: a request's standard vials, or a
+/// block's fewest vials that reach `min_release_wasps` (at least one), within
+/// `max_release_wasps` and within the whole vials of its pack day (`supply` vials) and of its
+/// vehicle or parcel day (`second` vials). A release is one shipment on one arc, so an arc
+/// that fails carries nothing in any whole-vial plan; leaving it out of the LP keeps every
+/// whole-vial plan and tightens the relaxation (e.g. a pack day of one vial when a minimum
+/// release needs two).
+fn whole_release_fits(scenario: &Scenario, a: &Arc, supply: f64, second: f64) -> bool {
+    const TOL: f64 = 1e-9;
+    let agent = &scenario.agent;
+    let alive = a.wasps_alive_per_vial;
+    let vials = match scenario.sites[a.site].kind() {
+        SiteKind::Dooryard => f64::from(scenario.policy.dooryard_vials_per_request),
+        SiteKind::Block => (agent.min_release_wasps * (1.0 - TOL) / alive)
+            .ceil()
+            .max(1.0),
+    };
+    vials * alive <= agent.max_release_wasps * (1.0 + TOL) + TOL
+        && vials <= (supply + TOL).floor()
+        && vials <= (second + TOL).floor()
 }
 
 /// Coefficient of arc `a` (one vial) in the dooryard share row Σ (door − share·all) ≥ 0.

@@ -612,6 +612,40 @@ mod tests {
     }
 
     #[test]
+    fn an_arc_that_cannot_carry_one_whole_release_is_left_out() {
+        // tiny(): minimum release 150 wasps, maximum 800, 2 vials a request; the arcs carry
+        // 90 live wasps a vial, so a block release needs 2 vials, like a request.
+        let s = tiny();
+        let block = synthetic::same_day_arc(&s, 0, 0, Mode::Route);
+        let request = synthetic::same_day_arc(&s, 6, 0, Mode::Route);
+        let mut strong = synthetic::same_day_arc(&s, 1, 0, Mode::Route);
+        strong.wasps_alive_per_vial = 900.0; // one vial is over the maximum release
+        let arcs = Arcs {
+            arcs: vec![block, request, strong],
+            no_arc_reason: vec![None; s.sites.len()],
+        };
+        let priority = vec![1.0; s.sites.len()];
+        let usable = |monday: u32| {
+            let mut s2 = s.clone();
+            for sup in &mut s2.supply {
+                if sup.date == s2.week_start {
+                    sup.vials = monday;
+                }
+            }
+            let inst = instance::Instance::new(&s2, &priority, &arcs, &AllocOptions::default())
+                .expect("valid");
+            let left_out = inst.notes.iter().find_map(|n| match n.kind {
+                NoteKind::ArcsWithoutWholeRelease { arcs } => Some(arcs),
+                _ => None,
+            });
+            (inst.arcs.len(), left_out)
+        };
+        assert_eq!(usable(1), (0, Some(3)));
+        assert_eq!(usable(2), (2, Some(1)));
+        assert_eq!(usable(6), (2, Some(1)));
+    }
+
+    #[test]
     fn tiny_fixture_plan_is_whole_and_explained() {
         let s = tiny();
         let d = s.week_start;

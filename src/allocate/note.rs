@@ -65,6 +65,13 @@ pub enum NoteKind {
         /// Arcs left out.
         arcs: usize,
     },
+    /// Arcs left out because no whole release fits on them: the fewest vials of a release
+    /// (a request's standard vials, or a block's minimum release) exceed the maximum release
+    /// or the whole vials of the pack day, vehicle day or parcel day.
+    ArcsWithoutWholeRelease {
+        /// Arcs left out.
+        arcs: usize,
+    },
     /// A site both forced and forbidden by overrides: it is forbidden.
     ForcedAndForbidden {
         /// The site.
@@ -178,6 +185,12 @@ impl fmt::Display for NoteKind {
                 f,
                 "{arcs} arc(s) left out: no vials packed that day, or no vehicle/parcel \
                  capacity on the dispatch day"
+            ),
+            NoteKind::ArcsWithoutWholeRelease { arcs } => write!(
+                f,
+                "{arcs} arc(s) left out: no whole release fits (a minimum release or a \
+                 request's vials is more than the pack day, vehicle day or parcel day holds, \
+                 or one vial is over the maximum release)"
             ),
             NoteKind::ForcedAndForbidden { site } => {
                 write!(f, "site {site} is both forced and forbidden: forbid wins")

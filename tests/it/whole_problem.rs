@@ -224,7 +224,9 @@ fn highs_reaches_the_lp_bound_of_the_demo_and_generated_weeks() {
                 p.label,
                 p.lp_bound
             );
-            equal += 1;
+            // A week where no arc can carry a whole release exports an empty model (0 = 0):
+            // no evidence either way.
+            equal += usize::from(highs > 0.0);
         }
         // summary.json rounds to 6 decimals; the order holds beyond that.
         let t = |x: f64| 1e-6 * x.abs().max(1.0);
@@ -239,12 +241,14 @@ fn highs_reaches_the_lp_bound_of_the_demo_and_generated_weeks() {
             p.label
         );
         assert!(p.objective.is_finite() && p.lp_bound >= 0.0, "{}", p.label);
-        assert_rows_match_columns(&p.label, &p.mps);
+        if highs > 0.0 {
+            assert_rows_match_columns(&p.label, &p.mps);
+        }
     }
     // The comparison is only worth its name when most weeks plan without feedback.
     assert!(
-        equal >= 8,
-        "only {equal} of {} compared exactly",
+        equal >= 6,
+        "only {equal} of {} compared exactly with a non-zero optimum",
         planned.len()
     );
 }

@@ -20,6 +20,10 @@ def main() -> None:
             continue
         h.run()
         ms = h.getModelStatus()
+        if ms == highspy.HighsModelStatus.kModelEmpty:
+            # No column at all (no arc can carry a whole release): the optimum is 0.
+            print(f"{0.0!r} {h.getLp().sense_}")
+            continue
         if ms != highspy.HighsModelStatus.kOptimal:
             print(f"status {h.modelStatusToString(ms)}")
             continue
