@@ -49,7 +49,7 @@ def main() -> None:
         same = abs(a["lp_bound"] - b["lp_bound"]) <= 1e-6 * abs(b["lp_bound"])
         print(f"| {week} | {b['s']:.2f} | {a['s']:.2f} | {a['s'] / b['s']:.2f} | {a['mb']:.0f} "
               f"| {b['rounds']} → {a['rounds']} | {b['objective']:,.1f} | {a['objective']:,.1f} "
-              f"| {a['objective'] / a['lp_bound']:.4f} | {100 * a['gap']:.2f} % "
+              f"| {a['objective'] / a['lp_bound'] if a['lp_bound'] else 0:.4f} | {100 * a['gap']:.2f} % "
               f"| {'yes' if same else 'NO'} |", flush=True)
 
 
