@@ -196,9 +196,9 @@ impl fmt::Display for NoteKind {
                 write!(f, "site {site} is both forced and forbidden: forbid wins")
             }
             NoteKind::ForceWithoutArc { site, reason } => {
-                let why = reason
-                    .map(Reason::code)
-                    .unwrap_or("every arc was excluded or carries no live wasps");
+                let why = reason.map(Reason::code).unwrap_or(
+                    "every arc was excluded, carries no live wasps or cannot carry a whole release",
+                );
                 write!(
                     f,
                     "force of site {site} cannot be met: no usable arc ({why})"
