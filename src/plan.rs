@@ -98,7 +98,8 @@ pub fn plan_with(
     let baseline = baseline::hand_plan(&scenario, &priority, &arcs, &opts.alloc)?;
     let mut alloc_opts = opts.alloc.clone();
     alloc_opts.progress = progress.clone();
-    let first = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
+    let (first, first_lp) =
+        allocate::allocate_keeping_lp(&scenario, &priority, &arcs, &alloc_opts)?;
     // The feedback rounds re-route only the depot-days whose stops changed.
     let routes = dispatch::RouteCache::new();
     let mut dispatch_opts = dispatch::DispatchOptions::from_scenario(&scenario);
@@ -153,7 +154,12 @@ pub fn plan_with(
         .iter()
         .map(|s| (s.order_key(), s.vials))
         .collect();
-    let second = allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?;
+    // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are those
+    // of the exported model); it solves again only when the first solve had no LP.
+    let second = match &first_lp {
+        Some(lp) => allocate::allocate_from(&scenario, &priority, &arcs, &alloc_opts, lp)?,
+        None => allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?,
+    };
     let second_dispatch = route(&second);
     // A stop the re-planned routes cannot serve is dropped with its site; routing the smaller
     // plan can still leave a stop out (routes change when stops go), so repeat until every

@@ -345,10 +345,105 @@ pub fn allocate(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<Allocation, AllocError> {
+    run(scenario, priority, arcs, opts, None).map(|(a, _)| a)
+}
+
+/// [`allocate`], also returning what its LP solved (`None` when no arc is usable), for an
+/// [`allocate_from`] of the same week with some arcs excluded.
+pub fn allocate_keeping_lp(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+) -> Result<(Allocation, Option<LpSolve>), AllocError> {
+    run(scenario, priority, arcs, opts, None)
+}
+
+/// Plans the week again without solving the LP, for `opts.excluded` arcs left out of an
+/// earlier solve (the route feedback): the rounding starts from `opts.warm_plan` (else the
+/// earlier LP's vials) with candidates from the earlier LP's vials and duals, and `lp_bound`,
+/// `bound`, the marginal values and the binding rows are the earlier solve's. Leaving arcs out
+/// only shrinks the set of plans, so the earlier bounds stay upper bounds, and they are the
+/// optimum of the model `export-model` writes. When leaving the arcs out changed the share
+/// floor or a force (either can loosen the problem), the LP is solved again instead.
+pub fn allocate_from(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+    earlier: &LpSolve,
+) -> Result<Allocation, AllocError> {
+    run(scenario, priority, arcs, opts, Some(earlier)).map(|(a, _)| a)
+}
+
+/// What an LP solve of a week leaves for [`allocate_from`]: its vials and duals, bounds,
+/// marginal values, binding rows, notes and working set, and the share floor and forces it
+/// was solved with.
+#[derive(Clone, Debug)]
+pub struct LpSolve {
+    /// LP vials by arc (index into `Arcs::arcs`), the positive ones.
+    x: std::collections::BTreeMap<usize, f64>,
+    res_dual: std::collections::BTreeMap<instance::Resource, f64>,
+    share_dual: f64,
+    lp_bound: f64,
+    bound: f64,
+    marginal: Vec<f64>,
+    binding: Vec<Binding>,
+    /// The notes the LP step wrote (pricing, shortfalls, the share floor's dual).
+    notes: Vec<Note>,
+    working_set: Vec<usize>,
+    share: Option<f64>,
+    forces: Vec<(SiteIdx, Option<instance::Force>)>,
+}
+
+/// The share floor and forces of an instance, as [`LpSolve`] keeps them.
+fn floor_and_forces(
+    inst: &instance::Instance,
+) -> (Option<f64>, Vec<(SiteIdx, Option<instance::Force>)>) {
+    (
+        inst.share,
+        inst.sites
+            .iter()
+            .filter(|s| s.force.is_some())
+            .map(|s| (s.site, s.force))
+            .collect(),
+    )
+}
+
+/// The rounding's start from an earlier plan's vials per shipment (0 on arcs it did not use or
+/// that are no longer usable); its sites join the candidates.
+fn start_from_plan(
+    inst: &instance::Instance,
+    plan: &std::collections::BTreeMap<ShipmentKey, u32>,
+    cand: &mut [bool],
+) -> Vec<f64> {
+    let start: Vec<f64> = inst
+        .arcs
+        .iter()
+        .map(|a| {
+            let key = (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode);
+            plan.get(&key).map_or(0.0, |&v| f64::from(v))
+        })
+        .collect();
+    for (c, site) in cand.iter_mut().zip(&inst.sites) {
+        *c = *c || site.arcs.iter().any(|&a| start[a] > 0.0);
+    }
+    start
+}
+
+fn run(
+    scenario: &Scenario,
+    priority: &[f64],
+    arcs: &Arcs,
+    opts: &AllocOptions,
+    earlier: Option<&LpSolve>,
+) -> Result<(Allocation, Option<LpSolve>), AllocError> {
     let inst = instance::Instance::new(scenario, priority, arcs, opts)?;
     let mut notes = inst.notes.clone();
     let n = scenario.sites.len();
     let mut working_set = Vec::new();
+    let mut kept = None;
+    let earlier = earlier.filter(|e| (e.share, e.forces.clone()) == floor_and_forces(&inst));
     let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
         notes.push(Note::new(if scenario.total_supply_vials() == 0 {
             NoteKind::NoSupply
@@ -362,7 +457,35 @@ pub fn allocate(
             vec![0.0; scenario.facilities.len()],
             Vec::new(),
         )
+    } else if let Some(e) = earlier {
+        let lp_x: Vec<f64> = inst
+            .source
+            .iter()
+            .map(|src| e.x.get(src).copied().unwrap_or(0.0))
+            .collect();
+        let res_dual: Vec<f64> = inst
+            .resources
+            .iter()
+            .map(|r| e.res_dual.get(r).copied().unwrap_or(0.0))
+            .collect();
+        notes.extend(e.notes.iter().cloned());
+        let mut cand = rounding::candidates(&inst, &lp_x, &res_dual, e.share_dual, 0.0);
+        let start = if opts.warm_plan.is_empty() {
+            lp_x
+        } else {
+            start_from_plan(&inst, &opts.warm_plan, &mut cand)
+        };
+        let x = rounding::round(&inst, &start, &cand, opts.rounding_budget);
+        working_set = e.working_set.clone();
+        (
+            x,
+            e.lp_bound,
+            e.bound,
+            e.marginal.clone(),
+            e.binding.clone(),
+        )
     } else {
+        let lp_notes = notes.len();
         let relax = master::solve_relaxation(&inst, opts).map_err(|source| AllocError::Solver {
             scenario: scenario.name.clone(),
             source,
@@ -442,21 +565,8 @@ pub fn allocate(
             rounding::candidates(&inst, &relax.x, &relax.res_dual, relax.share_dual, 0.0);
         // A re-solve rounds from the earlier plan (`AllocOptions::warm_plan`), else from the LP.
         let warm = !opts.warm_plan.is_empty();
-        let earlier: Option<Vec<f64>> = warm.then(|| {
-            let start: Vec<f64> = inst
-                .arcs
-                .iter()
-                .map(|a| {
-                    let key = (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode);
-                    opts.warm_plan.get(&key).map_or(0.0, |&v| f64::from(v))
-                })
-                .collect();
-            for (c, site) in cand.iter_mut().zip(&inst.sites) {
-                *c = *c || site.arcs.iter().any(|&a| start[a] > 0.0);
-            }
-            start
-        });
-        let start = earlier.as_deref().unwrap_or(&relax.x);
+        let from_plan = warm.then(|| start_from_plan(&inst, &opts.warm_plan, &mut cand));
+        let start = from_plan.as_deref().unwrap_or(&relax.x);
         let mut x = rounding::round(&inst, start, &cand, opts.rounding_budget);
         let mut lower = objective_of(&inst, scenario, &shipments_of(&inst, &x));
         let (bound, guides) = bound::whole_vial_bound(
@@ -510,6 +620,31 @@ pub fn allocate(
             }
         }
         working_set = relax.working_set.clone();
+        let (share, forces) = floor_and_forces(&inst);
+        kept = Some(LpSolve {
+            x: inst
+                .source
+                .iter()
+                .zip(&relax.x)
+                .filter(|(_, v)| **v > 0.0)
+                .map(|(&src, &v)| (src, v))
+                .collect(),
+            res_dual: inst
+                .resources
+                .iter()
+                .cloned()
+                .zip(relax.res_dual.iter().copied())
+                .collect(),
+            share_dual: relax.share_dual,
+            lp_bound: sol.objective,
+            bound,
+            marginal: marginal.clone(),
+            binding: binding.clone(),
+            notes: notes[lp_notes..].to_vec(),
+            working_set: working_set.clone(),
+            share,
+            forces,
+        });
         (x, sol.objective, bound, marginal, binding)
     };
     let shipments = shipments_of(&inst, &x);
@@ -564,18 +699,21 @@ pub fn allocate(
     }
     check_bound_order(&scenario.name, objective, bound, lp_bound)?;
     let gap = gap(objective, bound);
-    Ok(Allocation {
-        shipments,
-        sites,
-        lp_bound,
-        bound,
-        objective,
-        gap,
-        marginal_value_per_vial: marginal,
-        binding,
-        notes,
-        working_set,
-    })
+    Ok((
+        Allocation {
+            shipments,
+            sites,
+            lp_bound,
+            bound,
+            objective,
+            gap,
+            marginal_value_per_vial: marginal,
+            binding,
+            notes,
+            working_set,
+        },
+        kept,
+    ))
 }
 
 #[cfg(test)]

@@ -530,6 +530,44 @@ fn a_resolve_from_the_earlier_plan_keeps_its_value_and_every_limit() {
     assert!(b.gap <= 0.01, "gap {}", b.gap);
 }
 
+#[test]
+fn a_replan_from_the_first_lp_keeps_its_bounds_and_every_limit() {
+    // As plan's route feedback does: three served arcs removed, no second LP.
+    let (s, p, arcs) = synthetic::generate(13, 2000, 400);
+    let (first, lp) =
+        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
+    let lp = lp.expect("the week has usable arcs");
+    let excluded = first_arcs(&first, 3);
+    let opts = AllocOptions {
+        excluded: excluded.clone(),
+        warm_plan: first
+            .shipments
+            .iter()
+            .map(|sh| (sh.order_key(), sh.vials))
+            .collect(),
+        ..always_priced()
+    };
+    let b = broodcast::allocate::allocate_from(&s, &p, &arcs, &opts, &lp).expect("valid");
+    check_invariants(&s, &p, &arcs, &b);
+    for sh in &b.shipments {
+        let a = &sh.arc;
+        assert!(!excluded.contains(&(a.facility, a.dispatch_date, a.site, a.mode)));
+    }
+    // The first solve's bounds: upper bounds still (arcs were only removed), and those of the
+    // model export-model writes.
+    assert_eq!(b.lp_bound, first.lp_bound);
+    assert_eq!(b.bound, first.bound);
+    // As good as solving the LP again, within the gap the re-solve itself reports.
+    let again = allocate(&s, &p, &arcs, &opts).expect("valid");
+    assert!(
+        b.objective >= again.objective * (1.0 - 0.01),
+        "{} against a re-solve's {}",
+        b.objective,
+        again.objective
+    );
+    assert!(b.gap <= 0.01, "gap {}", b.gap);
+}
+
 fn check_invariants(s: &Scenario, p: &[f64], arcs: &Arcs, a: &Allocation) {
     let (door, total) = util::check_whole_vial_limits(s, a);
     // The floor as the model keeps it (typed, not read from a note): dropped when no request
