@@ -568,6 +568,48 @@ fn a_replan_from_the_first_lp_keeps_its_bounds_and_every_limit() {
     assert!(b.gap <= 0.01, "gap {}", b.gap);
 }
 
+#[test]
+fn a_replan_that_loosens_the_share_floor_solves_the_lp_again() {
+    // Every request's arcs removed: the share floor is dropped, a looser problem than the
+    // first LP's, whose bounds may then be too low; the re-plan must solve again.
+    let (mut s, mut p, arcs) = synthetic::generate(13, 400, 300);
+    s.policy.dooryard_share_min = 0.3;
+    // Requests worth little: the floor costs the first plan value.
+    for (i, site) in s.sites.iter().enumerate() {
+        if site.kind() == SiteKind::Dooryard {
+            p[i] *= 0.01;
+        }
+    }
+    let (first, lp) =
+        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
+    let lp = lp.expect("the week has usable arcs");
+    let excluded: std::collections::BTreeSet<ArcKey> = arcs
+        .arcs
+        .iter()
+        .filter(|a| s.sites[a.site].kind() == SiteKind::Dooryard)
+        .map(|a| (a.facility, a.dispatch_date, a.site, a.mode))
+        .collect();
+    assert!(!excluded.is_empty());
+    let opts = AllocOptions {
+        excluded,
+        ..always_priced()
+    };
+    let b = broodcast::allocate::allocate_from(&s, &p, &arcs, &opts, &lp).expect("valid");
+    let fresh = allocate(&s, &p, &arcs, &opts).expect("valid");
+    assert_eq!(b.lp_bound, fresh.lp_bound);
+    assert_eq!(b.bound, fresh.bound);
+    assert_eq!(b.objective, fresh.objective);
+    // Without the floor the blocks take what the requests held: the bound rises.
+    assert!(
+        b.lp_bound > first.lp_bound,
+        "{} against {}",
+        b.lp_bound,
+        first.lp_bound
+    );
+    util::check_whole_vial_limits(&s, &b);
+    assert!(b.objective <= b.bound + 1e-6 * b.bound.abs().max(1.0));
+}
+
 fn check_invariants(s: &Scenario, p: &[f64], arcs: &Arcs, a: &Allocation) {
     let (door, total) = util::check_whole_vial_limits(s, a);
     // The floor as the model keeps it (typed, not read from a note): dropped when no request
