@@ -290,20 +290,13 @@ impl<'a> Instance<'a> {
                 force,
             });
         }
-        // A request is served with exactly its standard vials on one arc, so only an arc
-        // that carries them within max_release_wasps and whose pack day, vehicle day or
-        // parcel day holds that many whole vials can count toward the share floor (e.g.
-        // 10,000 vials a request, or pack days of one vial: the floor held every vial at
-        // home).
+        // A request is served with exactly its standard vials on one arc; every usable arc
+        // carries them within max_release_wasps and within its pack day's, vehicle day's or
+        // parcel day's whole vials (`whole_release_fits`), so a request with a usable arc can
+        // count toward the share floor (e.g. 10,000 vials a request, or pack days of one
+        // vial: the floor held every vial at home).
         let per_request = f64::from(policy.dooryard_vials_per_request);
-        let serving_arc = |a: usize| {
-            per_request * usable[a].wasps_alive_per_vial <= agent.max_release_wasps * (1.0 + 1e-9)
-                && arc_res[a]
-                    .iter()
-                    .all(|&r| per_request <= (res_rhs[r] + 1e-9).floor())
-        };
-        let servable =
-            |s: &&SiteData| s.kind == SiteKind::Dooryard && s.arcs.iter().any(|&a| serving_arc(a));
+        let servable = |s: &&SiteData| s.kind == SiteKind::Dooryard && !s.arcs.is_empty();
         let has_door = sites.iter().any(|s| servable(&s));
         let share = if policy.dooryard_share_min > 0.0 {
             if has_door {
@@ -315,13 +308,7 @@ impl<'a> Instance<'a> {
                 let request_days: Vec<Vec<usize>> = sites
                     .iter()
                     .filter(servable)
-                    .map(|s| {
-                        s.arcs
-                            .iter()
-                            .filter(|&&a| serving_arc(a))
-                            .map(|&a| arc_res[a][0])
-                            .collect()
-                    })
+                    .map(|s| s.arcs.iter().map(|&a| arc_res[a][0]).collect())
                     .collect();
                 let per_day: Vec<u64> = resources
                     .iter()
