@@ -149,13 +149,10 @@ pub fn plan_with(
     progress.report(Step::Replan);
     alloc_opts.excluded.extend(removed);
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
-    alloc_opts.warm_plan = first
-        .shipments
-        .iter()
-        .map(|s| (s.order_key(), s.vials))
-        .collect();
+    alloc_opts.warm_plan = first.planned_vials();
     // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are those
-    // of the exported model); it solves again only when the first solve had no LP.
+    // of the exported model); it solves again when the first solve had no LP, and
+    // `allocate_from` does when the exclusions loosen the share floor or a force.
     let second = match &first_lp {
         Some(lp) => allocate::allocate_from(&scenario, &priority, &arcs, &alloc_opts, lp)?,
         None => allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?,

@@ -345,7 +345,7 @@ pub fn allocate(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<Allocation, AllocError> {
-    run(scenario, priority, arcs, opts, None).map(|(a, _)| a)
+    run(scenario, priority, arcs, opts, None, false).map(|(a, _)| a)
 }
 
 /// [`allocate`], also returning what its LP solved (`None` when no arc is usable), for an
@@ -356,7 +356,7 @@ pub fn allocate_keeping_lp(
     arcs: &Arcs,
     opts: &AllocOptions,
 ) -> Result<(Allocation, Option<LpSolve>), AllocError> {
-    run(scenario, priority, arcs, opts, None)
+    run(scenario, priority, arcs, opts, None, true)
 }
 
 /// Plans the week again without solving the LP, for `opts.excluded` arcs left out of an
@@ -373,7 +373,7 @@ pub fn allocate_from(
     opts: &AllocOptions,
     earlier: &LpSolve,
 ) -> Result<Allocation, AllocError> {
-    run(scenario, priority, arcs, opts, Some(earlier)).map(|(a, _)| a)
+    run(scenario, priority, arcs, opts, Some(earlier), false).map(|(a, _)| a)
 }
 
 /// What an LP solve of a week leaves for [`allocate_from`]: its vials and duals, bounds,
@@ -421,8 +421,8 @@ fn start_from_plan(
         .arcs
         .iter()
         .map(|a| {
-            let key = (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode);
-            plan.get(&key).map_or(0.0, |&v| f64::from(v))
+            plan.get(&result::order_key(a))
+                .map_or(0.0, |&v| f64::from(v))
         })
         .collect();
     for (c, site) in cand.iter_mut().zip(&inst.sites) {
@@ -437,13 +437,15 @@ fn run(
     arcs: &Arcs,
     opts: &AllocOptions,
     earlier: Option<&LpSolve>,
+    keep_lp: bool,
 ) -> Result<(Allocation, Option<LpSolve>), AllocError> {
     let inst = instance::Instance::new(scenario, priority, arcs, opts)?;
     let mut notes = inst.notes.clone();
     let n = scenario.sites.len();
     let mut working_set = Vec::new();
     let mut kept = None;
-    let earlier = earlier.filter(|e| (e.share, e.forces.clone()) == floor_and_forces(&inst));
+    let (share, forces) = floor_and_forces(&inst);
+    let earlier = earlier.filter(|e| e.share == share && e.forces == forces);
     let (x, lp_bound, bound, marginal, binding) = if inst.arcs.is_empty() {
         notes.push(Note::new(if scenario.total_supply_vials() == 0 {
             NoteKind::NoSupply
@@ -620,8 +622,7 @@ fn run(
             }
         }
         working_set = relax.working_set.clone();
-        let (share, forces) = floor_and_forces(&inst);
-        kept = Some(LpSolve {
+        kept = keep_lp.then(|| LpSolve {
             x: inst
                 .source
                 .iter()

@@ -25,9 +25,13 @@ impl Shipment {
 
     /// The order of `Allocation::shipments`: (facility, dispatch date, site, pack date, mode).
     pub fn order_key(&self) -> super::ShipmentKey {
-        let a = &self.arc;
-        (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode)
+        order_key(&self.arc)
     }
+}
+
+/// An arc's [`Shipment::order_key`].
+pub(crate) fn order_key(a: &Arc) -> super::ShipmentKey {
+    (a.facility, a.dispatch_date, a.site, a.pack_date, a.mode)
 }
 
 /// What one site got, and why not when it got nothing.
@@ -89,4 +93,15 @@ pub struct Allocation {
     /// The LP's final working set, as indices into `Arcs::arcs` (see
     /// [`AllocOptions::warm_start`](super::AllocOptions::warm_start)).
     pub working_set: Vec<usize>,
+}
+
+impl Allocation {
+    /// Vials per shipment, by [`Shipment::order_key`]: the form
+    /// [`AllocOptions::warm_plan`](super::AllocOptions::warm_plan) takes.
+    pub fn planned_vials(&self) -> std::collections::BTreeMap<super::ShipmentKey, u32> {
+        self.shipments
+            .iter()
+            .map(|s| (s.order_key(), s.vials))
+            .collect()
+    }
 }

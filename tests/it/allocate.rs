@@ -496,11 +496,7 @@ fn a_resolve_from_the_earlier_plan_keeps_its_value_and_every_limit() {
     // As plan's route feedback does: the re-solve rounds from the first plan.
     let (s, p, arcs) = synthetic::generate(13, 2000, 400);
     let first = allocate(&s, &p, &arcs, &always_priced()).expect("valid");
-    let warm_plan: std::collections::BTreeMap<_, _> = first
-        .shipments
-        .iter()
-        .map(|sh| (sh.order_key(), sh.vials))
-        .collect();
+    let warm_plan = first.planned_vials();
     // Nothing removed: the rounding starts from the first plan and only keeps improvements.
     let same = AllocOptions {
         warm_plan: warm_plan.clone(),
@@ -540,11 +536,7 @@ fn a_replan_from_the_first_lp_keeps_its_bounds_and_every_limit() {
     let excluded = first_arcs(&first, 3);
     let opts = AllocOptions {
         excluded: excluded.clone(),
-        warm_plan: first
-            .shipments
-            .iter()
-            .map(|sh| (sh.order_key(), sh.vials))
-            .collect(),
+        warm_plan: first.planned_vials(),
         ..always_priced()
     };
     let b = broodcast::allocate::allocate_from(&s, &p, &arcs, &opts, &lp).expect("valid");

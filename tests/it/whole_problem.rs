@@ -237,9 +237,9 @@ fn highs_reaches_the_lp_bound_of_the_demo_and_generated_weeks() {
             assert_rows_match_columns(&p.label, &p.mps);
         }
     }
-    // The comparison is only worth its name when most weeks plan without feedback.
+    // The comparison is only worth its name when most weeks have something to ship.
     assert!(
-        equal >= 6,
+        equal >= 8,
         "only {equal} of {} compared exactly with a non-zero optimum",
         planned.len()
     );
