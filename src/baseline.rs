@@ -309,9 +309,15 @@ pub fn hand_plan(
     };
     // Less a hair, so that 0.2 × 15 = 3.0000000000000004 asks for 3 vials, not 4.
     let quota = (share * supply as f64 - 1e-9).ceil().max(0.0) as u64;
+    // Kept up to date as releases are chosen: recounting every site per request would make
+    // this loop quadratic in the week's sites.
+    let mut door = door_vials(&hand.chosen);
     let mut next_request = 0;
-    while next_request < requests.len() && door_vials(&hand.chosen) < quota {
-        hand.serve(requests[next_request].2, None);
+    while next_request < requests.len() && door < quota {
+        let s = requests[next_request].2;
+        if hand.serve(s, None) {
+            door += hand.chosen[s].as_ref().map_or(0, |sh| u64::from(sh.vials));
+        }
         next_request += 1;
     }
     // 3. Blocks by scouting count, highest first; none without an adult counted.
@@ -335,13 +341,19 @@ pub fn hand_plan(
         hand.serve(s, None);
     }
     // 5. Keep the dooryard share: take back the last block releases until it holds.
-    let shipped = |chosen: &[Option<Shipment>]| -> u64 {
-        chosen.iter().flatten().map(|sh| u64::from(sh.vials)).sum()
-    };
-    while (door_vials(&hand.chosen) as f64) < share * shipped(&hand.chosen) as f64 - 1e-9 {
+    // Only block releases are taken back, so the dooryard vials stay as they are.
+    let door = door_vials(&hand.chosen);
+    let mut shipped: u64 = hand
+        .chosen
+        .iter()
+        .flatten()
+        .map(|sh| u64::from(sh.vials))
+        .sum();
+    while (door as f64) < share * shipped as f64 - 1e-9 {
         let Some(s) = block_order.pop() else { break };
         if let Some(sh) = hand.chosen[s].take() {
             hand.left.change(&sh.arc, sh.vials, false);
+            shipped -= u64::from(sh.vials);
         }
     }
     let mut shipments: Vec<Shipment> = hand.chosen.into_iter().flatten().collect();

@@ -95,11 +95,16 @@ pub fn plan_with(
     });
     let arcs = arcs::build_arcs(&scenario, travel);
     progress.report(Step::HandPlan);
-    let baseline = baseline::hand_plan(&scenario, &priority, &arcs, &opts.alloc)?;
     let mut alloc_opts = opts.alloc.clone();
     alloc_opts.progress = progress.clone();
-    let (first, first_lp) =
-        allocate::allocate_keeping_lp(&scenario, &priority, &arcs, &alloc_opts)?;
+    // The hand plan and the allocation are independent, and the allocation runs mostly on one
+    // core: the hand plan takes the other (about 1 s of a 35,000-site week).
+    let (baseline, allocated) = rayon::join(
+        || baseline::hand_plan(&scenario, &priority, &arcs, &opts.alloc),
+        || allocate::allocate_keeping_lp(&scenario, &priority, &arcs, &alloc_opts),
+    );
+    let baseline = baseline?;
+    let (first, first_lp) = allocated?;
     // The feedback rounds re-route only the depot-days whose stops changed.
     let routes = dispatch::RouteCache::new();
     let mut dispatch_opts = dispatch::DispatchOptions::from_scenario(&scenario);
