@@ -231,7 +231,14 @@ impl State<'_> {
 
     /// Regret-2 insertion of `pending` (see the module doc; `open`: unused vehicles may be
     /// opened); returns those that fit nowhere.
-    /// O(p² · (routes + kinds) · L) for p pending customers.
+    ///
+    /// Each pending customer's cheapest place per route is kept between steps: a placement
+    /// changes one route, and a route's places depend only on its own stops and on which
+    /// vehicles are unused, so only that route is priced again, unless the placement opened a
+    /// vehicle or moved a route to another one (then every route is). The same places, in the
+    /// same order, as pricing every route at every step.
+    /// O(p · (routes + kinds) · L + p² · L) for p pending customers (O(p² · (routes + kinds)
+    /// · L) when every step opens or moves a vehicle).
     fn recreate_regret(
         &mut self,
         mut pending: Vec<usize>,
@@ -239,14 +246,16 @@ impl State<'_> {
         changed: &mut [bool],
     ) -> Vec<usize> {
         let mut left = Vec::new();
+        let mut places: Vec<Vec<Option<Place>>> =
+            pending.iter().map(|&u| self.places(u, open)).collect();
         while !pending.is_empty() {
             // (regret, cheapest place, index in pending); a customer with one place has
             // infinite regret.
             let mut pick: Option<(f64, Place, usize)> = None;
             let mut stuck = Vec::new();
-            for (i, &u) in pending.iter().enumerate() {
+            for (i, at) in places.iter().enumerate() {
                 let (mut first, mut second): (Option<Place>, f64) = (None, f64::INFINITY);
-                for p in self.places(u, open) {
+                for &p in at.iter().flatten() {
                     match first {
                         Some(f) if p.0 < f.0 - EPS => {
                             second = f.0;
@@ -270,26 +279,49 @@ impl State<'_> {
             }
             for &i in stuck.iter().rev() {
                 left.push(pending.remove(i));
+                places.remove(i);
             }
             let Some((_, place, i)) = pick else { break };
             let i = i - stuck.iter().filter(|&&s| s < i).count();
             let u = pending.remove(i);
+            places.remove(i);
+            let unused: Vec<bool> = self.routes.iter().map(|r| r.nodes.is_empty()).collect();
             self.place(u, place, changed);
+            let same_unused = self
+                .routes
+                .iter()
+                .zip(&unused)
+                .all(|(r, &was)| r.nodes.is_empty() == was);
+            for (at, &w) in places.iter_mut().zip(&pending) {
+                if same_unused {
+                    // The placement stayed on route place.1, which was in use.
+                    let r = place.1;
+                    at[r] = self.best_insert(r, w).map(|(add, k, v)| (add, r, k, v));
+                } else {
+                    *at = self.places(w, open);
+                }
+            }
         }
         left.sort_unstable();
         left
     }
 
-    /// The cheapest place for `u` on each route and, when `open`, each kind of unused vehicle.
-    fn places(&self, u: usize, open: bool) -> Vec<Place> {
+    /// The cheapest place for `u` on each route and, when `open`, each kind of unused vehicle,
+    /// by route index (None: no place there, or an unused vehicle not tried).
+    fn places(&self, u: usize, open: bool) -> Vec<Option<Place>> {
         let fresh = if open {
             self.empty_kinds(&[])
         } else {
             Vec::new()
         };
         (0..self.routes.len())
-            .filter(|&r| !self.routes[r].nodes.is_empty() || fresh.contains(&r))
-            .filter_map(|r| self.best_insert(r, u).map(|(add, k, v)| (add, r, k, v)))
+            .map(|r| {
+                if self.routes[r].nodes.is_empty() && !fresh.contains(&r) {
+                    None
+                } else {
+                    self.best_insert(r, u).map(|(add, k, v)| (add, r, k, v))
+                }
+            })
             .collect()
     }
 
