@@ -6,7 +6,7 @@
 //! vehicle capacity per depot and day, or the parcel cap per day), the site release limits,
 //! the forces and the dooryard share floor as kept (lowered or dropped with a note).
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 
 use chrono::NaiveDate;
 
@@ -171,6 +171,15 @@ impl<'a> Instance<'a> {
                 resources.len() - 1
             })
         };
+        /// An arc's pack-day supply and its vehicle-day or parcel-day row with that row's
+        /// capacity (vials), and the two row indices once a usable arc draws on them.
+        struct Rows {
+            supply: f64,
+            second: Resource,
+            second_rhs: f64,
+            index: Option<[usize; 2]>,
+        }
+        let mut rows_of: HashMap<(FacilityIdx, NaiveDate, Mode, NaiveDate), Rows> = HashMap::new();
         let mut usable: Vec<&Arc> = Vec::new();
         let mut source: Vec<usize> = Vec::new();
         let mut arc_res = Vec::new();
@@ -208,33 +217,50 @@ impl<'a> Instance<'a> {
                 dead += 1;
                 continue;
             }
-            let sup = supply
-                .get(&(a.facility, a.pack_date))
-                .copied()
-                .unwrap_or(0.0);
-            let second = match a.mode {
-                Mode::Route => (
-                    Resource::Capacity(a.facility, a.dispatch_date),
-                    capacity
-                        .get(&(a.facility, a.dispatch_date))
-                        .copied()
-                        .unwrap_or(0.0),
-                ),
-                Mode::Parcel => (
-                    Resource::Parcel(a.dispatch_date),
-                    f64::from(scenario.parcel.max_vials_per_day),
-                ),
-            };
-            if sup <= 0.0 || second.1 <= 0.0 {
+            // The rows an arc draws on, looked up once per (facility, pack day, mode,
+            // dispatch day) rather than in three ordered maps per arc (millions of arcs share
+            // a few hundred keys).
+            let key = (a.facility, a.pack_date, a.mode, a.dispatch_date);
+            let rows = rows_of.entry(key).or_insert_with(|| {
+                let supply = supply
+                    .get(&(a.facility, a.pack_date))
+                    .copied()
+                    .unwrap_or(0.0);
+                let (second, second_rhs) = match a.mode {
+                    Mode::Route => (
+                        Resource::Capacity(a.facility, a.dispatch_date),
+                        capacity
+                            .get(&(a.facility, a.dispatch_date))
+                            .copied()
+                            .unwrap_or(0.0),
+                    ),
+                    Mode::Parcel => (
+                        Resource::Parcel(a.dispatch_date),
+                        f64::from(scenario.parcel.max_vials_per_day),
+                    ),
+                };
+                Rows {
+                    supply,
+                    second,
+                    second_rhs,
+                    index: None,
+                }
+            });
+            if rows.supply <= 0.0 || rows.second_rhs <= 0.0 {
                 no_resource += 1;
                 continue;
             }
-            if !whole_release_fits(scenario, a, sup, second.1) {
+            if !whole_release_fits(scenario, a, rows.supply, rows.second_rhs) {
                 too_small += 1;
                 continue;
             }
-            let r0 = res_of(Resource::Supply(a.facility, a.pack_date), sup);
-            let r1 = res_of(second.0, second.1);
+            // Rows are numbered in the order the first usable arc on them is met.
+            let [r0, r1] = *rows.index.get_or_insert_with(|| {
+                [
+                    res_of(Resource::Supply(a.facility, a.pack_date), rows.supply),
+                    res_of(rows.second.clone(), rows.second_rhs),
+                ]
+            });
             arc_res.push([r0, r1]);
             cost.push(policy.travel_cost_per_hour * a.drive_minutes.max(0.0) / 60.0);
             usable.push(a);
@@ -256,15 +282,18 @@ impl<'a> Instance<'a> {
                 arcs: too_small,
             }));
         }
-        let mut by_site: BTreeMap<SiteIdx, Vec<usize>> = BTreeMap::new();
+        // Indexed by site (a map keyed by site cost a tree search per arc: a third of this
+        // function on a 35,000-site week); sites without usable arcs stay empty and are
+        // skipped below, so sites come in increasing index as before.
+        let mut by_site: Vec<Vec<usize>> = vec![Vec::new(); n];
         for (i, a) in usable.iter().enumerate() {
-            by_site.entry(a.site).or_default().push(i);
+            by_site[a.site].push(i);
         }
         for &s in force.keys() {
             let site = scenario.sites[s].id.clone();
             if forbidden[s] {
                 notes.push(Note::new(NoteKind::ForcedAndForbidden { site }));
-            } else if !by_site.contains_key(&s) {
+            } else if by_site[s].is_empty() {
                 notes.push(Note::new(NoteKind::ForceWithoutArc {
                     site,
                     reason: arcs.no_arc_reason[s],
@@ -273,7 +302,10 @@ impl<'a> Instance<'a> {
         }
         let mut sites = Vec::new();
         let mut arc_site = vec![0; usable.len()];
-        for (s, list) in by_site {
+        for (s, list) in by_site.into_iter().enumerate() {
+            if list.is_empty() {
+                continue;
+            }
             for &a in &list {
                 arc_site[a] = sites.len();
             }
