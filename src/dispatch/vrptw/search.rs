@@ -272,6 +272,8 @@ pub(super) fn ils<'a>(
     // slot then takes the current solution's drive (plus penalty).
     let mut history = vec![cur.key().1; HISTORY];
     let mut last_best = 0u32;
+    // The round's candidate, copied from `cur` into the same buffers each round.
+    let mut cand = cur.clone();
     for it in 0..rounds {
         if it - last_best >= stall {
             break;
@@ -281,7 +283,7 @@ pub(super) fn ils<'a>(
         {
             return (best, true);
         }
-        let mut cand = cur.clone();
+        cand.clone_from(&cur);
         cand.tw_weight = weight;
         let changed = cand.ruin_and_recreate(rng);
         // The search starts from the customers the ruin and recreate moved or gave new
@@ -327,10 +329,10 @@ pub(super) fn ils<'a>(
             cand.local_search(None);
             cand.tw_weight = weight;
             last_best = it;
-            best = cand.clone();
-            cur = cand;
+            best.clone_from(&cand);
+            std::mem::swap(&mut cur, &mut cand);
         } else if cu < uu || (cu == uu && (cd <= ud + EPS || cd <= history[slot] + EPS)) {
-            cur = cand;
+            std::mem::swap(&mut cur, &mut cand);
         }
         history[slot] = cur.key().1;
     }

@@ -6,7 +6,6 @@ use super::segment::{Data, EPS, FEAS_EPS, Seg};
 use super::{Infeasibility, RoutePlan, Solution};
 
 /// One vehicle's route.
-#[derive(Clone)]
 pub(super) struct Route {
     /// Customer nodes in visiting order.
     pub(super) nodes: Vec<usize>,
@@ -19,6 +18,26 @@ pub(super) struct Route {
     pub(super) late: f64,
 }
 
+// By hand, so that `clone_from` reuses the buffers: the search copies its current solution
+// into a candidate every round.
+impl Clone for Route {
+    fn clone(&self) -> Self {
+        Route {
+            nodes: self.nodes.clone(),
+            pre: self.pre.clone(),
+            suf: self.suf.clone(),
+            late: self.late,
+        }
+    }
+
+    fn clone_from(&mut self, source: &Self) {
+        self.nodes.clone_from(&source.nodes);
+        self.pre.clone_from(&source.pre);
+        self.suf.clone_from(&source.suf);
+        self.late = source.late;
+    }
+}
+
 impl Route {
     /// The whole run, no depot.
     pub(super) fn body(&self) -> &Seg {
@@ -29,7 +48,6 @@ impl Route {
 /// A change to some routes: each listed vehicle gets the listed nodes (empty: unused).
 pub(super) struct Move(pub(super) Vec<(usize, Vec<usize>)>);
 
-#[derive(Clone)]
 pub(super) struct State<'a> {
     pub(super) data: &'a Data<'a>,
     /// One route per vehicle, index = vehicle.
@@ -41,6 +59,27 @@ pub(super) struct State<'a> {
     /// returning after the end of shift); infinite: every route must fit its vehicle. A finite
     /// weight lets the search pass through routes that are late (see `search.rs`).
     pub(super) tw_weight: f64,
+}
+
+// By hand, as for [`Route`].
+impl Clone for State<'_> {
+    fn clone(&self) -> Self {
+        State {
+            data: self.data,
+            routes: self.routes.clone(),
+            at: self.at.clone(),
+            unserved: self.unserved.clone(),
+            tw_weight: self.tw_weight,
+        }
+    }
+
+    fn clone_from(&mut self, source: &Self) {
+        self.data = source.data;
+        self.routes.clone_from(&source.routes);
+        self.at.clone_from(&source.at);
+        self.unserved.clone_from(&source.unserved);
+        self.tw_weight = source.tw_weight;
+    }
 }
 
 impl<'a> State<'a> {
