@@ -1,16 +1,18 @@
 //! The week's pipeline: scenario → priority → arcs → allocation → dispatch, with one round of
 //! route feedback, and the same week planned by hand beside it ([`crate::baseline`]). Takes typed values, returns typed values; reads and prints nothing.
 
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
+
+use chrono::NaiveDate;
 
 use crate::allocate::{self, AllocError, AllocOptions, Allocation};
-use crate::arcs::{self, Arcs};
+use crate::arcs::{self, Arcs, Mode};
 use crate::baseline::{self, Baseline};
 use crate::dispatch::{self, Dispatch};
 use crate::eligibility::Reason;
 use crate::pressure::{self, PressureParams};
 use crate::progress::{Progress, Step};
-use crate::scenario::Scenario;
+use crate::scenario::{FacilityIdx, Scenario};
 use crate::travel::TravelModel;
 
 /// Everything `plan` computed for the week.
@@ -151,8 +153,40 @@ pub fn plan_with(
             u.reason
         ));
     }
+    // A depot-day whose routes left stops out is full as the routes found it: the re-plan
+    // may send by route from it at most the vials they delivered, so the stops it takes away
+    // (and others) go to other days, facilities or parcels rather than back into the same
+    // shift. A restriction of the week, so the first LP's bounds still hold.
+    let mut full: BTreeMap<(FacilityIdx, NaiveDate), u32> = BTreeMap::new();
+    for u in &first_dispatch.undeliverable {
+        let a = &first.shipments[u.shipment].arc;
+        if a.mode == Mode::Route {
+            full.insert((a.facility, a.dispatch_date), 0);
+        }
+    }
+    for r in &first_dispatch.routes {
+        if let Some(v) = full.get_mut(&(r.depot, r.date)) {
+            *v += r.vials();
+        }
+    }
+    for (&(f, date), &delivered) in &full {
+        let planned: u32 = first
+            .shipments
+            .iter()
+            .filter(|s| {
+                s.arc.mode == Mode::Route && s.arc.facility == f && s.arc.dispatch_date == date
+            })
+            .map(|s| s.vials)
+            .sum();
+        moved.push(format!(
+            "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
+             the re-plan sends at most {delivered} vials by route from it that day",
+            scenario.facilities[f].id
+        ));
+    }
     progress.report(Step::Replan);
     alloc_opts.excluded.extend(removed);
+    alloc_opts.route_vials_cap.extend(full);
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
     alloc_opts.warm_plan = first.planned_vials();
     // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are those

@@ -161,6 +161,11 @@ impl<'a> Instance<'a> {
                 }
             }
         }
+        for (key, &cap) in &opts.route_vials_cap {
+            if let Some(c) = capacity.get_mut(key) {
+                *c = c.min(f64::from(cap));
+            }
+        }
         let mut res_index: BTreeMap<Resource, usize> = BTreeMap::new();
         let mut resources = Vec::new();
         let mut res_rhs = Vec::new();

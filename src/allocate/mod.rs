@@ -74,6 +74,12 @@ pub struct AllocOptions {
     /// 20,000-site (2× supply) weeks, the feedback's re-solve this way gave +0.02 % and
     /// +0.30 % in 0.77× and 0.87× the `plan` time. Empty (the default): round from the LP.
     pub warm_plan: std::collections::BTreeMap<ShipmentKey, u32>,
+    /// Most vials the routes of a depot-day, by (facility, dispatch date), may carry: a lower
+    /// limit than its vehicles' summed capacity, e.g. what the routes delivered when they
+    /// could not serve every stop (set by the route feedback, so that the re-plan sends the
+    /// stops it takes away elsewhere, not back to a depot-day whose shift is already full).
+    /// Empty (the default): the fleet's capacity.
+    pub route_vials_cap: std::collections::BTreeMap<(FacilityIdx, NaiveDate), u32>,
     /// Solver of the LP relaxation (default clarabel; HiGHS with the `highs` feature). Both
     /// reach the same bound; the LP solution, and so the rounded plan, may differ (HiGHS
     /// returns a vertex, clarabel a point inside the optimal face).
@@ -92,6 +98,7 @@ impl Default for AllocOptions {
             bound_steps: 1000,
             warm_start: BTreeSet::new(),
             warm_plan: std::collections::BTreeMap::new(),
+            route_vials_cap: std::collections::BTreeMap::new(),
             solver: model::Solver::default(),
             progress: crate::progress::Progress::default(),
         }

@@ -561,6 +561,58 @@ fn a_replan_from_the_first_lp_keeps_its_bounds_and_every_limit() {
 }
 
 #[test]
+fn a_replan_with_a_full_depot_day_sends_at_most_its_cap_by_route() {
+    // As plan's route feedback does when a depot-day's routes leave stops out: the re-plan
+    // may send by route from that depot-day at most what the routes delivered.
+    let (s, p, arcs) = synthetic::generate(13, 2000, 400);
+    let (first, lp) =
+        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
+    let lp = lp.expect("the week has usable arcs");
+    let mut by_day: BTreeMap<_, u32> = BTreeMap::new();
+    for sh in first
+        .shipments
+        .iter()
+        .filter(|sh| sh.arc.mode == Mode::Route)
+    {
+        *by_day
+            .entry((sh.arc.facility, sh.arc.dispatch_date))
+            .or_default() += sh.vials;
+    }
+    // The busiest depot-day, capped at two thirds of what the first plan sent from it.
+    let (&day, &planned) = by_day
+        .iter()
+        .max_by_key(|(k, v)| (**v, std::cmp::Reverse(**k)))
+        .expect("the first plan uses a route");
+    let cap = planned * 2 / 3;
+    assert!(cap < planned);
+    let opts = AllocOptions {
+        route_vials_cap: [(day, cap)].into_iter().collect(),
+        warm_plan: first.planned_vials(),
+        ..always_priced()
+    };
+    for b in [
+        broodcast::allocate::allocate_from(&s, &p, &arcs, &opts, &lp).expect("valid"),
+        allocate(&s, &p, &arcs, &opts).expect("valid"),
+    ] {
+        check_invariants(&s, &p, &arcs, &b);
+        let sent: u32 = b
+            .shipments
+            .iter()
+            .filter(|sh| {
+                sh.arc.mode == Mode::Route && (sh.arc.facility, sh.arc.dispatch_date) == day
+            })
+            .map(|sh| sh.vials)
+            .sum();
+        assert!(
+            sent <= cap,
+            "{sent} vials by route from a depot-day capped at {cap}"
+        );
+        // A restriction of the week: the first LP's bound still holds.
+        assert!(b.objective <= first.lp_bound + 1e-6 * first.lp_bound.abs());
+    }
+}
+
+#[test]
 fn a_replan_that_loosens_the_share_floor_solves_the_lp_again() {
     // Every request's arcs removed: the share floor is dropped, a looser problem than the
     // first LP's, whose bounds may then be too low; the re-plan must solve again.
