@@ -31,10 +31,17 @@ impl Clone for Route {
     }
 
     fn clone_from(&mut self, source: &Self) {
-        self.nodes.clone_from(&source.nodes);
-        self.pre.clone_from(&source.pre);
-        self.suf.clone_from(&source.suf);
-        self.late = source.late;
+        // Destructured, so that a new field cannot be forgotten here.
+        let Route {
+            nodes,
+            pre,
+            suf,
+            late,
+        } = source;
+        self.nodes.clone_from(nodes);
+        self.pre.clone_from(pre);
+        self.suf.clone_from(suf);
+        self.late = *late;
     }
 }
 
@@ -74,11 +81,19 @@ impl Clone for State<'_> {
     }
 
     fn clone_from(&mut self, source: &Self) {
-        self.data = source.data;
-        self.routes.clone_from(&source.routes);
-        self.at.clone_from(&source.at);
-        self.unserved.clone_from(&source.unserved);
-        self.tw_weight = source.tw_weight;
+        // Destructured, so that a new field cannot be forgotten here.
+        let State {
+            data,
+            routes,
+            at,
+            unserved,
+            tw_weight,
+        } = source;
+        self.data = data;
+        self.routes.clone_from(routes);
+        self.at.clone_from(at);
+        self.unserved.clone_from(unserved);
+        self.tw_weight = *tw_weight;
     }
 }
 
