@@ -136,27 +136,11 @@ pub fn plan_with(
             baseline,
         });
     }
-    // Stops no route can serve go back to the allocation once, with those arcs removed.
-    let mut removed = BTreeSet::new();
-    for u in &first_dispatch.undeliverable {
-        let s = &first.shipments[u.shipment];
-        let a = &s.arc;
-        removed.insert((a.facility, a.dispatch_date, a.site, a.mode));
-        moved.push(format!(
-            "{} {}: {} vials from {} on {} could not be delivered by {} ({}); re-planned without that option",
-            scenario.sites[a.site].kind().as_str(),
-            scenario.sites[a.site].id,
-            s.vials,
-            scenario.facilities[a.facility].id,
-            a.dispatch_date,
-            a.mode.as_str(),
-            u.reason
-        ));
-    }
     // A depot-day whose routes left stops out is full as the routes found it: the re-plan
     // may send by route from it at most the vials they delivered, so the stops it takes away
     // (and others) go to other days, facilities or parcels rather than back into the same
-    // shift. A restriction of the week, so the first LP's bounds still hold.
+    // shift. A restriction of the week, so the first LP's bounds still hold. These lines come
+    // first in `moved`: the report shows its first lines only.
     let mut full: BTreeMap<(FacilityIdx, NaiveDate), u32> = BTreeMap::new();
     for u in &first_dispatch.undeliverable {
         let a = &first.shipments[u.shipment].arc;
@@ -182,6 +166,23 @@ pub fn plan_with(
             "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
              the re-plan sends at most {delivered} vials by route from it that day",
             scenario.facilities[f].id
+        ));
+    }
+    // Stops no route can serve go back to the allocation once, with those arcs removed.
+    let mut removed = BTreeSet::new();
+    for u in &first_dispatch.undeliverable {
+        let s = &first.shipments[u.shipment];
+        let a = &s.arc;
+        removed.insert((a.facility, a.dispatch_date, a.site, a.mode));
+        moved.push(format!(
+            "{} {}: {} vials from {} on {} could not be delivered by {} ({}); re-planned without that option",
+            scenario.sites[a.site].kind().as_str(),
+            scenario.sites[a.site].id,
+            s.vials,
+            scenario.facilities[a.facility].id,
+            a.dispatch_date,
+            a.mode.as_str(),
+            u.reason
         ));
     }
     progress.report(Step::Replan);
