@@ -212,6 +212,36 @@ fn segment_concatenation_matches_forward_simulation() {
 }
 
 #[test]
+fn the_depot_legs_shortcut_gives_the_full_segment_drive_and_warp_bit_for_bit() {
+    // `Data::depot_dist_warp` (every fits and lateness verdict) must equal the drive and time
+    // warp of the full segment algebra, `Data::with_depot`, bit for bit: the route search
+    // compares them with tolerances, so a rounding difference could change routes.
+    let mut inst = grid_instance(14, 7, 4, 60);
+    // Vehicles with their own departure and end of shift, one whose shift ends before it
+    // starts (a warp at the depot itself), and an unusable arc.
+    let shifts = [(0.0, 800.0), (90.0, 400.0), (300.0, 310.0), (500.0, 450.0)];
+    for (v, &(start, end)) in inst.vehicles.iter_mut().zip(&shifts) {
+        v.start = start;
+        v.latest_return = end;
+    }
+    inst.minutes[3][0] = f64::INFINITY;
+    let d = Data::new(&inst, 3);
+    let mut rng = fastrand::Rng::with_seed(11);
+    for _ in 0..2_000 {
+        let mut order: Vec<usize> = (1..=14).collect();
+        rng.shuffle(&mut order);
+        order.truncate(rng.usize(1..=14));
+        let body = d.seq(order.iter().copied());
+        for v in 0..inst.vehicles.len() {
+            let full = d.with_depot(v, &body);
+            let (dist, warp) = d.depot_dist_warp(v, &body);
+            assert_eq!(dist.to_bits(), full.dist.to_bits(), "{order:?} on {v}");
+            assert_eq!(warp.to_bits(), full.tw.to_bits(), "{order:?} on {v}");
+        }
+    }
+}
+
+#[test]
 fn drive_priced_without_windows_equals_drive_of_concatenation() {
     // Moves are priced by `drive_cat` before their windows are checked; it must give exactly
     // (bit for bit) the drive of the concatenated segment, or the search would change.
