@@ -141,27 +141,25 @@ pub fn plan_with(
     // (and others) go to other days, facilities or parcels rather than back into the same
     // shift. A restriction of the week, so the first LP's bounds still hold. These lines come
     // first in `moved`: the report shows its first lines only.
-    let mut full: BTreeMap<(FacilityIdx, NaiveDate), u32> = BTreeMap::new();
+    // (delivered, planned) vials by route, per depot-day with a stop left out.
+    let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32)> = BTreeMap::new();
     for u in &first_dispatch.undeliverable {
         let a = &first.shipments[u.shipment].arc;
         if a.mode == Mode::Route {
-            full.insert((a.facility, a.dispatch_date), 0);
+            full.insert((a.facility, a.dispatch_date), (0, 0));
         }
     }
     for r in &first_dispatch.routes {
-        if let Some(v) = full.get_mut(&(r.depot, r.date)) {
-            *v += r.vials();
+        if let Some((delivered, _)) = full.get_mut(&(r.depot, r.date)) {
+            *delivered += r.vials();
         }
     }
-    for (&(f, date), &delivered) in &full {
-        let planned: u32 = first
-            .shipments
-            .iter()
-            .filter(|s| {
-                s.arc.mode == Mode::Route && s.arc.facility == f && s.arc.dispatch_date == date
-            })
-            .map(|s| s.vials)
-            .sum();
+    for s in first.shipments.iter().filter(|s| s.arc.mode == Mode::Route) {
+        if let Some((_, planned)) = full.get_mut(&(s.arc.facility, s.arc.dispatch_date)) {
+            *planned += s.vials;
+        }
+    }
+    for (&(f, date), &(delivered, planned)) in &full {
         moved.push(format!(
             "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
              the re-plan sends at most {delivered} vials by route from it that day",
@@ -187,7 +185,10 @@ pub fn plan_with(
     }
     progress.report(Step::Replan);
     alloc_opts.excluded.extend(removed);
-    alloc_opts.route_vials_cap.extend(full);
+    alloc_opts.route_vials_cap.extend(
+        full.into_iter()
+            .map(|(day, (delivered, _))| (day, delivered)),
+    );
     alloc_opts.warm_start = first.working_set.iter().copied().collect();
     alloc_opts.warm_plan = first.planned_vials();
     // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are those

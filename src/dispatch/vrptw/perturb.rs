@@ -295,8 +295,7 @@ impl State<'_> {
             for (at, &w) in places.iter_mut().zip(&pending) {
                 if same_unused {
                     // The placement stayed on route place.1, which was in use.
-                    let r = place.1;
-                    at[r] = self.best_insert(r, w).map(|(add, k, v)| (add, r, k, v));
+                    at[place.1] = self.place_on(place.1, w);
                 } else {
                     *at = self.places(w, open);
                 }
@@ -319,10 +318,15 @@ impl State<'_> {
                 if self.routes[r].nodes.is_empty() && !fresh.contains(&r) {
                     None
                 } else {
-                    self.best_insert(r, u).map(|(add, k, v)| (add, r, k, v))
+                    self.place_on(r, u)
                 }
             })
             .collect()
+    }
+
+    /// The cheapest place for `u` on route `r` (see [`State::best_insert`]).
+    fn place_on(&self, r: usize, u: usize) -> Option<Place> {
+        self.best_insert(r, u).map(|(add, k, v)| (add, r, k, v))
     }
 
     fn place(&mut self, u: usize, (_, r, k, v): Place, changed: &mut [bool]) {
