@@ -526,13 +526,22 @@ fn a_resolve_from_the_earlier_plan_keeps_its_value_and_every_limit() {
     assert!(b.gap <= 0.01, "gap {}", b.gap);
 }
 
+/// The week's first plan and its LP, as plan's route feedback starts from them.
+fn first_plan_keeping_lp(
+    s: &Scenario,
+    p: &[f64],
+    arcs: &Arcs,
+) -> (Allocation, broodcast::allocate::LpSolve) {
+    let (first, lp) =
+        broodcast::allocate::allocate_keeping_lp(s, p, arcs, &always_priced()).expect("valid");
+    (first, lp.expect("the week has usable arcs"))
+}
+
 #[test]
 fn a_replan_from_the_first_lp_keeps_its_bounds_and_every_limit() {
     // As plan's route feedback does: three served arcs removed, no second LP.
     let (s, p, arcs) = synthetic::generate(13, 2000, 400);
-    let (first, lp) =
-        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
-    let lp = lp.expect("the week has usable arcs");
+    let (first, lp) = first_plan_keeping_lp(&s, &p, &arcs);
     let excluded = first_arcs(&first, 3);
     let opts = AllocOptions {
         excluded: excluded.clone(),
@@ -565,9 +574,7 @@ fn a_replan_with_a_full_depot_day_sends_at_most_its_cap_by_route() {
     // As plan's route feedback does when a depot-day's routes leave stops out: the re-plan
     // may send by route from that depot-day at most what the routes delivered.
     let (s, p, arcs) = synthetic::generate(13, 2000, 400);
-    let (first, lp) =
-        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
-    let lp = lp.expect("the week has usable arcs");
+    let (first, lp) = first_plan_keeping_lp(&s, &p, &arcs);
     let mut by_day: BTreeMap<_, u32> = BTreeMap::new();
     for sh in first
         .shipments
@@ -624,9 +631,7 @@ fn a_replan_that_loosens_the_share_floor_solves_the_lp_again() {
             p[i] *= 0.01;
         }
     }
-    let (first, lp) =
-        broodcast::allocate::allocate_keeping_lp(&s, &p, &arcs, &always_priced()).expect("valid");
-    let lp = lp.expect("the week has usable arcs");
+    let (first, lp) = first_plan_keeping_lp(&s, &p, &arcs);
     let excluded: std::collections::BTreeSet<ArcKey> = arcs
         .arcs
         .iter()

@@ -184,15 +184,21 @@ fn deterministic_for_a_seed() {
     assert_eq!(solve(&inst, &opts()), solve(&inst, &opts()));
 }
 
+/// 1 to `n` of the customers 1..=n, in random order.
+fn random_run(rng: &mut fastrand::Rng, n: usize) -> Vec<usize> {
+    let mut order: Vec<usize> = (1..=n).collect();
+    rng.shuffle(&mut order);
+    order.truncate(rng.usize(1..=n));
+    order
+}
+
 #[test]
 fn segment_concatenation_matches_forward_simulation() {
     let inst = grid_instance(12, 4, 1, 100);
     let d = Data::new(&inst, 3);
     let mut rng = fastrand::Rng::with_seed(5);
     for _ in 0..200 {
-        let mut order: Vec<usize> = (1..=12).collect();
-        rng.shuffle(&mut order);
-        order.truncate(rng.usize(1..=12));
+        let order = random_run(&mut rng, 12);
         let s = d.with_depot(0, &d.seq(order.iter().copied()));
         // Forward: depart at start, wait when early; feasible iff no lateness.
         let mut t = 0.0;
@@ -228,9 +234,7 @@ fn the_depot_legs_shortcut_gives_the_full_segment_drive_and_warp_bit_for_bit() {
     let d = Data::new(&inst, 3);
     let mut rng = fastrand::Rng::with_seed(11);
     for _ in 0..2_000 {
-        let mut order: Vec<usize> = (1..=14).collect();
-        rng.shuffle(&mut order);
-        order.truncate(rng.usize(1..=14));
+        let order = random_run(&mut rng, 14);
         let body = d.seq(order.iter().copied());
         for v in 0..inst.vehicles.len() {
             let full = d.with_depot(v, &body);
