@@ -380,7 +380,6 @@ impl<'i, 'a> State<'i, 'a> {
         self.refresh_growth(sp);
         self.work += 1;
         let inst = self.inst;
-        let door_site = inst.sites[sp].kind == SiteKind::Dooryard;
         let (door, total) = (self.door, self.total);
         let (since, mut blocked) = std::mem::take(&mut self.blocked[sp]);
         let moves = self.growth[sp].as_deref().unwrap_or(&[]);
@@ -388,8 +387,10 @@ impl<'i, 'a> State<'i, 'a> {
             // Check again only the moves whose resource has had vials taken off since.
             let mut i = 0;
             while i < blocked.len() {
-                if self.res_up[blocked[i]] > since {
-                    let (_, a, n) = moves[i];
+                let r = blocked[i];
+                let (_, a, n) = moves[i];
+                // Still shut out by the same resource unless it now has room for the move.
+                if self.res_up[r] > since && self.res_free[r] >= n {
                     match inst.arc_res[a].iter().find(|&&r| self.res_free[r] < n) {
                         Some(&r) => blocked[i] = r,
                         None => blocked.truncate(i),
@@ -411,6 +412,7 @@ impl<'i, 'a> State<'i, 'a> {
                 continue;
             }
             let nf = f64::from(n);
+            let door_site = inst.sites[sp].kind == SiteKind::Dooryard;
             if self.share_ok_at(if door_site { door + nf } else { door }, total + nf) {
                 found = Some((g, a, n));
                 break;
