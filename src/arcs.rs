@@ -12,10 +12,11 @@
 //! so an arc's stored `eta` and `release_by` compare exactly as the builder compared them.
 
 use chrono::{Datelike, NaiveDate, NaiveDateTime, NaiveTime, Timelike};
+use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use crate::eligibility::{self, Reason};
-use crate::scenario::{FacilityIdx, Scenario, SiteDetail, SiteIdx};
+use crate::scenario::{FacilityIdx, Scenario, Site, SiteDetail, SiteIdx};
 use crate::travel::{Place, TravelTimes};
 
 /// How vials reach a site.
@@ -136,7 +137,7 @@ impl Default for ArcOptions {
 /// let b4 = scenario.site_idx("B4").unwrap(); // not flushing, flush required
 /// assert_eq!(arcs.no_arc_reason[b4], Some(Reason::NoFlush));
 /// ```
-pub fn build_arcs(scenario: &Scenario, travel: &impl TravelTimes) -> Arcs {
+pub fn build_arcs(scenario: &Scenario, travel: &(impl TravelTimes + Sync)) -> Arcs {
     build_arcs_with(scenario, travel, &ArcOptions::default())
 }
 
@@ -160,7 +161,7 @@ struct Candidate {
 /// negative travel time makes that (facility, site) route unreachable.
 pub fn build_arcs_with(
     scenario: &Scenario,
-    travel: &impl TravelTimes,
+    travel: &(impl TravelTimes + Sync),
     options: &ArcOptions,
 ) -> Arcs {
     let dates = scenario.week_dates();
@@ -219,24 +220,14 @@ pub fn build_arcs_with(
     let origin = scenario.week_start.and_time(NaiveTime::MIN);
     let at = |s: i64| origin + chrono::Duration::seconds(s);
 
-    let mut out = Arcs {
-        arcs: Vec::new(),
-        no_arc_reason: Vec::with_capacity(scenario.sites.len()),
-    };
-    let mut cands: Vec<Candidate> = Vec::new();
-    let mut site_arcs: Vec<Arc> = Vec::new();
-    for (s, site) in scenario.sites.iter().enumerate() {
+    // Sites are independent: built in parallel, then joined in site order.
+    let per_site = |cands: &mut Vec<Candidate>, (s, site): (usize, &Site)| {
         let eligible: [bool; 7] = std::array::from_fn(|d| {
             eligibility::reason_given(scenario, s, dates[d], forbidden[s]).is_none()
         });
         if !eligible.iter().any(|&e| e) {
-            out.no_arc_reason.push(eligibility::reason_given(
-                scenario,
-                s,
-                dates[0],
-                forbidden[s],
-            ));
-            continue;
+            let reason = eligibility::reason_given(scenario, s, dates[0], forbidden[s]);
+            return (Vec::new(), reason);
         }
         let (window, service_min, route_allowed, parcel_allowed) = match &site.detail {
             SiteDetail::Block(b) => (
@@ -256,7 +247,7 @@ pub fn build_arcs_with(
             ),
         };
         let service_s = to_seconds(service_min).unwrap_or(i64::MAX / 4);
-        site_arcs.clear();
+        let mut site_arcs: Vec<Arc> = Vec::new();
         // Only the nearest depots serve a site (by drive time, ties to the lower index).
         let trips: Vec<(f64, f64)> = (0..nf)
             .map(|f| travel.round_trip(Place::Facility(f), Place::Site(s)))
@@ -320,7 +311,7 @@ pub fn build_arcs_with(
                             }
                         }
                     }
-                    prune(&mut cands, options.pruning);
+                    prune(cands, options.pruning);
                     site_arcs.extend(cands.iter().map(|c| to_arc(Mode::Route, drive_out, c)));
                 }
             }
@@ -341,7 +332,7 @@ pub fn build_arcs_with(
                         }
                     }
                 }
-                prune(&mut cands, options.pruning);
+                prune(cands, options.pruning);
                 site_arcs.extend(cands.iter().map(|c| to_arc(Mode::Parcel, 0.0, c)));
             }
         }
@@ -353,9 +344,22 @@ pub fn build_arcs_with(
                 b.mode,
             ))
         });
-        out.no_arc_reason
-            .push(site_arcs.is_empty().then_some(Reason::OutOfReach));
+        let reason = site_arcs.is_empty().then_some(Reason::OutOfReach);
+        (site_arcs, reason)
+    };
+    let sites: Vec<(Vec<Arc>, Option<Reason>)> = scenario
+        .sites
+        .par_iter()
+        .enumerate()
+        .map_init(Vec::new, per_site)
+        .collect();
+    let mut out = Arcs {
+        arcs: Vec::with_capacity(sites.iter().map(|(a, _)| a.len()).sum()),
+        no_arc_reason: Vec::with_capacity(scenario.sites.len()),
+    };
+    for (mut site_arcs, reason) in sites {
         out.arcs.append(&mut site_arcs);
+        out.no_arc_reason.push(reason);
     }
     out
 }
@@ -456,7 +460,7 @@ mod tests {
 
     /// These tests pin the arc rules with every pack day of a kept dispatch day, so they build
     /// with `FreshestDispatchDays` rather than the smaller default.
-    fn build_arcs(scenario: &Scenario, travel: &impl TravelTimes) -> Arcs {
+    fn build_arcs(scenario: &Scenario, travel: &(impl TravelTimes + Sync)) -> Arcs {
         build_arcs_with(
             scenario,
             travel,

@@ -17,6 +17,7 @@
 //! The ball only narrows candidates: each one is then measured with
 //! [`geodesy::distance_m`] and kept when that distance ≤ r.
 
+use rayon::prelude::*;
 use rstar::RTree;
 use rstar::primitives::GeomWithData;
 use thiserror::Error;
@@ -270,7 +271,11 @@ pub fn tap_adults_in_range(scenario: &Scenario) -> Vec<f64> {
 
 /// Σ terms[i] · weight(d_i) over the scouting points i within `policy.pressure_radius_km` of
 /// each site (d_i geodesic metres), in input order, through the R*-tree.
-fn sum_in_range(scenario: &Scenario, terms: &[f64], weight: impl Fn(f64) -> f64) -> Vec<f64> {
+fn sum_in_range(
+    scenario: &Scenario,
+    terms: &[f64],
+    weight: impl Fn(f64) -> f64 + Sync,
+) -> Vec<f64> {
     let radius_m = scenario.policy.pressure_radius_km * 1000.0;
     let tree = RTree::bulk_load(
         scenario
@@ -281,11 +286,11 @@ fn sum_in_range(scenario: &Scenario, terms: &[f64], weight: impl Fn(f64) -> f64)
             .collect(),
     );
     let query_2 = (radius_m + QUERY_PAD_M).powi(2);
-    let mut hits: Vec<usize> = Vec::new();
+    // Sites are independent: one query each, in parallel, collected in site order.
     scenario
         .sites
-        .iter()
-        .map(|site| {
+        .par_iter()
+        .map_init(Vec::new, |hits: &mut Vec<usize>, site| {
             hits.clear();
             hits.extend(
                 tree.locate_within_distance(ecef_m(site.location), query_2)
@@ -294,7 +299,7 @@ fn sum_in_range(scenario: &Scenario, terms: &[f64], weight: impl Fn(f64) -> f64)
             // Input order, as the brute force sums: the result does not depend on tree layout.
             hits.sort_unstable();
             let mut sum = 0.0;
-            for &i in &hits {
+            for &i in hits.iter() {
                 let d = geodesy::distance_m(site.location, scenario.scouting[i].location);
                 if d <= radius_m {
                     sum += terms[i] * weight(d);
