@@ -385,18 +385,19 @@ impl<'i, 'a> State<'i, 'a> {
         let moves = self.growth[sp].as_deref().unwrap_or(&[]);
         if since != self.free_epoch {
             // Check again only the moves whose resource has had vials taken off since.
-            let mut i = 0;
-            while i < blocked.len() {
+            for i in 0..blocked.len() {
                 let r = blocked[i];
                 let (_, a, n) = moves[i];
                 // Still shut out by the same resource unless it now has room for the move.
                 if self.res_up[r] > since && self.res_free[r] >= n {
                     match inst.arc_res[a].iter().find(|&&r| self.res_free[r] < n) {
                         Some(&r) => blocked[i] = r,
-                        None => blocked.truncate(i),
+                        None => {
+                            blocked.truncate(i);
+                            break;
+                        }
                     }
                 }
-                i += 1;
             }
         }
         let mut found = None;
@@ -1171,9 +1172,9 @@ mod tests {
 
     #[test]
     fn the_best_move_skips_only_moves_that_still_do_not_fit() {
-        // The fixture's week with its whole arc set and a tenth of its supply, so most moves
-        // meet spent supply; random commits that add and take off vials, with the best move
-        // of every site compared against a scan from scratch after each.
+        // The fixture's week: the greedy's own growth moves until supply runs out, now and then
+        // vials taken off an arc, and after each commit the best move of every site compared
+        // against a scan from scratch.
         let s = tiny();
         let arcs = crate::arcs::build_arcs(&s, &crate::travel::TravelModel::new(&s));
         let priority = vec![1.0; s.sites.len()];
