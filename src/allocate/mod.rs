@@ -19,6 +19,7 @@ mod improve;
 mod instance;
 mod master;
 mod pricing;
+mod releases;
 mod rounding;
 
 pub use constraint::ConstraintKind;
@@ -586,8 +587,32 @@ fn run(
             bound_steps(opts.bound_steps, inst.arcs.len()),
         );
         let bound = bound.min(sol.objective);
-        // Far from the bound: round again from the LP's vials with a wider set of alternates
-        // (`WIDEN_GAP`), which the guided roundings below then also start from.
+        // Far from the bound: round again from the release LP (`releases.rs`), whose columns
+        // are whole releases rather than arc flows. A heuristic start: when its LP cannot be
+        // solved, the plan so far stands.
+        if !warm
+            && gap(lower, bound) > WIDEN_GAP
+            && let Ok(Some((start, _))) = releases::release_lp_start(
+                &inst,
+                &relax.res_dual,
+                relax.share_dual,
+                &cand,
+                &x,
+                opts.solver,
+            )
+        {
+            let cand2: Vec<bool> = (0..inst.sites.len())
+                .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| start[a] > 0.0))
+                .collect();
+            let x2 = rounding::round(&inst, &start, &cand2, opts.rounding_budget);
+            let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
+            if second > lower + 1e-9 * lower.abs().max(1.0) {
+                x = x2;
+                lower = second;
+            }
+        }
+        // Still far from the bound: round again from the LP's vials with a wider set of
+        // alternates (`WIDEN_GAP`), which the guided roundings below then also start from.
         if !warm && gap(lower, bound) > WIDEN_GAP {
             let wide = rounding::candidates(
                 &inst,
