@@ -2,7 +2,7 @@
 //! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
 //! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`,
 //! whose steps are the files here: `instance.rs` (1, with `absorb.rs`), `master.rs` (2), `pricing.rs` (3),
-//! `rounding.rs` (4), `bound.rs` (5), `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6);
+//! `rounding.rs` (4, with `improve.rs` and `releases.rs`), `bound.rs` (5), `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6);
 //! [`allocate`] runs them in order.
 
 pub mod constraint;
@@ -284,7 +284,8 @@ fn small_pack_days(inst: &instance::Instance) -> bool {
     rows > 0 && vials < release
 }
 
-/// Relative gap (to the whole-vial bound) above which the rounding runs again with
+/// Relative gap (to the whole-vial bound) above which the rounding runs again from the release
+/// LP (`releases.rs`), and, if the gap is still above it, again with
 /// [`WIDE_CANDIDATES_PER_SUPPORT_SITE`] candidates per site of the LP's support, and the guided
 /// roundings start from that wider set.
 /// Measured on generated weeks (2026-12-03): the wider set gained 0.5–6.5 % where the first
