@@ -5,11 +5,10 @@
 //! target or the maximum with a fraction of a vial, which no whole release reaches. Here each
 //! column is one whole release of one candidate site: an arc a and a vial count k, worth
 //! B_s(k α_a) − k c_a, drawing k vials from each shared row of a. The LP over these columns
-//! (at most one release per site, the shared rows, the dooryard share) chooses, per site,
-//! the arc whose vials make a good whole release, and its solution, read back as vials per
-//! arc, is where the rounding starts. It is a heuristic start, not a bound: each site gets
-//! only its best [`COLUMNS_PER_SITE`] releases under the arc LP's duals (and its release in
-//! the plan so far).
+//! (at most one release per site, the shared rows, the dooryard share) chooses, per site, the arc whose vials make a good whole release, and its solution,
+//! read back as vials per arc, is where the rounding starts. It is a heuristic start, not a
+//! bound: each site gets only its best [`COLUMNS_PER_SITE`] releases under the arc LP's duals
+//! (and its releases in the plan so far).
 
 use super::instance::Instance;
 use super::model::{LinearModel, ModelError, Sense, Solver};
@@ -29,11 +28,13 @@ pub(crate) const COLUMNS_PER_SITE: usize = 16;
 const MAX_VIALS_PER_RELEASE: f64 = 1_000.0;
 
 /// Vials per arc of the release LP's optimum, and that optimum (objective units), over the candidate sites (`cand`, by site position) and
-/// the sites `plan` serves, or `None` when a site has a force (its shortfall penalty is not
-/// in the columns), a release could hold more than [`MAX_VIALS_PER_RELEASE`] vials, or no
+/// the sites `plan` serves, or `None` when the policy allows more than one release per site
+/// (a site's benefit is not additive over its releases), a site has a force (its shortfall
+/// penalty is not in the columns), a release could hold more than [`MAX_VIALS_PER_RELEASE`] vials, or no
 /// site is in it. `res_dual` and `share_dual` are the arc LP's duals
 /// (the share dual ≤ 0 for its ≥ row); `plan` is a whole-vial plan (vials per arc) whose
-/// releases join the columns, so the release LP is at least as good as it.
+/// releases join the columns, so the release LP is at least as good as it. Values in
+/// objective units, vials per arc.
 ///
 /// Cost: O(Σ over the sites' arcs of the vials one release can hold) to build, one LP solve
 /// of about `COLUMNS_PER_SITE` columns per site.
@@ -45,6 +46,11 @@ pub(crate) fn release_lp_start(
     plan: &[u32],
     solver: Solver,
 ) -> Result<Option<(Vec<f64>, f64)>, ModelError> {
+    // A site's benefit is concave in its week's live wasps, so with several releases allowed
+    // the value of a site's releases is not the sum of each one's: not modelled here.
+    if inst.releases_per_site != 1 {
+        return Ok(None);
+    }
     let lambda = (-share_dual).max(0.0);
     let sigma = inst.share.unwrap_or(0.0);
     let share_coef = |sp: usize| {
@@ -238,5 +244,19 @@ mod tests {
         for (r, u) in used.iter().enumerate() {
             assert!(*u <= inst.res_rhs[r].floor() + 1e-6, "row {r}: {u}");
         }
+    }
+
+    #[test]
+    fn no_start_when_a_site_may_take_several_releases() {
+        let mut s = tiny();
+        s.policy.releases_per_site_week = 2;
+        let arcs = crate::arcs::build_arcs(&s, &crate::travel::TravelModel::new(&s));
+        let priority = vec![1.0; s.sites.len()];
+        let inst = Instance::new(&s, &priority, &arcs, &AllocOptions::default()).expect("valid");
+        let duals = vec![0.0; inst.resources.len()];
+        let cand = vec![true; inst.sites.len()];
+        let plan = vec![0; inst.arcs.len()];
+        let start = release_lp_start(&inst, &duals, 0.0, &cand, &plan, Solver::Clarabel);
+        assert!(matches!(start, Ok(None)));
     }
 }
