@@ -167,15 +167,21 @@ pub fn dispatch_cached(
         }
     }
     // Depot-days are independent VRPTWs with their own seeds: solved in parallel, merged in
-    // key order, so the result does not depend on the number of threads.
+    // key order, so the result does not depend on the number of threads or their order.
     let groups: Vec<_> = groups.into_iter().collect();
     let total = groups.len();
     // Counted and reported under one lock, so the reports never go backwards.
     let done = Mutex::new(0);
     progress.report(Step::Routes { done: 0, total });
-    let parts: Vec<Dispatch> = groups
+    // The largest depot-days start first (longest processing time first), so that a long
+    // search does not start last and leave the other core idle: the first dispatch of the
+    // generated 35,000-site week 4.76–4.82 → 4.60–4.61 s, the same routes.
+    let mut order: Vec<usize> = (0..groups.len()).collect();
+    order.sort_by_key(|&i| (std::cmp::Reverse(groups[i].1.len()), i));
+    let mut parts: Vec<(usize, Dispatch)> = order
         .par_iter()
-        .map(|((facility, date), visits)| {
+        .map(|&i| {
+            let ((facility, date), visits) = &groups[i];
             let mut part = Dispatch::default();
             route_depot_day(
                 scenario, allocation, travel, opts, cache, *facility, *date, visits, &mut part,
@@ -184,10 +190,11 @@ pub fn dispatch_cached(
                 *done += 1;
                 progress.report(Step::Routes { done: *done, total });
             }
-            part
+            (i, part)
         })
         .collect();
-    for part in parts {
+    parts.sort_by_key(|&(i, _)| i);
+    for (_, part) in parts {
         out.routes.extend(part.routes);
         out.undeliverable.extend(part.undeliverable);
         out.notes.extend(part.notes);
