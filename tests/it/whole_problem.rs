@@ -3,7 +3,8 @@
 //! `export-model` on the same folder, solved by HiGHS. Its optimum must equal `summary.json`'s
 //! `lp_bound` to 1e-6 relative, the plan must order objective ≤ bound ≤ lp_bound, and the
 //! exported model must hold the rows its columns call for (one benefit and max-release row per
-//! site with an arc, one request row per dooryard site with an arc).
+//! site with an arc, one request row per dooryard site with an arc). One more week checks that
+//! a plan whose first rounding is short ends near its bound (the release LP).
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::fs;
@@ -243,4 +244,39 @@ fn highs_reaches_the_lp_bound_of_the_demo_and_generated_weeks() {
         "only {equal} of {} compared exactly with a non-zero optimum",
         planned.len()
     );
+}
+
+/// The release LP (`allocate/releases.rs`) where the first rounding is short: on the generated
+/// 300-site, 3-facility, 1×-supply week the first rounding ends more than 1 % below the
+/// whole-vial bound and the LP spreads releases over pack days. Measured 2026-12-04: the plan
+/// was 0.73 % below its bound without the release LP (252,437.1) and is 0.27 % below with it
+/// (253,608.5); the check asks for 0.5 % and fails without it.
+#[test]
+fn a_week_whose_first_rounding_is_short_ends_near_its_bound() {
+    let work = tempfile::tempdir().expect("temp dir");
+    let dir = work.path().join("week");
+    let out = work.path().join("out");
+    let (d, o) = (
+        dir.to_str().expect("utf-8 path"),
+        out.to_str().expect("utf-8 path"),
+    );
+    util::run_ok(&[
+        "generate",
+        "--sites",
+        "300",
+        "--facilities",
+        "3",
+        "--supply",
+        "1",
+        "--seed",
+        "1",
+        "--out",
+        d,
+    ]);
+    util::run_ok(&["plan", d, "--out", o, "-q"]);
+    let summary: serde_json::Value =
+        serde_json::from_str(&fs::read_to_string(out.join("summary.json")).expect("summary"))
+            .expect("json");
+    let gap = summary["gap"].as_f64().expect("gap");
+    assert!(gap <= 0.005, "gap {gap}");
 }
