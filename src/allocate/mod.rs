@@ -1,9 +1,9 @@
 //! The allocation: an LP relaxation over the candidate arcs (good_lp; clarabel backend, or
 //! HiGHS with the `highs` feature, see [`AllocOptions::solver`]),
 //! rounded to whole vials with the LP optimum kept as a bound. Formulation: `docs/model.md`,
-//! whose steps are the files here: `instance.rs` (1, with `absorb.rs`), `master.rs` (2), `pricing.rs` (3),
-//! `rounding.rs` (4, with `improve.rs` and `releases.rs`), `bound.rs` (5), `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6);
-//! [`allocate`] runs them in order.
+//! whose steps are the files here: `instance.rs` (1, with `absorb.rs`), `master.rs` (2),
+//! `pricing.rs` (3), `rounding.rs` (4, with `improve.rs` and `releases.rs`), `bound.rs` (5),
+//! `result.rs`, `note.rs`, `constraint.rs` and `mps.rs` (6); [`allocate`] runs them in order.
 
 pub mod constraint;
 pub mod model;
