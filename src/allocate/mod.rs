@@ -303,6 +303,30 @@ const WIDEN_GAP: f64 = 0.01;
 /// (every extra site is a failed open-and-refill in the local search) and gains nothing.
 const WIDE_CANDIDATES_PER_SUPPORT_SITE: f64 = 2.0;
 
+/// The candidate sites `cand` (by site position) and every site with vials in `start` (vials
+/// per arc): the candidates of a rounding that starts from `start`.
+fn with_sites_of(inst: &instance::Instance, cand: &[bool], start: &[f64]) -> Vec<bool> {
+    (0..inst.sites.len())
+        .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| start[a] > 0.0))
+        .collect()
+}
+
+/// Keeps the whole-vial plan `other` in `x` (and its objective in `lower`) when it is worth
+/// more than `lower` by more than 1e-9 relative.
+fn keep_better(
+    inst: &instance::Instance,
+    scenario: &Scenario,
+    other: Vec<u32>,
+    x: &mut Vec<u32>,
+    lower: &mut f64,
+) {
+    let value = objective_of(inst, scenario, &shipments_of(inst, &other));
+    if value > *lower + 1e-9 * lower.abs().max(1.0) {
+        *x = other;
+        *lower = value;
+    }
+}
+
 /// The shipments of whole vials `x` per arc of `inst`, in [`Shipment::order_key`] order.
 fn shipments_of(inst: &instance::Instance, x: &[u32]) -> Vec<Shipment> {
     let mut shipments: Vec<Shipment> = x
@@ -602,15 +626,13 @@ fn run(
                 opts.solver,
             )
         {
-            let cand2: Vec<bool> = (0..inst.sites.len())
-                .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| start[a] > 0.0))
-                .collect();
-            let x2 = rounding::round(&inst, &start, &cand2, opts.rounding_budget);
-            let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
-            if second > lower + 1e-9 * lower.abs().max(1.0) {
-                x = x2;
-                lower = second;
-            }
+            let x2 = rounding::round(
+                &inst,
+                &start,
+                &with_sites_of(&inst, &cand, &start),
+                opts.rounding_budget,
+            );
+            keep_better(&inst, scenario, x2, &mut x, &mut lower);
         }
         // Still far from the bound: round again from the LP's vials with a wider set of
         // alternates (`WIDEN_GAP`), which the guided roundings below then also start from.
@@ -624,11 +646,7 @@ fn run(
             );
             if wide != cand {
                 let x2 = rounding::round(&inst, &relax.x, &wide, opts.rounding_budget);
-                let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
-                if second > lower + 1e-9 * lower.abs().max(1.0) {
-                    x = x2;
-                    lower = second;
-                }
+                keep_better(&inst, scenario, x2, &mut x, &mut lower);
                 cand = wide;
             }
         }
@@ -644,15 +662,13 @@ fn run(
             if gap(lower, bound) <= GUIDE_GAP {
                 break;
             }
-            let cand2: Vec<bool> = (0..inst.sites.len())
-                .map(|sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| guide[a] > 0.0))
-                .collect();
-            let x2 = rounding::round(&inst, guide, &cand2, opts.rounding_budget);
-            let second = objective_of(&inst, scenario, &shipments_of(&inst, &x2));
-            if second > lower + 1e-9 * lower.abs().max(1.0) {
-                x = x2;
-                lower = second;
-            }
+            let x2 = rounding::round(
+                &inst,
+                guide,
+                &with_sites_of(&inst, &cand, guide),
+                opts.rounding_budget,
+            );
+            keep_better(&inst, scenario, x2, &mut x, &mut lower);
         }
         working_set = relax.working_set.clone();
         kept = keep_lp.then(|| LpSolve {

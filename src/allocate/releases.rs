@@ -5,10 +5,11 @@
 //! target or the maximum with a fraction of a vial, which no whole release reaches. Here each
 //! column is one whole release of one candidate site: an arc a and a vial count k, worth
 //! B_s(k α_a) − k c_a, drawing k vials from each shared row of a. The LP over these columns
-//! (at most one release per site, the shared rows, the dooryard share) chooses, per site, the arc whose vials make a good whole release, and its solution,
-//! read back as vials per arc, is where the rounding starts. It is a heuristic start, not a
-//! bound: each site gets only its best [`COLUMNS_PER_SITE`] releases under the arc LP's duals
-//! (and its releases in the plan so far).
+//! (at most one release per site, the shared rows, the dooryard share) chooses, per site, the
+//! arc whose vials make a good whole release, and its solution, read back as vials per arc, is
+//! where the rounding starts. It is a heuristic start, not a bound: each site gets only its
+//! best [`COLUMNS_PER_SITE`] releases under the arc LP's duals (and its release in the plan so
+//! far).
 
 use super::instance::Instance;
 use super::model::{LinearModel, ModelError, Sense, Solver};
@@ -27,14 +28,14 @@ pub(crate) const COLUMNS_PER_SITE: usize = 16;
 /// wasps, the rounding starts from the arc LP alone.
 const MAX_VIALS_PER_RELEASE: f64 = 1_000.0;
 
-/// Vials per arc of the release LP's optimum, and that optimum (objective units), over the candidate sites (`cand`, by site position) and
-/// the sites `plan` serves, or `None` when the policy allows more than one release per site
-/// (a site's benefit is not additive over its releases), a site has a force (its shortfall
-/// penalty is not in the columns), a release could hold more than [`MAX_VIALS_PER_RELEASE`] vials, or no
-/// site is in it. `res_dual` and `share_dual` are the arc LP's duals
-/// (the share dual ≤ 0 for its ≥ row); `plan` is a whole-vial plan (vials per arc) whose
-/// releases join the columns, so the release LP is at least as good as it. Values in
-/// objective units, vials per arc.
+/// Vials per arc of the release LP's optimum, and that optimum (objective units), over the
+/// candidate sites (`cand`, by site position) and the sites `plan` serves; `None` when the
+/// policy allows more than one release per site (a site's benefit is not additive over its
+/// releases), a site has a force (its shortfall penalty is not in the columns), a release
+/// could hold more than [`MAX_VIALS_PER_RELEASE`] vials, or no site is in it. `res_dual` and
+/// `share_dual` are the arc LP's duals (the share dual ≤ 0 for its ≥ row); `plan` is a
+/// whole-vial plan (vials per arc) whose releases join the columns, so the release LP is at
+/// least as good as it.
 ///
 /// Cost: O(Σ over the sites' arcs of the vials one release can hold) to build, one LP solve
 /// of about `COLUMNS_PER_SITE` columns per site.
@@ -74,8 +75,9 @@ pub(crate) fn release_lp_start(
         if site.force.is_some() {
             return Ok(None);
         }
-        // (value less the arc LP's prices, arc, vials) of every whole release of the site.
-        let mut options: Vec<(f64, usize, u32)> = Vec::new();
+        // (value less the arc LP's prices, arc, vials, value) of every whole release of the
+        // site; value = B_s(k α_a) − k c_a, objective units.
+        let mut options: Vec<(f64, usize, u32, f64)> = Vec::new();
         for &a in &site.arcs {
             let alive = inst.arcs[a].wasps_alive_per_vial;
             let price = inst.cost[a]
@@ -102,21 +104,25 @@ pub(crate) fn release_lp_start(
                 if f64::from(k) > cap || !inst.release_ok(sp, e, k) {
                     continue;
                 }
-                options.push((inst.site_value(sp, e, k) - f64::from(k) * price, a, k));
+                let worth = inst.site_value(sp, e, k);
+                let kf = f64::from(k);
+                options.push((worth - kf * price, a, k, worth - kf * inst.cost[a]));
             }
         }
         options.sort_by(|x, y| y.0.total_cmp(&x.0).then(x.1.cmp(&y.1)).then(x.2.cmp(&y.2)));
         options.truncate(COLUMNS_PER_SITE);
         for &a in &site.arcs {
-            if plan[a] > 0 && !options.iter().any(|o| o.1 == a && o.2 == plan[a]) {
-                options.push((0.0, a, plan[a]));
+            let k = plan[a];
+            if k > 0 && !options.iter().any(|o| o.1 == a && o.2 == k) {
+                let kf = f64::from(k);
+                let value = inst.site_value(sp, kf * inst.arcs[a].wasps_alive_per_vial, k)
+                    - kf * inst.cost[a];
+                options.push((0.0, a, k, value));
             }
         }
         let mut terms = Vec::with_capacity(options.len());
-        for &(_, a, k) in &options {
+        for &(_, a, k, value) in &options {
             let kf = f64::from(k);
-            let value =
-                inst.site_value(sp, kf * inst.arcs[a].wasps_alive_per_vial, k) - kf * inst.cost[a];
             let c = m.add_column(&format!("z{}", cols.len()), 0.0, 1.0, value, false);
             cols.push((a, k));
             terms.push((c, 1.0));
@@ -158,24 +164,8 @@ pub(crate) fn release_lp_start(
 mod tests {
     use super::*;
     use crate::allocate::{AllocOptions, rounding};
-    use crate::arcs::{Arc, Arcs, Mode};
-    use crate::scenario::fixture::tiny;
-
-    fn arc(site: usize, facility: usize, alive: f64) -> Arc {
-        let d = tiny().week_start;
-        Arc {
-            facility,
-            pack_date: d,
-            dispatch_date: d,
-            site,
-            mode: Mode::Route,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: 1.0,
-            wasps_alive_per_vial: alive,
-            drive_minutes: 20.0,
-        }
-    }
+    use crate::arcs::Arcs;
+    use crate::scenario::fixture::{route_arc, tiny};
 
     #[test]
     fn a_site_takes_the_arc_whose_whole_vials_reach_the_maximum() {
@@ -188,7 +178,7 @@ mod tests {
         s.agent.target_release_wasps = 500.0;
         s.agent.max_release_wasps = 500.0;
         let arcs = Arcs {
-            arcs: vec![arc(0, 1, 120.0), arc(0, 0, 100.0)],
+            arcs: vec![route_arc(&s, 0, 1, 0, 120.0), route_arc(&s, 0, 0, 0, 100.0)],
             no_arc_reason: vec![None; s.sites.len()],
         };
         let priority = vec![1.0; s.sites.len()];
