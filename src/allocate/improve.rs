@@ -550,23 +550,14 @@ pub(super) fn release_moves(st: &mut State, cand: &[usize], budget: u64) -> bool
 mod tests {
     use super::*;
     use crate::allocate::AllocOptions;
-    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::arcs::{Arc, Arcs};
     use crate::scenario::fixture::tiny;
     use crate::scenario::{Scenario, SiteIdx};
 
     fn arc(s: &Scenario, site: SiteIdx, day: u64) -> Arc {
-        let d = s.week_start + chrono::Days::new(day);
         Arc {
-            facility: 0,
-            pack_date: d,
-            dispatch_date: d,
-            site,
-            mode: Mode::Route,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: 1.0,
-            wasps_alive_per_vial: 100.0,
             drive_minutes: 0.0,
+            ..crate::scenario::fixture::route_arc(s, site, 0, day, 100.0)
         }
     }
 

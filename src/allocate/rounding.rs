@@ -1132,24 +1132,11 @@ pub(crate) fn candidates(
 mod tests {
     use super::*;
     use crate::allocate::AllocOptions;
-    use crate::arcs::{Arc, Arcs, Mode};
+    use crate::arcs::{Arc, Arcs};
     use crate::scenario::fixture::tiny;
 
     fn arc(site: usize, facility: usize, day: u64, alive: f64) -> Arc {
-        let s = tiny();
-        let d = s.week_start + chrono::Days::new(day);
-        Arc {
-            facility,
-            pack_date: d,
-            dispatch_date: d,
-            site,
-            mode: Mode::Route,
-            eta: d.and_hms_opt(9, 0, 0).expect("valid"),
-            release_by: d.and_hms_opt(23, 0, 0).expect("valid"),
-            survival: alive / 100.0,
-            wasps_alive_per_vial: alive,
-            drive_minutes: 20.0,
-        }
+        crate::scenario::fixture::route_arc(&tiny(), site, facility, day, alive)
     }
 
     /// The growth move `best_move_at` must give: the first of the site's moves that fits

@@ -20,6 +20,32 @@ fn square(lon: f64, lat: f64, half_deg: f64) -> MultiPolygon<f64> {
     ]])
 }
 
+/// A route arc of `s` from facility `facility` to site `site`, packed and dispatched on day
+/// `day` of the week, arriving at 09:00 with release-by 23:00, `alive` live wasps per vial
+/// (survival: `alive` over the facility's wasps per vial) and 20 minutes of driving: for
+/// unit tests that build their own arcs.
+pub fn route_arc(
+    s: &Scenario,
+    site: SiteIdx,
+    facility: FacilityIdx,
+    day: u64,
+    alive: f64,
+) -> crate::arcs::Arc {
+    let d = s.week_start + chrono::Days::new(day);
+    crate::arcs::Arc {
+        facility,
+        pack_date: d,
+        dispatch_date: d,
+        site,
+        mode: crate::arcs::Mode::Route,
+        eta: d.and_hms_opt(9, 0, 0).expect("valid fixture time"),
+        release_by: d.and_hms_opt(23, 0, 0).expect("valid fixture time"),
+        survival: alive / f64::from(s.facilities[facility].wasps_per_vial),
+        wasps_alive_per_vial: alive,
+        drive_minutes: 20.0,
+    }
+}
+
 /// A week starting Monday 2027-03-01 with 2 facilities, 6 blocks, 4 requests, 6 scouting
 /// points, weekday supply, 2 vehicles and a parcel service. Every stage's unit tests may rely
 /// on its shape; change it only with those tests.
