@@ -3,6 +3,8 @@
 
 use std::time::Instant;
 
+use rayon::prelude::*;
+
 use super::segment::{Data, EPS, Seg};
 use super::state::{Move, State};
 use super::{Solution, SolveOptions};
@@ -165,9 +167,12 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
     }
     let stall = stall_limit(data, opts);
     let per_start = opts.max_iterations / (2 * STARTS);
-    let mut time_limited = false;
-    let mut best: Option<State<'_>> = None;
-    for j in 0..STARTS {
+    // One independent search per start, each with its own seed. Without a wall-clock limit
+    // they do not depend on each other, so they run in parallel (a large depot-day that
+    // starts last no longer leaves a core idle) and are compared in start order: the same
+    // result as one after the other. With a limit they run in turn, and a start that hits it
+    // ends the starts.
+    let start = |j: u32| {
         let mut rng = fastrand::Rng::with_seed(
             opts.seed
                 .wrapping_mul(0x9E37_79B9_7F4A_7C15)
@@ -175,7 +180,7 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
         );
         // Odd starts search penalised (see [`ils`]).
         let penalised = j % 2 == 1;
-        let (b, tl) = ils(
+        ils(
             first.clone(),
             &mut rng,
             per_start,
@@ -183,13 +188,27 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
             started,
             opts,
             penalised,
-        );
+        )
+    };
+    let searched: Vec<(State<'_>, bool)> = if opts.time_limit.is_none() {
+        (0..STARTS).into_par_iter().map(start).collect()
+    } else {
+        let mut searched = Vec::new();
+        for j in 0..STARTS {
+            let (b, tl) = start(j);
+            searched.push((b, tl));
+            if tl {
+                break;
+            }
+        }
+        searched
+    };
+    let mut time_limited = false;
+    let mut best: Option<State<'_>> = None;
+    for (b, tl) in searched {
         time_limited |= tl;
         if best.as_ref().is_none_or(|c| b.key_lt(c)) {
             best = Some(b);
-        }
-        if time_limited {
-            break;
         }
     }
     let mut best = best.unwrap_or(first);
