@@ -189,8 +189,8 @@ fn deterministic_for_a_seed() {
 /// same), on instances where the starts end at different solutions.
 #[test]
 fn starts_in_parallel_give_the_routes_of_starts_in_turn() {
-    // Seeds 2, 4 and 5 end with the second (penalised) start ahead: a parallel path that ran
-    // the first start twice went red on them (checked 2026-12-04).
+    // On seeds 2, 4 and 5 the routes depend on the second (penalised) start: a parallel path
+    // that ran the first start twice went red on them (checked 2026-12-04).
     for seed in 1..=6 {
         let inst = grid_instance(40 + seed as usize, seed, 8, 15);
         let parallel = solve(&inst, &opts());
