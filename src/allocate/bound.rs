@@ -232,6 +232,12 @@ pub(crate) fn tighten(inst: &Instance, d: &mut Descent, lower: f64) -> f64 {
 /// Projected subgradient steps from where `d` stands until one of the stops in
 /// [`whole_vial_bound`]'s description, with `min_progress` as the progress rule; early new
 /// bests go to `guides` when given.
+///
+/// Polyak's step towards the target `lower`, with its factor halved, and the prices taken back
+/// to the best point, after [`STALL_STEPS`] steps without a new best (the usual safeguards of
+/// subgradient methods; a stall goes back to the best point without evaluating it again); it
+/// stops once the factor is below [`LAST_THETA`], after [`GIVE_UP_ARC_EVALUATIONS`] when no
+/// step has improved on the LP duals' value, or when the best value moves too little.
 fn descend(
     inst: &Instance,
     d: &mut Descent,
