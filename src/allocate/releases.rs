@@ -11,7 +11,7 @@
 //! best [`COLUMNS_PER_SITE`] releases under the arc LP's duals (and its release in the plan so
 //! far).
 
-use super::instance::Instance;
+use super::instance::{Instance, share_coef};
 use super::model::{LinearModel, ModelError, Sense, Solver};
 use crate::scenario::SiteKind;
 
@@ -53,14 +53,6 @@ pub(crate) fn release_lp_start(
         return Ok(None);
     }
     let lambda = (-share_dual).max(0.0);
-    let sigma = inst.share.unwrap_or(0.0);
-    let share_coef = |sp: usize| {
-        if inst.sites[sp].kind == SiteKind::Dooryard {
-            1.0 - sigma
-        } else {
-            -sigma
-        }
-    };
     let mut m = LinearModel::new("releases");
     // (arc, vials) of each column.
     let mut cols: Vec<(usize, u32)> = Vec::new();
@@ -85,7 +77,7 @@ pub(crate) fn release_lp_start(
                     .iter()
                     .map(|&r| res_dual[r].max(0.0))
                     .sum::<f64>()
-                - lambda * share_coef(sp);
+                - lambda * share_coef(inst, a);
             // No release takes more vials than a row of its arc holds.
             let cap = inst.arc_res[a]
                 .iter()
@@ -129,7 +121,7 @@ pub(crate) fn release_lp_start(
             for &r in &inst.arc_res[a] {
                 res_terms[r].push((c, kf));
             }
-            share_terms.push((c, kf * share_coef(sp)));
+            share_terms.push((c, kf * share_coef(inst, a)));
         }
         site_rows.push(terms);
     }
