@@ -1,7 +1,9 @@
 //! Same inputs, same bytes, whatever the thread count: `plan` on the demo with
-//! `RAYON_NUM_THREADS=1` and `=2` writes identical files. The pipeline is single-threaded
-//! today; this pins the property before any stage goes parallel (a parallel reduction that
-//! sums floats in a thread-dependent order would show up here first).
+//! `RAYON_NUM_THREADS=1` and `=2` writes identical files. Pest pressure, the arcs, the hand
+//! plan, the bound's descent and the route search (depot-days, and a depot-day's two starts)
+//! run in parallel; each collects in a fixed order, and this pins it (a parallel reduction
+//! that sums floats in a thread-dependent order, or a depot-day's result that depends on the
+//! worker that took it, would show up here first).
 
 use std::collections::BTreeMap;
 use std::fs;
