@@ -370,8 +370,9 @@ impl<'i, 'a> State<'i, 'a> {
 
     /// The block at site position `sp`, just opened on arc `a`, left the dooryard share floor
     /// short: makes room on `a`'s rows and opens unserved requests until the floor holds,
-    /// each time the one of the first [`SHARE_REQUEST_TRIES`] `requests` (best standalone gain
-    /// first) that leaves the highest objective once room is made for it. The floor is not
+    /// each time the (request, arc) pair, of the first [`SHARE_REQUEST_TRIES`] of `requests`
+    /// (best standalone gain first) whose site is still unserved, that leaves the highest
+    /// objective once room is made for it. The floor is not
     /// checked on the way (every vial pushed out lowers the share until a request comes in);
     /// true when it holds at the end and every row fits. Runs inside a `checkpoint`.
     fn pay_share(
