@@ -60,16 +60,6 @@ impl Rows {
     }
 }
 
-/// The moves that empty site position `sp` (every arc with vials, to 0).
-fn emptying(st: &State, sp: usize) -> Vec<(usize, i64)> {
-    st.inst.sites[sp]
-        .arcs
-        .iter()
-        .filter(|&&a| st.x[a] > 0)
-        .map(|&a| (a, -i64::from(st.x[a])))
-        .collect()
-}
-
 /// What site position `sp` adds now: its value less the travel of its vials.
 fn contribution(st: &State, sp: usize) -> f64 {
     let inst = st.inst;
@@ -164,7 +154,7 @@ fn settle(st: &mut State, before: f64, touched: &[usize]) -> bool {
 /// time, in the site's arc order), refill the rows it left; kept at the first arc that gains.
 pub(super) fn relocate(st: &mut State, rows: &Rows, sp: usize, budget: u64) -> bool {
     let inst = st.inst;
-    let empty = emptying(st, sp);
+    let empty = st.emptying(sp);
     if empty.is_empty() {
         return false;
     }
@@ -207,7 +197,7 @@ pub(super) fn relocate(st: &mut State, rows: &Rows, sp: usize, budget: u64) -> b
 /// refilled. Kept when the objective rises.
 pub(super) fn swap(st: &mut State, rows: &Rows, s: usize, t: usize, budget: u64) -> bool {
     let inst = st.inst;
-    let (es, et) = (emptying(st, s), emptying(st, t));
+    let (es, et) = (st.emptying(s), st.emptying(t));
     if es.is_empty() || et.is_empty() || s == t {
         return false;
     }
@@ -315,7 +305,7 @@ pub(super) fn assign_rows(st: &mut State, rows: &Rows, cand: &[usize], budget: u
         }
         st.checkpoint();
         for &sp in &sites {
-            let empty = emptying(st, sp);
+            let empty = st.emptying(sp);
             st.commit(&empty);
         }
         // Unserved candidates: the best by their best release on a row of the set.

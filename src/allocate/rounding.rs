@@ -330,6 +330,16 @@ impl<'i, 'a> State<'i, 'a> {
         }
     }
 
+    /// The moves that empty site position `sp` (every arc with vials, to 0).
+    pub(super) fn emptying(&self, sp: usize) -> Vec<(usize, i64)> {
+        self.inst.sites[sp]
+            .arcs
+            .iter()
+            .filter(|&&a| self.x[a] > 0)
+            .map(|&a| (a, -i64::from(self.x[a])))
+            .collect()
+    }
+
     /// Pushes vials off arc `a`'s rows until both hold: each step takes, from another site
     /// on the over-full row (none in `keep`), one vial or its whole release, whichever loses
     /// least per vial and leaves that site valid. False when a row cannot be brought back.
@@ -343,13 +353,7 @@ impl<'i, 'a> State<'i, 'a> {
                     if self.x[b] == 0 || keep.contains(&sb) {
                         continue;
                     }
-                    let whole: Vec<(usize, i64)> = inst.sites[sb]
-                        .arcs
-                        .iter()
-                        .filter(|&&c| self.x[c] > 0)
-                        .map(|&c| (c, -i64::from(self.x[c])))
-                        .collect();
-                    for mv in [vec![(b, -1)], whole] {
+                    for mv in [vec![(b, -1)], self.emptying(sb)] {
                         let k: i64 = mv.iter().map(|m| -m.1).sum();
                         if let Some(g) = self.try_moves_with(&mv, false) {
                             let per = g / k as f64;
@@ -731,14 +735,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 continue;
             }
             let sp = inst.arc_site[a];
-            let one = vec![(a, -1)];
-            let all: Vec<(usize, i64)> = inst.sites[sp]
-                .arcs
-                .iter()
-                .filter(|&&b| st.x[b] > 0)
-                .map(|&b| (b, -i64::from(st.x[b])))
-                .collect();
-            for mv in [one, all] {
+            for mv in [vec![(a, -1)], st.emptying(sp)] {
                 let n: i64 = mv.iter().map(|m| -m.1).sum();
                 let before = st.total;
                 st.commit(&mv);
@@ -1015,12 +1012,7 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
                 continue;
             }
             let before_obj = st.obj;
-            let empty: Vec<(usize, i64)> = inst.sites[sp]
-                .arcs
-                .iter()
-                .filter(|&&b| st.x[b] > 0)
-                .map(|&b| (b, -i64::from(st.x[b])))
-                .collect();
+            let empty = st.emptying(sp);
             if st.try_moves(&empty).is_none() {
                 continue;
             }
