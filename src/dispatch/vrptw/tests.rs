@@ -424,15 +424,16 @@ fn penalised_search_only_keeps_routes_that_fit() {
         first.local_search(None);
         assert!(first.unserved.is_empty(), "seed {seed}: the fleet is ample");
         let mut rng = fastrand::Rng::with_seed(seed);
-        let (best, _) = search::ils(
+        let best = search::ils(
             first.clone(),
             &mut rng,
             400,
-            400,
+            search::Stall::fresh(400),
             std::time::Instant::now(),
             &opts(),
             true,
-        );
+        )
+        .best;
         assert!(best.feasible(), "seed {seed}");
         assert!(
             !first.key_lt(&best),
@@ -442,4 +443,47 @@ fn penalised_search_only_keeps_routes_that_fit() {
         assert!(sol.unserved.is_empty());
         check(&inst, &sol);
     }
+}
+
+#[test]
+fn the_stall_count_carries_into_a_continued_search() {
+    let inst = grid_instance(30, 3, 6, 40);
+    let d = Data::new(&inst, 8);
+    let mut first = state::State::empty(&d);
+    let order: Vec<usize> = (0..inst.vehicles.len()).collect();
+    first.construct(&order);
+    first.local_search(None);
+    let run = |stall: search::Stall| {
+        let mut rng = fastrand::Rng::with_seed(7);
+        search::ils(
+            first.clone(),
+            &mut rng,
+            500,
+            stall,
+            std::time::Instant::now(),
+            &opts(),
+            false,
+        )
+    };
+    // A search handed a spent count runs no round: it returns its start.
+    let spent = run(search::Stall {
+        limit: 40,
+        without_best: 40,
+    });
+    assert_eq!(spent.without_best, 40);
+    assert_eq!(spent.best.key(), first.key());
+    // Counted afresh it runs until 40 rounds in a row found nothing new (or all 500 ran).
+    let fresh = run(search::Stall::fresh(40));
+    assert!(fresh.without_best <= 40);
+    // Half spent, it stops after at most 20 more rounds without a new best, having run at
+    // most as far as the fresh search before its first new best.
+    let half = run(search::Stall {
+        limit: 40,
+        without_best: 20,
+    });
+    assert!(half.without_best <= 40);
+    assert!(
+        !half.best.key_lt(&fresh.best),
+        "a shorter search never beats the longer one"
+    );
 }
