@@ -221,13 +221,20 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
         None => (first, 0),
     };
     if !time_limited {
-        // The better start goes on with its own count of rounds without a new best: the
-        // stall limit holds for the search as a whole, not afresh after the starts.
+        // When the better start serves every customer it goes on with its own count of
+        // rounds without a new best: the stall limit holds for the search as a whole. When
+        // it leaves customers out, the count starts afresh: those rounds are where the left-
+        // out ones get in (on the generated 20,000-site week, one such depot-day delivered 9
+        // vials fewer with the count carried over).
         let mut rng = fastrand::Rng::with_seed(opts.seed);
         let rest = opts.max_iterations - per_start * STARTS;
         let stalled = Stall {
             limit: stall,
-            without_best,
+            without_best: if best.unserved.is_empty() {
+                without_best
+            } else {
+                0
+            },
         };
         let done = ils(best, &mut rng, rest, stalled, started, opts, false);
         best = done.best;
