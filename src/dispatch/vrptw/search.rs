@@ -148,10 +148,11 @@ impl State<'_> {
 /// independent late-acceptance searches from it with their own seeds, each given
 /// `max_iterations / (2 · STARTS)` rounds, then the best of those goes on for the remaining
 /// rounds. The search stops after [`stall_limit`] rounds in a row without a new best, counted
-/// over the search as a whole: the better start hands its count to the rounds that go on, so
-/// a start that ended 1,400 rounds past its last new best goes on for at most the rest of the
-/// limit. (Counted afresh, the continuation of every depot-day of the generated 35,000-site
-/// week but two ran its full stall limit without a new best: a third of the routing work.)
+/// over the search as a whole when the better start serves every customer: it hands its count
+/// to the rounds that go on, so a start that ended 1,400 rounds past its last new best goes
+/// on for at most the rest of the limit. (Counted afresh, the continuation of every depot-day
+/// of the generated 35,000-site week but two ran its full stall limit without a new best: a
+/// third of the routing work.) With customers left out the count starts afresh.
 pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
     let started = Instant::now();
     // One start per opening order of vehicle kinds; the best local optimum goes on.
