@@ -60,8 +60,8 @@
 //!
 //! Work limits end the search: `max_iterations` perturbation rounds in all, or `stall_rounds`
 //! in a row without a new best (30 per customer when that is fewer), counted across the
-//! starts and the rounds the better start goes on for when that start serves everyone. The same instance and
-//! seed give the same routes on any machine. A wall-clock `time_limit` exists only as an
+//! starts and the rounds the better start goes on for when that start serves everyone. The
+//! same instance and seed give the same routes on any machine. A wall-clock `time_limit` exists only as an
 //! explicit option (default `None`); when it binds, [`Solution::time_limited`] says so.
 
 use std::time::Duration;
