@@ -222,21 +222,9 @@ pub(super) fn run(data: &Data<'_>, opts: &SolveOptions) -> Solution {
         None => (first, 0),
     };
     if !time_limited {
-        // When the better start serves every customer it goes on with its own count of
-        // rounds without a new best: the stall limit holds for the search as a whole. When
-        // it leaves customers out, the count starts afresh: those rounds are where the left-
-        // out ones get in (on the generated 20,000-site week, one such depot-day delivered 9
-        // vials fewer with the count carried over).
         let mut rng = fastrand::Rng::with_seed(opts.seed);
         let rest = opts.max_iterations - per_start * STARTS;
-        let stalled = Stall {
-            limit: stall,
-            without_best: if best.unserved.is_empty() {
-                without_best
-            } else {
-                0
-            },
-        };
+        let stalled = Stall::going_on(stall, &best, without_best);
         let done = ils(best, &mut rng, rest, stalled, started, opts, false);
         best = done.best;
         time_limited = done.time_limited;
@@ -270,6 +258,23 @@ impl Stall {
         Stall {
             limit,
             without_best: 0,
+        }
+    }
+
+    /// The rule for the rounds a start's `best` goes on for, after `without_best` rounds of
+    /// that start found no new best. When it serves every customer it keeps that count: the
+    /// limit holds for the search as a whole. When it leaves customers out the count starts
+    /// afresh, since those rounds are where the left-out ones get in (on the generated
+    /// 20,000-site week, one such depot-day delivered 9 vials fewer with the count carried
+    /// over).
+    pub(super) fn going_on(limit: u32, best: &State<'_>, without_best: u32) -> Self {
+        Stall {
+            limit,
+            without_best: if best.unserved.is_empty() {
+                without_best
+            } else {
+                0
+            },
         }
     }
 }

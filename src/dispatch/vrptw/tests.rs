@@ -487,3 +487,31 @@ fn the_stall_count_carries_into_a_continued_search() {
         "a shorter search never beats the longer one"
     );
 }
+
+#[test]
+fn a_search_that_leaves_stops_out_goes_on_with_a_fresh_count() {
+    // Ten stops of 30 vials and one 40-vial van: it carries one stop.
+    let inst = grid_instance(10, 5, 1, 40);
+    let inst = Instance {
+        customers: inst
+            .customers
+            .iter()
+            .map(|c| Customer {
+                demand_vials: 30,
+                ..c.clone()
+            })
+            .collect(),
+        ..inst
+    };
+    let d = Data::new(&inst, 8);
+    let mut short = state::State::empty(&d);
+    short.construct(&[0]);
+    assert!(!short.unserved.is_empty());
+    assert_eq!(search::Stall::going_on(50, &short, 30).without_best, 0);
+    let roomy = grid_instance(10, 5, 4, 400);
+    let d = Data::new(&roomy, 8);
+    let mut all = state::State::empty(&d);
+    all.construct(&[0, 1, 2, 3]);
+    assert!(all.unserved.is_empty());
+    assert_eq!(search::Stall::going_on(50, &all, 30).without_best, 30);
+}
