@@ -8,6 +8,7 @@
 //! No address, name, phone or e-mail: requests are placed by their coordinates only.
 
 use geo::{LineString, MultiPolygon, Orient, orient::Direction};
+use rayon::prelude::*;
 use serde_json::{Map, Value, json};
 
 use super::{Delivered, OutputError, PlanView, priority_of, round_to};
@@ -96,9 +97,10 @@ fn route_line(view: &PlanView, r: &crate::dispatch::Route) -> Result<Value, Outp
 /// `preserve_order` feature; insertion order with it): deterministic either way. O(S + F).
 pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, OutputError> {
     let sc = view.scenario;
-    let mut features =
-        Vec::with_capacity(sc.sites.len() + sc.facilities.len() + view.dispatch.routes.len());
-    for (i, site) in sc.sites.iter().enumerate() {
+    // Each site's feature is built and written on its own, in parallel (the 35,000 block
+    // polygons of a large week took 0.3-0.5 s on one core), then joined in site order: the
+    // same bytes as writing the whole collection at once.
+    let site_feature = |(i, site): (usize, &crate::scenario::Site)| -> serde_json::Result<Vec<u8>> {
         let d = plan.per_site.get(i).cloned().unwrap_or_default();
         let geometry = match &site.detail {
             SiteDetail::Block(b) if !b.geometry.0.is_empty() => multipolygon(&b.geometry),
@@ -119,8 +121,14 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
             "reason".into(),
             plan.reason(view, i).map_or(Value::Null, |r| json!(r)),
         );
-        features.push(json!({"type": "Feature", "geometry": geometry, "properties": props}));
-    }
+        serde_json::to_vec(&json!({"type": "Feature", "geometry": geometry, "properties": props}))
+    };
+    let mut features: Vec<Vec<u8>> = sc
+        .sites
+        .par_iter()
+        .enumerate()
+        .map(site_feature)
+        .collect::<serde_json::Result<_>>()?;
     for f in &sc.facilities {
         let mut props = Map::new();
         props.insert("id".into(), json!(f.id.as_str()));
@@ -137,15 +145,23 @@ pub(crate) fn render(view: &PlanView, plan: &Delivered) -> Result<Vec<u8>, Outpu
         props.insert("facility_id".into(), json!(f.id.as_str()));
         props.insert("route_id".into(), Value::Null);
         props.insert("reason".into(), Value::Null);
-        features
-            .push(json!({"type": "Feature", "geometry": point(f.location), "properties": props}));
+        features.push(serde_json::to_vec(
+            &json!({"type": "Feature", "geometry": point(f.location), "properties": props}),
+        )?);
     }
     for r in &view.dispatch.routes {
-        features.push(route_line(view, r)?);
+        features.push(serde_json::to_vec(&route_line(view, r)?)?);
     }
-    let doc = json!({"type": "FeatureCollection", "features": features});
-    let mut bytes = serde_json::to_vec(&doc)?;
-    bytes.push(b'\n');
+    // {"features":[...],"type":"FeatureCollection"}: serde_json writes object keys sorted.
+    let mut bytes = Vec::with_capacity(features.iter().map(|f| f.len() + 1).sum::<usize>() + 64);
+    bytes.extend_from_slice(b"{\"features\":[");
+    for (k, f) in features.iter().enumerate() {
+        if k > 0 {
+            bytes.push(b',');
+        }
+        bytes.extend_from_slice(f);
+    }
+    bytes.extend_from_slice(b"],\"type\":\"FeatureCollection\"}\n");
     Ok(bytes)
 }
 
