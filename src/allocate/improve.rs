@@ -537,7 +537,7 @@ pub(super) fn release_moves(st: &mut State, cand: &[usize], budget: u64) -> bool
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
     use crate::allocate::AllocOptions;
     use crate::arcs::{Arc, Arcs};
@@ -554,7 +554,11 @@ mod tests {
     /// The fixture with F1 packing `monday` vials on Monday and `tuesday` on Tuesday, nothing
     /// else, and `arcs` (site, day) from F1; every site's priority 1. A release needs 2 vials
     /// (minimum 150 wasps, 100 a vial); a request takes 2.
-    fn week(monday: u32, tuesday: u32, arcs: &[(SiteIdx, u64)]) -> (Scenario, Vec<f64>, Arcs) {
+    pub(in crate::allocate) fn week(
+        monday: u32,
+        tuesday: u32,
+        arcs: &[(SiteIdx, u64)],
+    ) -> (Scenario, Vec<f64>, Arcs) {
         let mut s = tiny();
         s.policy.dooryard_share_min = 0.0;
         for sup in &mut s.supply {
@@ -573,7 +577,7 @@ mod tests {
         (s, priority, arcs)
     }
 
-    fn opts() -> AllocOptions {
+    pub(in crate::allocate) fn opts() -> AllocOptions {
         AllocOptions {
             pricing: false,
             ..AllocOptions::default()

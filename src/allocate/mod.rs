@@ -21,6 +21,7 @@ mod master;
 mod pricing;
 mod releases;
 mod rounding;
+mod windows;
 
 pub use constraint::ConstraintKind;
 pub use model::Solver;
@@ -511,6 +512,7 @@ fn run(
             start_from_plan(&inst, &opts.warm_plan, &mut cand)
         };
         let x = rounding::round(&inst, &start, &cand, opts.rounding_budget);
+        let x = rounding::polish_windows(&inst, &x, &cand);
         working_set = e.working_set.clone();
         (
             x,
@@ -677,6 +679,7 @@ fn run(
         } else {
             bound
         };
+        let x = rounding::polish_windows(&inst, &x, &cand);
         working_set = relax.working_set.clone();
         kept = keep_lp.then(|| LpSolve {
             x: inst

@@ -320,6 +320,15 @@ impl<'i, 'a> State<'i, 'a> {
         self.journal = None;
     }
 
+    /// [`State::keep`] when `keep`, else [`State::rollback`].
+    pub(super) fn rollback_unless(&mut self, keep: bool) {
+        if keep {
+            self.keep();
+        } else {
+            self.rollback();
+        }
+    }
+
     /// Returns to a saved plan (vials per arc). O(arcs).
     pub(super) fn restore(&mut self, saved: &[u32]) {
         for (a, &v) in saved.iter().enumerate() {
@@ -1048,6 +1057,19 @@ pub(crate) fn round(inst: &Instance, lp_x: &[f64], cand: &[bool], budget: u64) -
             st.restore(&saved);
         }
     }
+    st.x
+}
+
+/// The window polish (`windows.rs`) of the whole-vial plan `x` (vials per arc) over the
+/// candidate sites `cand` (by site position) and the sites `x` serves: the plan it returns is
+/// `x` or one with a higher objective.
+pub(crate) fn polish_windows(inst: &Instance, x: &[u32], cand: &[bool]) -> Vec<u32> {
+    let mut st = State::new(inst);
+    st.restore(x);
+    let list: Vec<usize> = (0..inst.sites.len())
+        .filter(|&sp| cand[sp] || inst.sites[sp].arcs.iter().any(|&a| x[a] > 0))
+        .collect();
+    super::windows::polish(&mut st, &list);
     st.x
 }
 
