@@ -1,10 +1,10 @@
 //! Window polish for the whole-vial plan (`docs/model.md`, "Step 4. Rounding to whole vials",
-//! "The window polish"): two small supply rows at a time are re-packed exactly.
+//! "The window polish"): one or two small supply rows at a time are re-packed exactly.
 //!
 //! Where pack days hold a handful of vials, the local search's moves (a vial, a release, a
 //! swap of two sites) can leave a vial or two on several pack days that no release can use:
-//! filling them means moving several sites between pack days at once. Here two supply rows
-//! that share a candidate site form a window; every site whose release is on one of them (or
+//! filling them means moving several sites between pack days at once. Here a small supply
+//! row, or two that share a candidate site, form a window; every site whose release is on it (or
 //! that is unserved and has an arc on one) is taken off, and a dynamic programme over the
 //! vials used on each row chooses, site by site, no release or one release (an arc on either
 //! row and a vial count) so that their value less travel is the largest the rows' free room
@@ -41,7 +41,7 @@ const MAX_WINDOW_STEPS: usize = 4_000_000;
 /// One release a site may take in a window: arc, vials, which of the two rows, and what it
 /// adds to the objective over leaving the site unserved.
 #[derive(Clone, Copy)]
-struct Option_ {
+struct Release {
     arc: usize,
     vials: u32,
     row: usize,
@@ -181,7 +181,7 @@ fn window(
     ];
     let width = cap[0] + 1;
     let states = width * (cap[1] + 1);
-    let options: Vec<Vec<Option_>> = sites.iter().map(|&sp| releases(st, sp, rows)).collect();
+    let options: Vec<Vec<Release>> = sites.iter().map(|&sp| releases(st, sp, rows)).collect();
     let steps: usize = options.iter().map(|o| o.len() * states).sum();
     *work += steps + sites.len();
     if steps > MAX_WINDOW_STEPS || options.iter().all(Vec::is_empty) {
@@ -189,7 +189,7 @@ fn window(
         return Outcome::Left;
     }
     let share = inst.share.unwrap_or(0.0);
-    let priced = |sp: usize, opt: &Option_| {
+    let priced = |sp: usize, opt: &Release| {
         let door = f64::from(u8::from(inst.sites[sp].kind == SiteKind::Dooryard));
         opt.gain + lambda * f64::from(opt.vials) * (door - share)
     };
@@ -266,7 +266,7 @@ fn window(
 /// Every single release of the empty site position `sp` on an arc of the window's rows within
 /// the arc's free room now, with what it adds over leaving the site unserved (only those that
 /// add more than 0).
-fn releases(st: &State, sp: usize, rows: [usize; 2]) -> Vec<Option_> {
+fn releases(st: &State, sp: usize, rows: [usize; 2]) -> Vec<Release> {
     let inst = st.inst;
     let site = &inst.sites[sp];
     let unserved = st.site_value(sp, 0.0, 0);
@@ -288,7 +288,7 @@ fn releases(st: &State, sp: usize, rows: [usize; 2]) -> Vec<Option_> {
             }
             let gain = st.site_value(sp, e, k) - f64::from(k) * inst.cost[a] - unserved;
             if gain > 1e-9 {
-                out.push(Option_ {
+                out.push(Release {
                     arc: a,
                     vials: k,
                     row,
