@@ -385,13 +385,20 @@ pub(super) fn assign_rows(st: &mut State, rows: &Rows, cand: &[usize], budget: u
         }
         // The floor failed: price dooryard vials higher and match again.
         let typical = rows.per_vial.iter().copied().fold(0.0f64, f64::max);
-        lambda = if attempt == 0 {
-            typical / 16.0
-        } else {
-            lambda * 4.0
-        };
+        lambda = raised_share_price(attempt, lambda, typical);
     }
     false
+}
+
+/// The price per dooryard vial (less the share of every vial) for the next try of a move
+/// whose plan broke the share floor at `lambda` on try `attempt`: 1/16 of `per_vial` (the
+/// most one vial of the move adds) after the first, unpriced try, then ×4 each time.
+pub(super) fn raised_share_price(attempt: usize, lambda: f64, per_vial: f64) -> f64 {
+    if attempt == 0 {
+        per_vial / 16.0
+    } else {
+        lambda * 4.0
+    }
 }
 
 /// Maximum-weight assignment of rows to columns (`weight[i][j]` ≥ 0; each row to at most one

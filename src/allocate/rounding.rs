@@ -622,7 +622,6 @@ impl<'i, 'a> State<'i, 'a> {
     }
 }
 
-/// Whole vials left on a resource with right-hand side `rhs` and `used` vials.
 /// Requests a block's compound opening may bring in to keep the dooryard share floor, per
 /// request added: each is made room for and the best kept (small: a request takes the
 /// standard count, so a few tries find the one whose row has the cheapest vials to push out).
@@ -647,6 +646,7 @@ fn request_openings(inst: &Instance, unserved: &[usize]) -> Vec<(usize, usize)> 
     opts.into_iter().map(|(_, sp, a)| (sp, a)).collect()
 }
 
+/// Whole vials left on a resource with right-hand side `rhs` and `used` vials.
 fn free_of(rhs: f64, used: f64) -> u32 {
     (rhs - used + 1e-7).floor().max(0.0) as u32
 }

@@ -14,6 +14,7 @@
 
 use std::collections::BTreeSet;
 
+use super::improve::raised_share_price;
 use super::instance::Resource;
 use super::rounding::State;
 use crate::scenario::SiteKind;
@@ -134,11 +135,7 @@ fn passes(
                         break;
                     }
                     Outcome::ShareShort(per_vial) if attempt + 1 < SHARE_ATTEMPTS => {
-                        lambda = if attempt == 0 {
-                            per_vial / 16.0
-                        } else {
-                            lambda * 4.0
-                        };
+                        lambda = raised_share_price(attempt, lambda, per_vial);
                     }
                     _ => break,
                 }
@@ -265,12 +262,12 @@ fn window(
             .all(|&r| st.used[r] <= inst.res_rhs[r] + 1e-7)
     });
     let gain = st.obj > before + 1e-9 * before.abs().max(1.0);
-    let sites_ok = sites.iter().all(|&sp| st.site_ok(sp));
+    let valid = gain && rows_hold && sites.iter().all(|&sp| st.site_ok(sp));
     let share_ok = st.share_ok();
-    st.rollback_unless(gain && rows_hold && sites_ok && share_ok);
-    if gain && rows_hold && sites_ok && share_ok {
+    st.rollback_unless(valid && share_ok);
+    if valid && share_ok {
         Outcome::Kept
-    } else if gain && rows_hold && sites_ok {
+    } else if valid {
         let per_vial = options
             .iter()
             .flatten()
