@@ -1,11 +1,11 @@
-//! The week's pipeline: scenario → priority → arcs → allocation → dispatch, with one round of
+//! The week's pipeline: scenario → priority → arcs → allocation → dispatch, with rounds of
 //! route feedback, and the same week planned by hand beside it ([`crate::baseline`]). Takes typed values, returns typed values; reads and prints nothing.
 
 use std::collections::{BTreeMap, BTreeSet};
 
 use chrono::NaiveDate;
 
-use crate::allocate::{self, AllocError, AllocOptions, Allocation};
+use crate::allocate::{self, AllocError, AllocOptions, Allocation, Note, NoteKind};
 use crate::arcs::{self, Arcs, Mode};
 use crate::baseline::{self, Baseline};
 use crate::dispatch::{self, Dispatch};
@@ -124,85 +124,85 @@ pub fn plan_with(
         )
     };
     let first_dispatch = route(&first);
+    let (allocation, dispatch, moved) = feed_back(
+        Week {
+            scenario: &scenario,
+            priority: &priority,
+            arcs: &arcs,
+            first_lp: first_lp.as_ref(),
+        },
+        alloc_opts,
+        (first, first_dispatch),
+        route,
+    )?;
+    Ok(Plan {
+        scenario,
+        priority,
+        arcs,
+        allocation,
+        dispatch,
+        moved,
+        baseline,
+    })
+}
+
+/// What a re-plan of the week needs besides the options.
+struct Week<'a> {
+    scenario: &'a Scenario,
+    priority: &'a [f64],
+    arcs: &'a Arcs,
+    /// The first solve's LP, which the re-plans keep (`None`: they solve their own).
+    first_lp: Option<&'a allocate::LpSolve>,
+}
+
+/// The route feedback: from the first plan and its dispatch, the final plan, its dispatch
+/// and what was moved (one line each), routing each plan with `route`.
+///
+/// Stops no route can serve go back to the allocation with those arcs removed, and each
+/// depot-day whose routes left stops out is capped at what they delivered; again while the new
+/// routes leave stops out, at most [`MAX_REPLANS`] times, the caps only ever lowered. Each
+/// round only takes options away (an arc, or route vials of a depot-day), so the first LP's
+/// bounds still hold. A stop the last routes still leave out is then dropped with its site;
+/// routing the smaller plan can still leave a stop out (routes change when stops go), so that
+/// repeats until every vial the objective counts is delivered. Each pass removes at least one
+/// site, so it ends.
+fn feed_back(
+    week: Week<'_>,
+    mut alloc_opts: AllocOptions,
+    (mut allocation, mut dispatch): (Allocation, Dispatch),
+    route: impl Fn(&Allocation) -> Dispatch,
+) -> Result<(Allocation, Dispatch, Vec<String>), AllocError> {
+    let Week {
+        scenario,
+        priority,
+        arcs,
+        first_lp,
+    } = week;
     let mut moved = Vec::new();
-    if first_dispatch.undeliverable.is_empty() {
-        return Ok(Plan {
-            scenario,
-            priority,
-            arcs,
-            allocation: first,
-            dispatch: first_dispatch,
-            moved,
-            baseline,
-        });
-    }
-    // A depot-day whose routes left stops out is full as the routes found it: the re-plan
-    // may send by route from it at most the vials they delivered, so the stops it takes away
-    // (and others) go to other days, facilities or parcels rather than back into the same
-    // shift. A restriction of the week, so the first LP's bounds still hold. These lines come
-    // first in `moved`: the report shows its first lines only.
-    // (delivered, planned) vials by route, per depot-day with a stop left out.
-    let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32)> = BTreeMap::new();
-    for u in &first_dispatch.undeliverable {
-        let a = &first.shipments[u.shipment].arc;
-        if a.mode == Mode::Route {
-            full.insert((a.facility, a.dispatch_date), (0, 0));
+    let mut replans = 0;
+    while !dispatch.undeliverable.is_empty() && replans < MAX_REPLANS {
+        replans += 1;
+        let (removed, caps) = feedback(scenario, &allocation, &dispatch, &mut moved);
+        alloc_opts.progress.report(Step::Replan);
+        alloc_opts.excluded.extend(removed);
+        for (day, delivered) in caps {
+            alloc_opts
+                .route_vials_cap
+                .entry(day)
+                .and_modify(|cap| *cap = (*cap).min(delivered))
+                .or_insert(delivered);
         }
+        alloc_opts.warm_start = allocation.working_set.iter().copied().collect();
+        alloc_opts.warm_plan = allocation.planned_vials();
+        // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are
+        // those of the exported model); it solves again when the first solve had no LP, and
+        // `allocate_from` does when the exclusions loosen the share floor or a force.
+        allocation = match first_lp {
+            Some(lp) => allocate::allocate_from(scenario, priority, arcs, &alloc_opts, lp)?,
+            None => allocate::allocate(scenario, priority, arcs, &alloc_opts)?,
+        };
+        dispatch = route(&allocation);
     }
-    for r in &first_dispatch.routes {
-        if let Some((delivered, _)) = full.get_mut(&(r.depot, r.date)) {
-            *delivered += r.vials();
-        }
-    }
-    for s in first.shipments.iter().filter(|s| s.arc.mode == Mode::Route) {
-        if let Some((_, planned)) = full.get_mut(&(s.arc.facility, s.arc.dispatch_date)) {
-            *planned += s.vials;
-        }
-    }
-    for (&(f, date), &(delivered, planned)) in &full {
-        moved.push(format!(
-            "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
-             the re-plan sends at most {delivered} vials by route from it that day",
-            scenario.facilities[f].id
-        ));
-    }
-    // Stops no route can serve go back to the allocation once, with those arcs removed.
-    let mut removed = BTreeSet::new();
-    for u in &first_dispatch.undeliverable {
-        let s = &first.shipments[u.shipment];
-        let a = &s.arc;
-        removed.insert((a.facility, a.dispatch_date, a.site, a.mode));
-        moved.push(format!(
-            "{} {}: {} vials from {} on {} could not be delivered by {} ({}); re-planned without that option",
-            scenario.sites[a.site].kind().as_str(),
-            scenario.sites[a.site].id,
-            s.vials,
-            scenario.facilities[a.facility].id,
-            a.dispatch_date,
-            a.mode.as_str(),
-            u.reason
-        ));
-    }
-    progress.report(Step::Replan);
-    alloc_opts.excluded.extend(removed);
-    alloc_opts.route_vials_cap.extend(
-        full.into_iter()
-            .map(|(day, (delivered, _))| (day, delivered)),
-    );
-    alloc_opts.warm_start = first.working_set.iter().copied().collect();
-    alloc_opts.warm_plan = first.planned_vials();
-    // The re-plan keeps the first LP (its bounds hold with arcs left out, and they are those
-    // of the exported model); it solves again when the first solve had no LP, and
-    // `allocate_from` does when the exclusions loosen the share floor or a force.
-    let second = match &first_lp {
-        Some(lp) => allocate::allocate_from(&scenario, &priority, &arcs, &alloc_opts, lp)?,
-        None => allocate::allocate(&scenario, &priority, &arcs, &alloc_opts)?,
-    };
-    let second_dispatch = route(&second);
-    // A stop the re-planned routes cannot serve is dropped with its site; routing the smaller
-    // plan can still leave a stop out (routes change when stops go), so repeat until every
-    // vial the objective counts is delivered. Each pass removes at least one site, so this ends.
-    let (mut allocation, mut dispatch) = (second, second_dispatch);
     let mut after = "re-planning";
     while !dispatch.undeliverable.is_empty() {
         let dropped: Vec<usize> = dispatch.undeliverable.iter().map(|u| u.shipment).collect();
@@ -217,26 +217,85 @@ pub fn plan_with(
                 scenario.facilities[s.arc.facility].id
             ));
         }
-        allocation = drop_undeliverable(
-            &scenario,
-            &priority,
-            &arcs,
-            &alloc_opts,
-            allocation,
-            &dropped,
-        )?;
+        allocation =
+            drop_undeliverable(scenario, priority, arcs, &alloc_opts, allocation, &dropped)?;
         dispatch = route(&allocation);
         after = "re-routing";
     }
-    Ok(Plan {
-        scenario,
-        priority,
-        arcs,
-        allocation,
-        dispatch,
-        moved,
-        baseline,
-    })
+    Ok((allocation, dispatch, moved))
+}
+
+/// Most rounds of route feedback (re-plans) before stops the routes still leave out are
+/// dropped: a work limit. On the generated 20,000-site week (`generate --sites 20000 --seed 3
+/// --supply 2`) one round left 24 vials on five blocks of a depot-day the first routes had
+/// served in full, and a second round delivered them.
+const MAX_REPLANS: usize = 2;
+
+/// What `dispatch`'s left-out stops take away from the next re-plan of `allocation`: the arcs
+/// no route served, and for each depot-day whose routes left a stop out, the vials its routes
+/// delivered (the re-plan may send at most that many by route from it that day, so the stops
+/// it takes away go to other days, facilities or parcels rather than back into the same
+/// shift). Writes one line per capped depot-day, then one per left-out stop, to `moved`.
+#[allow(clippy::type_complexity)]
+fn feedback(
+    scenario: &Scenario,
+    allocation: &Allocation,
+    dispatch: &Dispatch,
+    moved: &mut Vec<String>,
+) -> (
+    BTreeSet<allocate::ArcKey>,
+    BTreeMap<(FacilityIdx, NaiveDate), u32>,
+) {
+    // (delivered, planned) vials by route, per depot-day with a stop left out.
+    let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32)> = BTreeMap::new();
+    for u in &dispatch.undeliverable {
+        let a = &allocation.shipments[u.shipment].arc;
+        if a.mode == Mode::Route {
+            full.insert((a.facility, a.dispatch_date), (0, 0));
+        }
+    }
+    for r in &dispatch.routes {
+        if let Some((delivered, _)) = full.get_mut(&(r.depot, r.date)) {
+            *delivered += r.vials();
+        }
+    }
+    for s in allocation
+        .shipments
+        .iter()
+        .filter(|s| s.arc.mode == Mode::Route)
+    {
+        if let Some((_, planned)) = full.get_mut(&(s.arc.facility, s.arc.dispatch_date)) {
+            *planned += s.vials;
+        }
+    }
+    for (&(f, date), &(delivered, planned)) in &full {
+        moved.push(format!(
+            "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
+             the re-plan sends at most {delivered} vials by route from it that day",
+            scenario.facilities[f].id
+        ));
+    }
+    let mut removed = BTreeSet::new();
+    for u in &dispatch.undeliverable {
+        let s = &allocation.shipments[u.shipment];
+        let a = &s.arc;
+        removed.insert((a.facility, a.dispatch_date, a.site, a.mode));
+        moved.push(format!(
+            "{} {}: {} vials from {} on {} could not be delivered by {} ({}); re-planned without that option",
+            scenario.sites[a.site].kind().as_str(),
+            scenario.sites[a.site].id,
+            s.vials,
+            scenario.facilities[a.facility].id,
+            a.dispatch_date,
+            a.mode.as_str(),
+            u.reason
+        ));
+    }
+    let caps = full
+        .into_iter()
+        .map(|(day, (delivered, _))| (day, delivered))
+        .collect();
+    (removed, caps)
 }
 
 /// Removes every shipment of each site that has an undeliverable one (a block must keep its
@@ -254,9 +313,39 @@ fn drop_undeliverable(
         .iter()
         .map(|&i| allocation.shipments[i].arc.site)
         .collect();
+    let before: u64 = allocation
+        .shipments
+        .iter()
+        .map(|s| u64::from(s.vials))
+        .sum();
     allocation
         .shipments
         .retain(|s| !sites.contains(&s.arc.site));
+    let shipped: u64 = allocation
+        .shipments
+        .iter()
+        .map(|s| u64::from(s.vials))
+        .sum();
+    // The note on unshipped vials counts what is shipped now, and says why the dropped
+    // vials stay.
+    let supply = scenario.total_supply_vials();
+    let earlier = allocation.notes.iter().find_map(|n| match n.kind {
+        NoteKind::SupplyUndelivered { dropped, .. } => Some(dropped),
+        _ => None,
+    });
+    allocation.notes.retain(|n| {
+        !matches!(
+            n.kind,
+            NoteKind::SupplyUnused { .. } | NoteKind::SupplyUndelivered { .. }
+        )
+    });
+    allocation
+        .notes
+        .push(Note::new(NoteKind::SupplyUndelivered {
+            shipped,
+            supply,
+            dropped: earlier.unwrap_or(0) + (before - shipped),
+        }));
     for &s in &sites {
         let outcome = &mut allocation.sites[s];
         outcome.vials = 0;
@@ -267,4 +356,160 @@ fn drop_undeliverable(
         allocate::plan_objective(scenario, priority, arcs, opts, &allocation.shipments)?;
     allocation.gap = allocate::gap(allocation.objective, allocation.bound);
     Ok(allocation)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::allocate::synthetic;
+    use crate::dispatch::{Route, Stop, Undeliverable};
+
+    /// A stand-in for the route search whose depot-days serve at most `limit` stops each (as a
+    /// shift does: every stop takes service time): each depot-day's first `limit` route
+    /// shipments in order; the rest are left out ("shift").
+    fn router(limit: u32) -> impl Fn(&Allocation) -> Dispatch {
+        move |allocation: &Allocation| {
+            let mut out = Dispatch::default();
+            let mut days: BTreeMap<(FacilityIdx, NaiveDate), Route> = BTreeMap::new();
+            for (i, sh) in allocation.shipments.iter().enumerate() {
+                if sh.arc.mode != Mode::Route {
+                    continue;
+                }
+                let (f, date) = (sh.arc.facility, sh.arc.dispatch_date);
+                let at = date.and_hms_opt(8, 0, 0).expect("a time");
+                let route = days.entry((f, date)).or_insert_with(|| Route {
+                    id: format!("R-{f}-{date}"),
+                    vehicle: 0,
+                    depot: f,
+                    date,
+                    depart: at,
+                    return_at: at,
+                    stops: Vec::new(),
+                    drive_minutes: 0.0,
+                    path: Vec::new(),
+                });
+                if route.stops.len() as u32 >= limit {
+                    out.undeliverable.push(Undeliverable {
+                        shipment: i,
+                        reason: "shift",
+                    });
+                } else {
+                    route.stops.push(Stop {
+                        shipment: i,
+                        site: sh.arc.site,
+                        arrival: at,
+                        service_start: at,
+                        vials: sh.vials,
+                        wasps_expected_alive: sh.wasps_expected_alive(),
+                        release_by: at,
+                    });
+                }
+            }
+            out.routes = days.into_values().collect();
+            out
+        }
+    }
+
+    /// The week, its first plan and LP, and the first plan's most stops on one depot-day.
+    fn first_week() -> (Scenario, Vec<f64>, Arcs, Allocation, allocate::LpSolve, u32) {
+        let (s, p, arcs) = synthetic::generate(13, 2000, 400);
+        let opts = AllocOptions {
+            direct_max_arcs: 0,
+            ..Default::default()
+        };
+        let (first, lp) =
+            allocate::allocate_keeping_lp(&s, &p, &arcs, &opts).expect("a valid week");
+        let mut by_day: BTreeMap<(FacilityIdx, NaiveDate), u32> = BTreeMap::new();
+        for sh in first
+            .shipments
+            .iter()
+            .filter(|sh| sh.arc.mode == Mode::Route)
+        {
+            *by_day
+                .entry((sh.arc.facility, sh.arc.dispatch_date))
+                .or_default() += 1;
+        }
+        let most = by_day.values().copied().max().unwrap_or(0);
+        (s, p, arcs, first, lp.expect("usable arcs"), most)
+    }
+
+    #[test]
+    fn route_feedback_re_plans_again_when_the_new_routes_leave_stops_out() {
+        let (s, p, arcs, first, lp, most) = first_week();
+        // Three quarters of the busiest depot-day's stops: the first re-plan moves the stops
+        // left out to other days, where the same limit leaves some out again.
+        let route = router(most * 3 / 4);
+        let first_dispatch = route(&first);
+        assert!(!first_dispatch.undeliverable.is_empty());
+        let (allocation, dispatch, moved) = feed_back(
+            Week {
+                scenario: &s,
+                priority: &p,
+                arcs: &arcs,
+                first_lp: Some(&lp),
+            },
+            AllocOptions {
+                direct_max_arcs: 0,
+                ..Default::default()
+            },
+            (first, first_dispatch),
+            &route,
+        )
+        .expect("a valid week");
+        let capped = moved.iter().filter(|m| m.contains("planned vials")).count();
+        let dropped = moved.iter().filter(|m| m.contains("dropped")).count();
+        assert!(dispatch.undeliverable.is_empty());
+        assert_eq!(route(&allocation).undeliverable.len(), 0);
+        // A second round was needed, and it left nothing to drop.
+        assert!(
+            moved
+                .iter()
+                .skip_while(|m| !m.contains("re-planned without"))
+                .any(|m| m.contains("planned vials")),
+            "{moved:#?}"
+        );
+        assert_eq!(dropped, 0, "{moved:#?}");
+        assert!(capped >= 2);
+    }
+
+    #[test]
+    fn dropped_vials_are_counted_in_the_note_on_unshipped_vials() {
+        let (s, p, arcs, first, _, _) = first_week();
+        let opts = AllocOptions::default();
+        let total = |a: &Allocation| {
+            a.shipments
+                .iter()
+                .map(|sh| u64::from(sh.vials))
+                .sum::<u64>()
+        };
+        let note = |a: &Allocation| {
+            a.notes.iter().find_map(|n| match n.kind {
+                NoteKind::SupplyUndelivered {
+                    shipped, dropped, ..
+                } => Some((shipped, dropped)),
+                _ => None,
+            })
+        };
+        let before = total(&first);
+        let once = drop_undeliverable(&s, &p, &arcs, &opts, first, &[0]).expect("valid");
+        let after_once = total(&once);
+        assert!(after_once < before);
+        assert_eq!(note(&once), Some((after_once, before - after_once)));
+        // A second drop adds to the count; one note on unshipped vials only.
+        let twice = drop_undeliverable(&s, &p, &arcs, &opts, once, &[0]).expect("valid");
+        let after_twice = total(&twice);
+        assert!(after_twice < after_once);
+        assert_eq!(note(&twice), Some((after_twice, before - after_twice)));
+        let unshipped_notes = twice
+            .notes
+            .iter()
+            .filter(|n| {
+                matches!(
+                    n.kind,
+                    NoteKind::SupplyUnused { .. } | NoteKind::SupplyUndelivered { .. }
+                )
+            })
+            .count();
+        assert_eq!(unshipped_notes, 1);
+    }
 }

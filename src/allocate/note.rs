@@ -166,6 +166,16 @@ pub enum NoteKind {
         /// Vials packed.
         supply: u64,
     },
+    /// Some vials stay at the facilities, and some of them because the routes of the last
+    /// re-plan could not serve their stops (those sites were dropped).
+    SupplyUndelivered {
+        /// Vials shipped.
+        shipped: u64,
+        /// Vials packed.
+        supply: u64,
+        /// Vials of the dropped sites.
+        dropped: u64,
+    },
 }
 
 /// The note's text.
@@ -291,6 +301,17 @@ impl fmt::Display for NoteKind {
                 f,
                 "{shipped} of {supply} vials shipped; no whole vial more adds value within the \
                  release limits, vehicle and parcel capacity, shelf life and the dooryard share"
+            ),
+            NoteKind::SupplyUndelivered {
+                shipped,
+                supply,
+                dropped,
+            } => write!(
+                f,
+                "{shipped} of {supply} vials shipped; {dropped} of those unshipped were planned \
+                 for stops the re-planned routes could not serve (listed with the route \
+                 feedback); no whole vial more adds value to the rest within the release \
+                 limits, vehicle and parcel capacity, shelf life and the dooryard share"
             ),
         }
     }
