@@ -2,7 +2,7 @@
 //! broodcast's own result on each, as JSON lines.
 //!
 //! `cargo run --release --example bench_routing_peers -- [--out FILE] [--weeks 0:1,1500:2]
-//! [--busy 1,2] [--solomon C101,R101] [--seeds 1,2] [--day-seeds 1] [--iterations N]
+//! [--busy 1,2] [--solomon C101,R101] [--seeds 1,2] [--day-seeds 1] [--iterations N] [--stall N]
 //! [--only TEXT] [--replay FILE]`
 //!
 //! Instances: the route depot-days of planned generated weeks (`SITES:SEED`; SITES 0 is the
@@ -30,6 +30,14 @@ use broodcast::generate::{self, GenParams};
 use broodcast::plan::{self, PlanOptions};
 use broodcast::travel::TravelModel;
 use serde_json::json;
+
+/// The search's work limits: perturbation rounds in all (`--iterations`) and rounds in a row
+/// without a new best (`--stall`); both default to `SolveOptions::default()`.
+#[derive(Clone, Copy)]
+struct Limits {
+    iterations: u32,
+    stall: u32,
+}
 
 /// Scale applied to every time before rounding to integers.
 const SCALE: f64 = 100.0;
@@ -154,8 +162,8 @@ fn from_json(v: &serde_json::Value) -> Result<Instance, Box<dyn std::error::Erro
     })
 }
 
-fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], iterations: u32) -> String {
-    record_scaled(name, kind, &scaled(inst), seeds, iterations)
+fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], limits: Limits) -> String {
+    record_scaled(name, kind, &scaled(inst), seeds, limits)
 }
 
 /// [`record`] of an instance already scaled.
@@ -164,7 +172,7 @@ fn record_scaled(
     kind: &str,
     inst: &Instance,
     seeds: &[u64],
-    iterations: u32,
+    limits: Limits,
 ) -> String {
     let runs: Vec<serde_json::Value> = seeds
         .iter()
@@ -174,7 +182,8 @@ fn record_scaled(
                 inst,
                 &SolveOptions {
                     seed,
-                    max_iterations: iterations,
+                    max_iterations: limits.iterations,
+                    stall_rounds: limits.stall,
                     ..SolveOptions::default()
                 },
             );
@@ -238,7 +247,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut busy: Vec<u64> = Vec::new();
     let mut seeds = vec![1u64];
     let mut day_seeds: Option<Vec<u64>> = None;
-    let mut iterations = SolveOptions::default().max_iterations;
+    let mut limits = Limits {
+        iterations: SolveOptions::default().max_iterations,
+        stall: SolveOptions::default().stall_rounds,
+    };
     let mut only = String::new();
     let mut replay: Option<PathBuf> = None;
     while let Some(a) = args.next() {
@@ -273,7 +285,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             "--day-seeds" => {
                 day_seeds = Some(v.split(',').map(str::parse).collect::<Result<_, _>>()?)
             }
-            "--iterations" => iterations = v.parse()?,
+            "--iterations" => limits.iterations = v.parse()?,
+            "--stall" => limits.stall = v.parse()?,
             "--only" => only = v,
             "--replay" => replay = Some(PathBuf::from(v)),
             other => return Err(format!("unknown argument {other}; see the file's doc").into()),
@@ -297,7 +310,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             writeln!(
                 f,
                 "{}",
-                record_scaled(name, kind, &from_json(&v)?, seeds, iterations)
+                record_scaled(name, kind, &from_json(&v)?, seeds, limits)
             )?;
         }
         f.flush()?;
@@ -311,7 +324,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             continue;
         }
         let inst = solomon(&data.join(format!("{name}.txt")));
-        writeln!(f, "{}", record(name, "solomon", &inst, &seeds, iterations))?;
+        writeln!(f, "{}", record(name, "solomon", &inst, &seeds, limits))?;
         eprintln!("{name}");
     }
     let day_seeds = day_seeds.unwrap_or_else(|| seeds.clone());
@@ -351,7 +364,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             if !name.contains(&only) {
                 continue;
             }
-            writeln!(f, "{}", record(&name, kind, &inst, &day_seeds, iterations))?;
+            writeln!(f, "{}", record(&name, kind, &inst, &day_seeds, limits))?;
         }
         eprintln!("{label}");
     }
