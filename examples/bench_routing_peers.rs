@@ -167,13 +167,7 @@ fn record(name: &str, kind: &str, inst: &Instance, seeds: &[u64], limits: Limits
 }
 
 /// [`record`] of an instance already scaled.
-fn record_scaled(
-    name: &str,
-    kind: &str,
-    inst: &Instance,
-    seeds: &[u64],
-    limits: Limits,
-) -> String {
+fn record_scaled(name: &str, kind: &str, inst: &Instance, seeds: &[u64], limits: Limits) -> String {
     let runs: Vec<serde_json::Value> = seeds
         .iter()
         .map(|&seed| {

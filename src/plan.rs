@@ -231,21 +231,20 @@ fn feed_back(
 /// served in full, and a second round delivered them.
 const MAX_REPLANS: usize = 2;
 
+/// Vials a re-plan may send by route per depot-day (facility, dispatch day).
+type DayCaps = BTreeMap<(FacilityIdx, NaiveDate), u32>;
+
 /// What `dispatch`'s left-out stops take away from the next re-plan of `allocation`: the arcs
 /// no route served, and for each depot-day whose routes left a stop out, the vials its routes
 /// delivered (the re-plan may send at most that many by route from it that day, so the stops
 /// it takes away go to other days, facilities or parcels rather than back into the same
 /// shift). Writes one line per capped depot-day, then one per left-out stop, to `moved`.
-#[allow(clippy::type_complexity)]
 fn feedback(
     scenario: &Scenario,
     allocation: &Allocation,
     dispatch: &Dispatch,
     moved: &mut Vec<String>,
-) -> (
-    BTreeSet<allocate::ArcKey>,
-    BTreeMap<(FacilityIdx, NaiveDate), u32>,
-) {
+) -> (BTreeSet<allocate::ArcKey>, DayCaps) {
     // (delivered, planned) vials by route, per depot-day with a stop left out.
     let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32)> = BTreeMap::new();
     for u in &dispatch.undeliverable {
