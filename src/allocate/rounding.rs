@@ -299,12 +299,12 @@ impl<'i, 'a> State<'i, 'a> {
     }
 
     /// Commits recorded since `checkpoint` (a mark for `rollback_to`).
-    fn journal_len(&self) -> usize {
+    pub(super) fn journal_len(&self) -> usize {
         self.journal.as_ref().map_or(0, Vec::len)
     }
 
     /// Undoes the commits recorded after `mark` and goes on recording.
-    fn rollback_to(&mut self, mark: usize) {
+    pub(super) fn rollback_to(&mut self, mark: usize) {
         let Some(mut journal) = self.journal.take() else {
             return;
         };
@@ -318,15 +318,6 @@ impl<'i, 'a> State<'i, 'a> {
     /// Keeps every commit since `checkpoint`, and stops recording.
     pub(super) fn keep(&mut self) {
         self.journal = None;
-    }
-
-    /// [`State::keep`] when `keep`, else [`State::rollback`].
-    pub(super) fn rollback_unless(&mut self, keep: bool) {
-        if keep {
-            self.keep();
-        } else {
-            self.rollback();
-        }
     }
 
     /// Returns to a saved plan (vials per arc). O(arcs).

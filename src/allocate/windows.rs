@@ -123,22 +123,9 @@ fn passes(
             {
                 continue;
             }
-            let mut lambda = 0.0;
-            for attempt in 0..SHARE_ATTEMPTS {
-                if *work >= WORK_LIMIT {
-                    break;
-                }
-                match window(st, cand, rows, lambda, work) {
-                    Outcome::Kept => {
-                        any = true;
-                        now.extend(rows.iter().copied());
-                        break;
-                    }
-                    Outcome::ShareShort(per_vial) if attempt + 1 < SHARE_ATTEMPTS => {
-                        lambda = raised_share_price(attempt, lambda, per_vial);
-                    }
-                    _ => break,
-                }
+            if *work < WORK_LIMIT && window(st, cand, rows, work) {
+                any = true;
+                now.extend(rows.iter().copied());
             }
         }
         improved |= any;
@@ -154,26 +141,15 @@ fn passes(
 /// dooryard vial raised until the floor holds.
 const SHARE_ATTEMPTS: usize = 4;
 
-/// What became of one window.
-enum Outcome {
-    /// Re-packed: the plan gained.
-    Kept,
-    /// Its best packing broke only the share floor; the most one vial of the window adds.
-    ShareShort(f64),
-    /// Nothing to gain, or a row or site rule broken.
-    Left,
-}
-
-/// The exact re-packing of rows `rows` over the sites of `cand` that can use them, each
-/// dooryard vial worth `lambda` more and every vial `lambda · share` less (a price on the
-/// share floor); kept when the plan gains and stays feasible.
-fn window(
-    st: &mut State,
-    cand: &[usize],
-    rows: &[usize],
-    lambda: f64,
-    work: &mut usize,
-) -> Outcome {
+/// The exact re-packing of rows `rows` over the sites of `cand` that can use them; kept when
+/// the plan gains and stays feasible. Returns whether it was kept.
+///
+/// The sites are taken off and their releases listed once; the programme then runs up to
+/// [`SHARE_ATTEMPTS`] times, first without a price on the share floor, then, while its best
+/// packing breaks only the floor, with each dooryard vial worth `lambda` more and every vial
+/// `lambda · share` less. Each run adds its steps to `work`; a run after the first starts
+/// only below [`WORK_LIMIT`].
+fn window(st: &mut State, cand: &[usize], rows: &[usize], work: &mut usize) -> bool {
     let inst = st.inst;
     let in_window = |a: usize| rows.contains(&inst.arc_res[a][0]);
     // Sites with an arc on the window and no release outside it.
@@ -187,7 +163,7 @@ fn window(
         })
         .collect();
     if sites.is_empty() {
-        return Outcome::Left;
+        return false;
     }
     let before = st.obj;
     st.checkpoint();
@@ -208,74 +184,120 @@ fn window(
     *work += steps + sites.len();
     if steps > MAX_WINDOW_STEPS || options.iter().all(Vec::is_empty) {
         st.rollback();
-        return Outcome::Left;
+        return false;
     }
-    let share = inst.share.unwrap_or(0.0);
-    let priced = |sp: usize, opt: &Release| {
-        let door = f64::from(u8::from(inst.sites[sp].kind == SiteKind::Dooryard));
-        opt.gain + lambda * f64::from(opt.vials) * (door - share)
+    // The window emptied: each try re-packs from here.
+    let emptied = st.journal_len();
+    let packing = Packing {
+        sites: &sites,
+        options: &options,
+        cap: &cap,
+        stride: &stride,
+        states,
     };
-    // best[s]: the most the sites so far add with the vials s stands for used on the rows;
-    // came[j][s]: the release site j took to reach s, and the state before it.
-    let mut best = vec![f64::NEG_INFINITY; states];
-    best[0] = 0.0;
-    let mut came: Vec<Vec<Option<(u32, u32)>>> = Vec::with_capacity(sites.len());
-    for (opts, &sp) in options.iter().zip(&sites) {
-        let mut next = best.clone();
-        let mut from: Vec<Option<(u32, u32)>> = vec![None; states];
-        for (s, &here) in best.iter().enumerate() {
-            if here == f64::NEG_INFINITY {
-                continue;
+    let mut lambda = 0.0;
+    for attempt in 0..SHARE_ATTEMPTS {
+        if attempt > 0 {
+            if *work >= WORK_LIMIT {
+                break;
             }
-            for (o, opt) in opts.iter().enumerate() {
-                let (k, i) = (opt.vials as usize, opt.row);
-                if (s / stride[i]) % (cap[i] + 1) + k > cap[i] {
-                    continue;
-                }
-                let t = s + k * stride[i];
-                let v = here + priced(sp, opt);
-                if v > next[t] {
-                    next[t] = v;
-                    from[t] = Some((o as u32, s as u32));
-                }
-            }
+            *work += steps + sites.len();
         }
-        best = next;
-        came.push(from);
-    }
-    let mut s = (0..states)
-        .max_by(|&x, &y| best[x].total_cmp(&best[y]).then(y.cmp(&x)))
-        .unwrap_or(0);
-    let mut chosen: Vec<(usize, i64)> = Vec::new();
-    for (j, from) in came.iter().enumerate().rev() {
-        if let Some((o, prev)) = from[s] {
-            let opt = options[j][o as usize];
-            chosen.push((opt.arc, i64::from(opt.vials)));
-            s = prev as usize;
+        let chosen = packing.best(inst, lambda);
+        st.commit(&chosen);
+        let rows_hold = chosen.iter().all(|&(a, _)| {
+            inst.arc_res[a]
+                .iter()
+                .all(|&r| st.used[r] <= inst.res_rhs[r] + 1e-7)
+        });
+        let gain = st.obj > before + 1e-9 * before.abs().max(1.0);
+        let valid = gain && rows_hold && sites.iter().all(|&sp| st.site_ok(sp));
+        if valid && st.share_ok() {
+            st.keep();
+            return true;
         }
-    }
-    chosen.reverse();
-    st.commit(&chosen);
-    let rows_hold = chosen.iter().all(|&(a, _)| {
-        inst.arc_res[a]
-            .iter()
-            .all(|&r| st.used[r] <= inst.res_rhs[r] + 1e-7)
-    });
-    let gain = st.obj > before + 1e-9 * before.abs().max(1.0);
-    let valid = gain && rows_hold && sites.iter().all(|&sp| st.site_ok(sp));
-    let share_ok = st.share_ok();
-    st.rollback_unless(valid && share_ok);
-    if valid && share_ok {
-        Outcome::Kept
-    } else if valid {
+        if !valid {
+            break;
+        }
+        // Only the share floor broke: price it and pack again.
+        st.rollback_to(emptied);
         let per_vial = options
             .iter()
             .flatten()
             .map(|o| o.gain / f64::from(o.vials.max(1)))
             .fold(0.0, f64::max);
-        Outcome::ShareShort(per_vial)
-    } else {
-        Outcome::Left
+        lambda = raised_share_price(attempt, lambda, per_vial);
+    }
+    st.rollback();
+    false
+}
+
+/// A window's programme: its sites, their releases and the rows' free room as a mixed radix.
+struct Packing<'a> {
+    sites: &'a [usize],
+    options: &'a [Vec<Release>],
+    cap: &'a [usize],
+    stride: &'a [usize],
+    states: usize,
+}
+
+impl Packing<'_> {
+    /// The releases (arc, vials) of the packing with the most value, each dooryard vial worth
+    /// `lambda` more and every vial `lambda · share` less. O(states × releases).
+    fn best(&self, inst: &super::instance::Instance, lambda: f64) -> Vec<(usize, i64)> {
+        let Packing {
+            sites,
+            options,
+            cap,
+            stride,
+            states,
+        } = *self;
+        let share = inst.share.unwrap_or(0.0);
+        let priced = |sp: usize, opt: &Release| {
+            let door = f64::from(u8::from(inst.sites[sp].kind == SiteKind::Dooryard));
+            opt.gain + lambda * f64::from(opt.vials) * (door - share)
+        };
+        // best[s]: the most the sites so far add with the vials s stands for used on the rows;
+        // came[j][s]: the release site j took to reach s, and the state before it.
+        let mut best = vec![f64::NEG_INFINITY; states];
+        best[0] = 0.0;
+        let mut came: Vec<Vec<Option<(u32, u32)>>> = Vec::with_capacity(sites.len());
+        for (opts, &sp) in options.iter().zip(sites) {
+            let mut next = best.clone();
+            let mut from: Vec<Option<(u32, u32)>> = vec![None; states];
+            for (s, &here) in best.iter().enumerate() {
+                if here == f64::NEG_INFINITY {
+                    continue;
+                }
+                for (o, opt) in opts.iter().enumerate() {
+                    let (k, i) = (opt.vials as usize, opt.row);
+                    if (s / stride[i]) % (cap[i] + 1) + k > cap[i] {
+                        continue;
+                    }
+                    let t = s + k * stride[i];
+                    let v = here + priced(sp, opt);
+                    if v > next[t] {
+                        next[t] = v;
+                        from[t] = Some((o as u32, s as u32));
+                    }
+                }
+            }
+            best = next;
+            came.push(from);
+        }
+        let mut s = (0..states)
+            .max_by(|&x, &y| best[x].total_cmp(&best[y]).then(y.cmp(&x)))
+            .unwrap_or(0);
+        let mut chosen: Vec<(usize, i64)> = Vec::new();
+        for (j, from) in came.iter().enumerate().rev() {
+            if let Some((o, prev)) = from[s] {
+                let opt = options[j][o as usize];
+                chosen.push((opt.arc, i64::from(opt.vials)));
+                s = prev as usize;
+            }
+        }
+        chosen.reverse();
+        chosen
     }
 }
 
@@ -337,6 +359,37 @@ mod tests {
         assert!(st.obj > before);
         assert!(!polish(&mut st, &[0, 1]), "nothing better is left");
         assert_eq!(st.x, vec![3, 0, 0, 2]);
+    }
+
+    #[test]
+    fn a_window_whose_best_packing_breaks_the_share_floor_is_priced_and_packed_again() {
+        // Monday holds 4 vials; blocks B1, B2 (sites 0, 1, priority 1.5) and request R1 (site
+        // 6, priority 1) can use it, and the dooryard share floor is 0.3. Start: R1's 2 vials. The window's best
+        // packing without a price gives both blocks 2 vials each, which leaves no dooryard
+        // vial; priced, it keeps R1 and adds a block.
+        let (mut s, mut p, a) = week(4, 0, &[(0, 0), (1, 0), (6, 0)]);
+        s.policy.dooryard_share_min = 0.3;
+        // The blocks' pest pressure is higher than the request's.
+        p[0] = 1.5;
+        p[1] = 1.5;
+        let inst = Instance::new(&s, &p, &a, &opts()).expect("valid");
+        let value = |x: &[(usize, i64)]| {
+            let mut st = State::new(&inst);
+            st.commit(x);
+            (st.obj, st.share_ok())
+        };
+        // Arcs in order: B1, B2, R1 on Monday.
+        let (blocks, blocks_ok) = value(&[(0, 2), (1, 2)]);
+        let (mixed, mixed_ok) = value(&[(0, 2), (2, 2)]);
+        let (start, start_ok) = value(&[(2, 2)]);
+        assert!(blocks > mixed && mixed > start, "{blocks} {mixed} {start}");
+        assert!(!blocks_ok && mixed_ok && start_ok);
+        let mut st = State::new(&inst);
+        st.commit(&[(2, 2)]);
+        assert!(polish(&mut st, &[0, 1, 2]));
+        assert_eq!(st.x[2], 2, "the request keeps its vials: {:?}", st.x);
+        assert_eq!(st.x[0] + st.x[1], 2, "{:?}", st.x);
+        assert!(st.share_ok());
     }
 
     /// Every plan of one release (or none) per site on the arcs, by brute force: the best
