@@ -26,7 +26,7 @@
 //! The prices per release let the subgradient steps below reach what per-vial prices cannot:
 //! on small pack days the assignment of whole releases to days.
 
-use super::instance::{Force, Instance, share_coef};
+use super::instance::{Force, Instance, arc_room, share_coef, whole_vials};
 use crate::scenario::SiteKind;
 use rayon::prelude::*;
 
@@ -93,9 +93,9 @@ impl Prices {
     }
 }
 
-/// Whole vials of a row's right-hand side.
+/// Whole vials of a row's right-hand side ([`whole_vials`]), as a count.
 fn whole(q: f64) -> u32 {
-    (q + EPS).floor().clamp(0.0, f64::from(u32::MAX)) as u32
+    whole_vials(q).min(f64::from(u32::MAX)) as u32
 }
 
 /// Most vials any one release can hold: a request's standard count, or a block's maximum
@@ -582,11 +582,7 @@ impl SiteArc<'_> {
 /// it draws on (its pack day's supply, its vehicle day's or parcel day's capacity). A valid
 /// cut on every whole-vial plan that the shared-row prices alone would not see.
 fn arc_cap(inst: &Instance, a: usize) -> u32 {
-    inst.arc_res[a]
-        .iter()
-        .map(|&r| whole(inst.res_rhs[r]))
-        .min()
-        .unwrap_or(u32::MAX)
+    arc_room(inst, a).min(f64::from(u32::MAX)) as u32
 }
 
 /// max over whole-vial releases x of the site of value − Σ release prices. Returns the maximum

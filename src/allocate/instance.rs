@@ -513,8 +513,25 @@ fn whole_release_fits(scenario: &Scenario, a: &Arc, supply: f64, second: f64) ->
             .max(1.0),
     };
     vials * alive <= agent.max_release_wasps * (1.0 + TOL) + TOL
-        && vials <= (supply + TOL).floor()
-        && vials <= (second + TOL).floor()
+        && vials <= whole_vials(supply)
+        && vials <= whole_vials(second)
+}
+
+/// Whole vials of a row's right-hand side `rhs` (vials): ⌊rhs⌋, with 10⁻⁹ of slack so that a
+/// right-hand side a rounding error under a whole number still counts it, and never below 0.
+/// Every row's right-hand side is a sum of whole vials today (supply, vehicle capacity, the
+/// parcel cap, a feedback cap), so this is the plain floor on every input.
+pub(crate) fn whole_vials(rhs: f64) -> f64 {
+    (rhs + 1e-9).floor().max(0.0)
+}
+
+/// The most whole vials arc `a`'s rows hold: the least [`whole_vials`] of their right-hand
+/// sides (infinite for an arc on no row).
+pub(crate) fn arc_room(inst: &Instance, a: usize) -> f64 {
+    inst.arc_res[a]
+        .iter()
+        .map(|&r| whole_vials(inst.res_rhs[r]))
+        .fold(f64::INFINITY, f64::min)
 }
 
 /// Coefficient of arc `a` (one vial) in the dooryard share row Σ (door − share·all) ≥ 0.
@@ -598,4 +615,19 @@ fn resource_rhs_in_lp(inst: &Instance) -> Vec<f64> {
         .zip(most)
         .map(|(&rhs, most)| rhs.min(most.ceil() + 1.0))
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn whole_vials_floor_a_right_hand_side_with_rounding_slack() {
+        assert_eq!(whole_vials(3.0), 3.0);
+        assert_eq!(whole_vials(2.5), 2.0);
+        // A sum a rounding error under 3 still holds 3 whole vials.
+        assert_eq!(whole_vials(0.1 + 0.2 + 2.7 - 1e-12), 3.0);
+        assert_eq!(whole_vials(-0.5), 0.0);
+        assert_eq!(whole_vials(4_294_967_295.0), 4_294_967_295.0);
+    }
 }

@@ -11,7 +11,7 @@
 //! best [`COLUMNS_PER_SITE`] releases under the arc LP's duals (and its release in the plan so
 //! far).
 
-use super::instance::{Instance, share_coef};
+use super::instance::{Instance, arc_room, share_coef, whole_vials};
 use super::model::{LinearModel, ModelError, Sense, Solver};
 use crate::scenario::SiteKind;
 
@@ -79,10 +79,7 @@ pub(crate) fn release_lp_start(
                     .sum::<f64>()
                 - lambda * share_coef(inst, a);
             // No release takes more vials than a row of its arc holds.
-            let cap = inst.arc_res[a]
-                .iter()
-                .map(|&r| inst.res_rhs[r].floor())
-                .fold(f64::INFINITY, f64::min);
+            let cap = arc_room(inst, a);
             let most = (inst.max / alive.max(1e-12)).floor().min(cap).max(0.0);
             if most > MAX_VIALS_PER_RELEASE {
                 return Ok(None);
@@ -137,7 +134,7 @@ pub(crate) fn release_lp_start(
                 &format!("row_{r}"),
                 terms,
                 Sense::Le,
-                inst.res_rhs[r].floor(),
+                whole_vials(inst.res_rhs[r]),
             );
         }
     }
@@ -224,7 +221,7 @@ mod tests {
             }
         }
         for (r, u) in used.iter().enumerate() {
-            assert!(*u <= inst.res_rhs[r].floor() + 1e-6, "row {r}: {u}");
+            assert!(*u <= whole_vials(inst.res_rhs[r]) + 1e-6, "row {r}: {u}");
         }
     }
 

@@ -1088,10 +1088,7 @@ fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Ve
     let mut m = LinearModel::new("whole_vials");
     let mut col = vec![usize::MAX; inst.arcs.len()];
     for &a in cand_arcs {
-        let ub = inst.arc_res[a]
-            .iter()
-            .map(|&r| inst.res_rhs[r].floor())
-            .fold(f64::INFINITY, f64::min);
+        let ub = super::instance::arc_room(inst, a);
         col[a] = m.add_column(&format!("x{a}"), 0.0, ub, -inst.cost[a], true);
     }
     let span = (inst.max - inst.target).max(0.0);
@@ -1122,11 +1119,7 @@ fn mip_polish(inst: &Instance, cand: &[usize], cand_arcs: &[usize]) -> Option<Ve
         let mut flags = Vec::with_capacity(site.arcs.len());
         for &a in &site.arcs {
             let z = m.add_column(&format!("z{a}"), 0.0, 1.0, 0.0, true);
-            let ub = inst.arc_res[a]
-                .iter()
-                .map(|&r| inst.res_rhs[r].floor())
-                .fold(f64::INFINITY, f64::min)
-                .min(f64::from(i32::MAX));
+            let ub = super::instance::arc_room(inst, a).min(f64::from(i32::MAX));
             m.add_row(
                 &format!("use{a}"),
                 &[(col[a], 1.0), (z, -ub)],
