@@ -12,7 +12,7 @@ use crate::dispatch::{self, Dispatch};
 use crate::eligibility::Reason;
 use crate::pressure::{self, PressureParams};
 use crate::progress::{Progress, Step};
-use crate::scenario::{FacilityIdx, Scenario};
+use crate::scenario::{FacilityIdx, Scenario, SiteIdx};
 use crate::travel::TravelModel;
 
 /// Everything `plan` computed for the week.
@@ -185,12 +185,17 @@ fn feed_back(
         let (removed, caps) = feedback(scenario, &allocation, &dispatch, &mut moved);
         alloc_opts.progress.report(Step::Replan);
         alloc_opts.excluded.extend(removed);
-        for (day, delivered) in caps {
+        for (day, (delivered, served)) in caps {
             alloc_opts
                 .route_vials_cap
                 .entry(day)
                 .and_modify(|cap| *cap = (*cap).min(delivered))
                 .or_insert(delivered);
+            alloc_opts
+                .route_stops_only
+                .entry(day)
+                .and_modify(|stops| stops.retain(|s| served.contains(s)))
+                .or_insert(served);
         }
         alloc_opts.warm_start = allocation.working_set.iter().copied().collect();
         alloc_opts.warm_plan = allocation.planned_vials();
@@ -231,14 +236,19 @@ fn feed_back(
 /// served in full, and a second round delivered them.
 const MAX_REPLANS: usize = 2;
 
-/// Vials a re-plan may send by route per depot-day (facility, dispatch day).
-type DayCaps = BTreeMap<(FacilityIdx, NaiveDate), u32>;
+/// Per depot-day (facility, dispatch day) whose routes were full: the vials a re-plan may send
+/// by route from it, and the sites it may send them to.
+type DayCaps = BTreeMap<(FacilityIdx, NaiveDate), (u32, BTreeSet<SiteIdx>)>;
 
 /// What `dispatch`'s left-out stops take away from the next re-plan of `allocation`: the arcs
 /// no route served, and for each depot-day whose routes left a stop out, the vials its routes
-/// delivered (the re-plan may send at most that many by route from it that day, so the stops
-/// it takes away go to other days, facilities or parcels rather than back into the same
-/// shift). Writes one line per capped depot-day, then one per left-out stop, to `moved`.
+/// delivered and the sites they served. The re-plan may send at most that many vials by route
+/// from it that day, and only to those sites, so the stops it takes away go to other days,
+/// facilities or parcels rather than back into the same shift, and no new stop takes their
+/// place: more, smaller stops can take longer than the shift allows (on the generated
+/// 20,000-site week, capped at its vials alone, a full depot-day left stops out again after
+/// the re-plan). Writes one line per capped depot-day, then one per left-out stop, to
+/// `moved`.
 fn feedback(
     scenario: &Scenario,
     allocation: &Allocation,
@@ -270,7 +280,8 @@ fn feedback(
     for (&(f, date), &(delivered, planned)) in &full {
         moved.push(format!(
             "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
-             the re-plan sends at most {delivered} vials by route from it that day",
+             the re-plan sends at most {delivered} vials by route from it that day, only to \
+             stops they served",
             scenario.facilities[f].id
         ));
     }
@@ -290,9 +301,18 @@ fn feedback(
             u.reason
         ));
     }
+    let mut served: BTreeMap<(FacilityIdx, NaiveDate), BTreeSet<SiteIdx>> = BTreeMap::new();
+    for r in &dispatch.routes {
+        if full.contains_key(&(r.depot, r.date)) {
+            served
+                .entry((r.depot, r.date))
+                .or_default()
+                .extend(r.stops.iter().map(|s| s.site));
+        }
+    }
     let caps = full
         .into_iter()
-        .map(|(day, (delivered, _))| (day, delivered))
+        .map(|(day, (delivered, _))| (day, (delivered, served.remove(&day).unwrap_or_default())))
         .collect();
     (removed, caps)
 }
@@ -363,10 +383,13 @@ mod tests {
     use crate::allocate::synthetic;
     use crate::dispatch::{Route, Stop, Undeliverable};
 
-    /// A stand-in for the route search whose depot-days serve at most `limit` stops each (as a
-    /// shift does: every stop takes service time): each depot-day's first `limit` route
-    /// shipments in order; the rest are left out ("shift").
-    fn router(limit: u32) -> impl Fn(&Allocation) -> Dispatch {
+    /// A stand-in for the route search whose depot-day (facility, day) serves at most
+    /// `limit[day]` stops (as a shift does: every stop takes service time; no limit for a day
+    /// not listed): each depot-day's first route shipments in order; the rest are left out
+    /// ("shift").
+    fn router(
+        limit: BTreeMap<(FacilityIdx, NaiveDate), usize>,
+    ) -> impl Fn(&Allocation) -> Dispatch {
         move |allocation: &Allocation| {
             let mut out = Dispatch::default();
             let mut days: BTreeMap<(FacilityIdx, NaiveDate), Route> = BTreeMap::new();
@@ -387,7 +410,10 @@ mod tests {
                     drive_minutes: 0.0,
                     path: Vec::new(),
                 });
-                if route.stops.len() as u32 >= limit {
+                if limit
+                    .get(&(f, date))
+                    .is_some_and(|&most| route.stops.len() >= most)
+                {
                     out.undeliverable.push(Undeliverable {
                         shipment: i,
                         reason: "shift",
@@ -409,8 +435,18 @@ mod tests {
         }
     }
 
-    /// The week, its first plan and LP, and the first plan's most stops on one depot-day.
-    fn first_week() -> (Scenario, Vec<f64>, Arcs, Allocation, allocate::LpSolve, u32) {
+    /// Route stops per depot-day (facility, dispatch day).
+    type DayStops = BTreeMap<(FacilityIdx, NaiveDate), usize>;
+
+    /// The week, its first plan and LP, and the first plan's route stops per depot-day.
+    fn first_week() -> (
+        Scenario,
+        Vec<f64>,
+        Arcs,
+        Allocation,
+        allocate::LpSolve,
+        DayStops,
+    ) {
         let (s, p, arcs) = synthetic::generate(13, 2000, 400);
         let opts = AllocOptions {
             direct_max_arcs: 0,
@@ -418,28 +454,61 @@ mod tests {
         };
         let (first, lp) =
             allocate::allocate_keeping_lp(&s, &p, &arcs, &opts).expect("a valid week");
-        let mut by_day: BTreeMap<(FacilityIdx, NaiveDate), u32> = BTreeMap::new();
+        let mut stops = DayStops::new();
         for sh in first
             .shipments
             .iter()
             .filter(|sh| sh.arc.mode == Mode::Route)
         {
-            *by_day
+            *stops
                 .entry((sh.arc.facility, sh.arc.dispatch_date))
                 .or_default() += 1;
         }
-        let most = by_day.values().copied().max().unwrap_or(0);
-        (s, p, arcs, first, lp.expect("usable arcs"), most)
+        (s, p, arcs, first, lp.expect("usable arcs"), stops)
     }
 
     #[test]
     fn route_feedback_re_plans_again_when_the_new_routes_leave_stops_out() {
-        let (s, p, arcs, first, lp, most) = first_week();
-        // Three quarters of the busiest depot-day's stops: the first re-plan moves the stops
-        // left out to other days, where the same limit leaves some out again.
-        let route = router(most * 3 / 4);
+        let (s, p, arcs, first, lp, stops) = first_week();
+        // The first routing serves three quarters of the busiest depot-day's stops; the
+        // second (of the first re-plan) one stop fewer than planned on the second busiest;
+        // the third serves every stop.
+        let mut by_size: Vec<_> = stops.iter().map(|(k, v)| (*v, *k)).collect();
+        by_size.sort_by_key(|&(v, k)| (std::cmp::Reverse(v), k));
+        let [(most, busiest), (_, second), ..] = by_size[..] else {
+            panic!("two depot-days by route")
+        };
+        let calls = std::cell::Cell::new(0);
+        let route = |allocation: &Allocation| {
+            calls.set(calls.get() + 1);
+            let mut limit = BTreeMap::new();
+            match calls.get() {
+                1 => {
+                    limit.insert(busiest, most * 3 / 4);
+                }
+                2 => {
+                    let planned = allocation
+                        .shipments
+                        .iter()
+                        .filter(|sh| {
+                            sh.arc.mode == Mode::Route
+                                && (sh.arc.facility, sh.arc.dispatch_date) == second
+                        })
+                        .count();
+                    limit.insert(second, planned.saturating_sub(1));
+                }
+                _ => {}
+            }
+            router(limit)(allocation)
+        };
         let first_dispatch = route(&first);
         assert!(!first_dispatch.undeliverable.is_empty());
+        let served_first: BTreeSet<SiteIdx> = first_dispatch
+            .routes
+            .iter()
+            .filter(|r| (r.depot, r.date) == busiest)
+            .flat_map(|r| r.stops.iter().map(|st| st.site))
+            .collect();
         let (allocation, dispatch, moved) = feed_back(
             Week {
                 scenario: &s,
@@ -452,13 +521,14 @@ mod tests {
                 ..Default::default()
             },
             (first, first_dispatch),
-            &route,
+            route,
         )
         .expect("a valid week");
         let capped = moved.iter().filter(|m| m.contains("planned vials")).count();
         let dropped = moved.iter().filter(|m| m.contains("dropped")).count();
         assert!(dispatch.undeliverable.is_empty());
-        assert_eq!(route(&allocation).undeliverable.len(), 0);
+        assert_eq!(calls.get(), 3, "two re-plans");
+        assert!(allocation.shipments.iter().all(|sh| sh.vials > 0));
         // A second round was needed, and it left nothing to drop.
         assert!(
             moved
@@ -469,6 +539,16 @@ mod tests {
         );
         assert_eq!(dropped, 0, "{moved:#?}");
         assert!(capped >= 2);
+        // The full depot-day took no new stop.
+        for sh in &allocation.shipments {
+            if sh.arc.mode == Mode::Route && (sh.arc.facility, sh.arc.dispatch_date) == busiest {
+                assert!(
+                    served_first.contains(&sh.arc.site),
+                    "new stop {}",
+                    sh.arc.site
+                );
+            }
+        }
     }
 
     #[test]

@@ -191,6 +191,7 @@ impl<'a> Instance<'a> {
         let mut cost = Vec::new();
         let (mut excluded, mut dead, mut no_resource, mut too_small) =
             (0usize, 0usize, 0usize, 0usize);
+        let mut no_new_stop = 0usize;
         for (i, a) in arcs.arcs.iter().enumerate() {
             if a.site >= n || a.facility >= scenario.facilities.len() {
                 return Err(AllocError::ArcsMismatch {
@@ -209,6 +210,15 @@ impl<'a> Instance<'a> {
                 .contains(&(a.facility, a.dispatch_date, a.site, a.mode))
             {
                 excluded += 1;
+                continue;
+            }
+            if a.mode == Mode::Route
+                && opts
+                    .route_stops_only
+                    .get(&(a.facility, a.dispatch_date))
+                    .is_some_and(|stops| !stops.contains(&a.site))
+            {
+                no_new_stop += 1;
                 continue;
             }
             // An arc is worth nothing when its vials arrive dead or late, or when the site
@@ -273,6 +283,11 @@ impl<'a> Instance<'a> {
         }
         if excluded > 0 {
             notes.push(Note::new(NoteKind::ArcsExcluded { arcs: excluded }));
+        }
+        if no_new_stop > 0 {
+            notes.push(Note::new(NoteKind::ArcsToFullDepotDays {
+                arcs: no_new_stop,
+            }));
         }
         if dead > 0 {
             notes.push(Note::new(NoteKind::ArcsWithoutValue { arcs: dead }));

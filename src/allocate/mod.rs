@@ -82,6 +82,12 @@ pub struct AllocOptions {
     /// stops it takes away elsewhere, not back to a depot-day whose shift is already full).
     /// Empty (the default): the fleet's capacity.
     pub route_vials_cap: std::collections::BTreeMap<(FacilityIdx, NaiveDate), u32>,
+    /// Stops a depot-day, by (facility, dispatch date), may keep by route: its route arcs to
+    /// every other site are left out. Set by the route feedback for a depot-day whose routes
+    /// left stops out, to the sites they served, so that the re-plan does not fill the same
+    /// shifts with new stops (fewer vials in more, smaller stops can take longer than the
+    /// shifts allow). Empty (the default): no such limit.
+    pub route_stops_only: std::collections::BTreeMap<(FacilityIdx, NaiveDate), BTreeSet<SiteIdx>>,
     /// Solver of the LP relaxation (default clarabel; HiGHS with the `highs` feature). Both
     /// reach the same bound; the LP solution, and so the rounded plan, may differ (HiGHS
     /// returns a vertex, clarabel a point inside the optimal face).
@@ -101,6 +107,7 @@ impl Default for AllocOptions {
             warm_start: BTreeSet::new(),
             warm_plan: std::collections::BTreeMap::new(),
             route_vials_cap: std::collections::BTreeMap::new(),
+            route_stops_only: std::collections::BTreeMap::new(),
             solver: model::Solver::default(),
             progress: crate::progress::Progress::default(),
         }

@@ -53,6 +53,12 @@ pub enum NoteKind {
         /// Arcs left out.
         arcs: usize,
     },
+    /// Route arcs left out because their depot-day's routes were full: the route feedback's
+    /// re-plan keeps only the stops those routes served there.
+    ArcsToFullDepotDays {
+        /// Arcs left out.
+        arcs: usize,
+    },
     /// Arcs left out that carry no value: dead or late on arrival, or to a site with
     /// priority 0 and no force.
     ArcsWithoutValue {
@@ -185,6 +191,11 @@ impl fmt::Display for NoteKind {
             NoteKind::ArcsExcluded { arcs } => write!(
                 f,
                 "{arcs} arc(s) excluded by request (dispatch could not serve them)"
+            ),
+            NoteKind::ArcsToFullDepotDays { arcs } => write!(
+                f,
+                "{arcs} route arc(s) left out: their depot-day's routes could not serve every \
+                 stop, so the re-plan keeps only the stops they served there"
             ),
             NoteKind::ArcsWithoutValue { arcs } => write!(
                 f,
