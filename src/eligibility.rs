@@ -39,7 +39,8 @@ pub enum Reason {
     LowPriority,
     /// Reachable and valuable, but better sites took the supply.
     BelowCutoff,
-    /// Allocated, but no route could deliver it and no other arc took its place.
+    /// No route could deliver it (the routes left its stop out, or its depot-days' routes
+    /// were full and kept to the stops they served) and no other arc took its place.
     Undeliverable,
     /// Dooryard request already served or scheduled in another week of the season ledger
     /// (`plan --ledger`).

@@ -620,6 +620,38 @@ fn a_replan_with_a_full_depot_day_sends_at_most_its_cap_by_route() {
 }
 
 #[test]
+fn a_site_kept_off_full_depot_days_reads_undeliverable_not_out_of_reach() {
+    // Every depot-day kept to no stop (as the route feedback keeps a full one to the stops
+    // its routes served): a site whose only arcs are by route has no usable arc left, and the
+    // reason is that no route could take it, not that no facility reaches it.
+    let (s, p, arcs) = synthetic::generate(13, 2000, 400);
+    let days: BTreeMap<_, std::collections::BTreeSet<usize>> = arcs
+        .arcs
+        .iter()
+        .filter(|a| a.mode == Mode::Route)
+        .map(|a| ((a.facility, a.dispatch_date), Default::default()))
+        .collect();
+    let route_only: Vec<usize> = (0..s.sites.len())
+        .filter(|&i| {
+            let mut own = arcs.arcs.iter().filter(|a| a.site == i).peekable();
+            own.peek().is_some() && own.all(|a| a.mode == Mode::Route)
+        })
+        .collect();
+    assert!(!route_only.is_empty());
+    let opts = AllocOptions {
+        route_stops_only: days,
+        ..always_priced()
+    };
+    let b = allocate(&s, &p, &arcs, &opts).expect("valid");
+    assert!(b.shipments.iter().all(|sh| sh.arc.mode == Mode::Parcel));
+    for &i in &route_only {
+        if p[i] > 0.0 && arcs.no_arc_reason[i].is_none() {
+            assert_eq!(b.sites[i].reason, Some(Reason::Undeliverable), "site {i}");
+        }
+    }
+}
+
+#[test]
 fn a_replan_that_loosens_the_share_floor_solves_the_lp_again() {
     // Every request's arcs removed: the share floor is dropped, a looser problem than the
     // first LP's, whose bounds may then be too low; the re-plan must solve again.
