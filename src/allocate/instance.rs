@@ -6,7 +6,7 @@
 //! vehicle capacity per depot and day, or the parcel cap per day), the site release limits,
 //! the forces and the dooryard share floor as kept (lowered or dropped with a note).
 
-use std::collections::{BTreeMap, HashMap};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use chrono::NaiveDate;
 
@@ -83,6 +83,9 @@ pub(crate) struct Instance<'a> {
     /// Releases (arcs with vials) a site may get this week, ≥ 1
     /// (`policy.releases_per_site_week`).
     pub releases_per_site: u32,
+    /// Sites with a route arc left out by `AllocOptions::route_stops_only` (a new stop on a
+    /// depot-day whose routes were full).
+    pub kept_off_full_days: BTreeSet<SiteIdx>,
     pub notes: Vec<Note>,
 }
 
@@ -192,6 +195,7 @@ impl<'a> Instance<'a> {
         let (mut excluded, mut dead, mut no_resource, mut too_small) =
             (0usize, 0usize, 0usize, 0usize);
         let mut no_new_stop = 0usize;
+        let mut kept_off_full_days = BTreeSet::new();
         for (i, a) in arcs.arcs.iter().enumerate() {
             if a.site >= n || a.facility >= scenario.facilities.len() {
                 return Err(AllocError::ArcsMismatch {
@@ -218,6 +222,7 @@ impl<'a> Instance<'a> {
                     .get(&(a.facility, a.dispatch_date))
                     .is_some_and(|stops| !stops.contains(&a.site))
             {
+                kept_off_full_days.insert(a.site);
                 no_new_stop += 1;
                 continue;
             }
@@ -430,6 +435,7 @@ impl<'a> Instance<'a> {
             weight2: agent.above_target_weight,
             per_request: policy.dooryard_vials_per_request,
             releases_per_site: policy.releases_per_site_week.max(1),
+            kept_off_full_days,
             notes,
         };
         inst.lp_rhs = resource_rhs_in_lp(&inst);

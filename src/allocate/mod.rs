@@ -729,23 +729,6 @@ fn run(
         .map(|o| o.site)
         .collect();
     let has_usable: BTreeSet<SiteIdx> = inst.sites.iter().map(|s| s.site).collect();
-    // Sites with a route arc to a depot-day the route feedback found full and kept to the
-    // stops its routes served (one pass over the arcs, only when there is such a day).
-    let kept_off_full_day: BTreeSet<SiteIdx> = if opts.route_stops_only.is_empty() {
-        BTreeSet::new()
-    } else {
-        arcs.arcs
-            .iter()
-            .filter(|a| {
-                a.mode == Mode::Route
-                    && opts
-                        .route_stops_only
-                        .get(&(a.facility, a.dispatch_date))
-                        .is_some_and(|stops| !stops.contains(&a.site))
-            })
-            .map(|a| a.site)
-            .collect()
-    };
     let sites = (0..n)
         .map(|s| {
             let reason = if vials[s] > 0 {
@@ -760,7 +743,9 @@ fn run(
                 // Every arc was excluded by dispatch (a stop no route served, or a new stop
                 // on a depot-day whose routes were full), or none has supply or capacity.
                 Some(
-                    if opts.excluded.iter().any(|k| k.2 == s) || kept_off_full_day.contains(&s) {
+                    if opts.excluded.iter().any(|k| k.2 == s)
+                        || inst.kept_off_full_days.contains(&s)
+                    {
                         Reason::Undeliverable
                     } else {
                         Reason::OutOfReach
