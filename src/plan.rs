@@ -159,10 +159,11 @@ struct Week<'a> {
 /// and what was moved (one line each), routing each plan with `route`.
 ///
 /// Stops no route can serve go back to the allocation with those arcs removed, and each
-/// depot-day whose routes left stops out is capped at what they delivered; again while the new
-/// routes leave stops out, at most [`MAX_REPLANS`] times, the caps only ever lowered. Each
-/// round only takes options away (an arc, or route vials of a depot-day), so the first LP's
-/// bounds still hold. A stop the last routes still leave out is then dropped with its site;
+/// depot-day whose routes left stops out is capped at what they delivered and kept to the
+/// stops they served ([`feedback`]); again while the new routes leave stops out, at most
+/// [`MAX_REPLANS`] times, the caps and stop sets only ever shrinking. Each round only takes
+/// options away (an arc, route vials or stops of a depot-day), so the first LP's bounds still
+/// hold. A stop the last routes still leave out is then dropped with its site;
 /// routing the smaller plan can still leave a stop out (routes change when stops go), so that
 /// repeats until every vial the objective counts is delivered. Each pass removes at least one
 /// site, so it ends.
@@ -255,17 +256,20 @@ fn feedback(
     dispatch: &Dispatch,
     moved: &mut Vec<String>,
 ) -> (BTreeSet<allocate::ArcKey>, DayCaps) {
-    // (delivered, planned) vials by route, per depot-day with a stop left out.
-    let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32)> = BTreeMap::new();
+    // Per depot-day with a stop left out: vials its routes delivered, vials planned by route,
+    // and the sites its routes served.
+    let mut full: BTreeMap<(FacilityIdx, NaiveDate), (u32, u32, BTreeSet<SiteIdx>)> =
+        BTreeMap::new();
     for u in &dispatch.undeliverable {
         let a = &allocation.shipments[u.shipment].arc;
         if a.mode == Mode::Route {
-            full.insert((a.facility, a.dispatch_date), (0, 0));
+            full.insert((a.facility, a.dispatch_date), Default::default());
         }
     }
     for r in &dispatch.routes {
-        if let Some((delivered, _)) = full.get_mut(&(r.depot, r.date)) {
+        if let Some((delivered, _, served)) = full.get_mut(&(r.depot, r.date)) {
             *delivered += r.vials();
+            served.extend(r.stops.iter().map(|s| s.site));
         }
     }
     for s in allocation
@@ -273,11 +277,11 @@ fn feedback(
         .iter()
         .filter(|s| s.arc.mode == Mode::Route)
     {
-        if let Some((_, planned)) = full.get_mut(&(s.arc.facility, s.arc.dispatch_date)) {
+        if let Some((_, planned, _)) = full.get_mut(&(s.arc.facility, s.arc.dispatch_date)) {
             *planned += s.vials;
         }
     }
-    for (&(f, date), &(delivered, planned)) in &full {
+    for (&(f, date), &(delivered, planned, _)) in &full {
         moved.push(format!(
             "{} on {date}: its routes delivered {delivered} of {planned} planned vials; \
              the re-plan sends at most {delivered} vials by route from it that day, only to \
@@ -301,18 +305,9 @@ fn feedback(
             u.reason
         ));
     }
-    let mut served: BTreeMap<(FacilityIdx, NaiveDate), BTreeSet<SiteIdx>> = BTreeMap::new();
-    for r in &dispatch.routes {
-        if full.contains_key(&(r.depot, r.date)) {
-            served
-                .entry((r.depot, r.date))
-                .or_default()
-                .extend(r.stops.iter().map(|s| s.site));
-        }
-    }
     let caps = full
         .into_iter()
-        .map(|(day, (delivered, _))| (day, (delivered, served.remove(&day).unwrap_or_default())))
+        .map(|(day, (delivered, _, served))| (day, (delivered, served)))
         .collect();
     (removed, caps)
 }
