@@ -31,19 +31,34 @@ impl State<'_> {
         // by more than this before their own penalty (never negative) is worth computing.
         let old_pen = self.route_pen(ru) + self.route_pen(rv);
         let u = a.nodes[pu];
+        let service = |node: usize| d.customer(node).service_minutes;
         // Relocate 1–3 customers starting at u, either orientation, before or after v.
+        let mut moved_service = 0.0;
         for len in 1..=3 {
             if pu + len > la {
                 break;
             }
+            moved_service += service(a.nodes[pu + len - 1]);
             let (fwd, rev, new_a) = &cut[len - 1];
             let emptied = la == len;
             let dist_new_a = d.drive(new_a);
+            // Floors under the new routes' penalties (`State::pen_floor`): a candidate they
+            // rule out is dropped before its windows are checked.
+            let floor_a = self.pen_floor(dist_new_a, a.service() - moved_service);
             for k in [pv, pv + 1] {
                 for (s, reversed) in [(fwd, false), (rev, true)] {
                     let parts = [&b.pre[k], s, &b.suf[k]];
-                    let delta = dist_new_a + d.drive_cat(&parts) - base;
-                    if !improves(delta - old_pen, emptied) {
+                    let dist_new_b = d.drive_cat(&parts);
+                    let delta = dist_new_a + dist_new_b - base;
+                    if !improves(delta - old_pen, emptied)
+                        || !improves(
+                            delta
+                                + floor_a
+                                + self.pen_floor(dist_new_b, b.service() + moved_service)
+                                - old_pen,
+                            emptied,
+                        )
+                    {
                         continue;
                     }
                     let new_b = d.cat_all(&parts);
@@ -69,8 +84,17 @@ impl State<'_> {
             let (sv, su) = (d.node_seg(v), d.node_seg(u));
             let parts_a = [&a.pre[pu], &sv, &a.suf[pu + 1]];
             let parts_b = [&b.pre[pv], &su, &b.suf[pv + 1]];
-            let delta = d.drive_cat(&parts_a) + d.drive_cat(&parts_b) - base;
+            let (dist_new_a, dist_new_b) = (d.drive_cat(&parts_a), d.drive_cat(&parts_b));
+            let delta = dist_new_a + dist_new_b - base;
+            let swapped = service(v) - service(u);
             if improves(delta - old_pen, false)
+                && improves(
+                    delta
+                        + self.pen_floor(dist_new_a, a.service() + swapped)
+                        + self.pen_floor(dist_new_b, b.service() - swapped)
+                        - old_pen,
+                    false,
+                )
                 && let Some((who, pen)) =
                     self.assign2(ru, &d.cat_all(&parts_a), rv, &d.cat_all(&parts_b))
                 && improves(delta + pen - old_pen, false)
@@ -87,8 +111,17 @@ impl State<'_> {
         for (ka, kb) in [(pu + 1, pv), (pu, pv + 1)] {
             let (pa, pb) = ([&a.pre[ka], &b.suf[kb]], [&b.pre[kb], &a.suf[ka]]);
             let emptied = (ka == 0 && kb == lb) || (kb == 0 && ka == la);
-            let delta = d.drive_cat(&pa) + d.drive_cat(&pb) - base;
-            if !improves(delta - old_pen, emptied) {
+            let (dist_new_a, dist_new_b) = (d.drive_cat(&pa), d.drive_cat(&pb));
+            let delta = dist_new_a + dist_new_b - base;
+            if !improves(delta - old_pen, emptied)
+                || !improves(
+                    delta
+                        + self.pen_floor(dist_new_a, a.service_before[ka] + b.service_from(kb))
+                        + self.pen_floor(dist_new_b, b.service_before[kb] + a.service_from(ka))
+                        - old_pen,
+                    emptied,
+                )
+            {
                 continue;
             }
             let (new_a, new_b) = (d.cat(pa[0], pa[1]), d.cat(pb[0], pb[1]));

@@ -27,6 +27,14 @@ impl State<'_> {
         // Penalty of the route as it stands: a candidate whose drive change `delta` is not
         // below it cannot improve, whatever its own penalty (never negative).
         let old_pen = self.route_pen(r);
+        // A candidate keeps the route's customers, so its drive gives a floor under its
+        // penalty on any vehicle (`State::pen_floor`): a candidate that floor rules out is
+        // dropped before its windows are checked. It rejects only candidates the full check
+        // would reject; on a route late because it is too long for the shift, that is every
+        // candidate that does not shorten the drive.
+        let (old_drive, service) = (self.route_dist(r), route.service());
+        let ruled_out =
+            |delta: f64| delta + self.pen_floor(old_drive + delta, service) - old_pen >= -EPS;
         // A candidate that differs from `nodes` only inside lo..hi, on r's own vehicle or an
         // unused vehicle of another kind (the route moves to it), when drive plus penalty
         // falls.
@@ -102,7 +110,7 @@ impl State<'_> {
                         (s0, sl, 0.0)
                     };
                     let delta = c(na, f) + c(l, nb) - c(na, nb) + inner - removed;
-                    if delta - old_pen >= -EPS {
+                    if delta - old_pen >= -EPS || ruled_out(delta) {
                         continue;
                     }
                     // Insert index in the list without the cut: after position ka.
@@ -144,7 +152,7 @@ impl State<'_> {
                     - c(pj, v)
                     - c(v, nj)
             };
-            if delta - old_pen < -EPS {
+            if delta - old_pen < -EPS && !ruled_out(delta) {
                 cand.clear();
                 cand.extend_from_slice(nodes);
                 cand.swap(i, j);
@@ -164,7 +172,7 @@ impl State<'_> {
                 let (a, b) = (x(p as isize - 1), x(q as isize + 1));
                 let delta =
                     c(a, nodes[q]) + c(nodes[p], b) - c(a, nodes[p]) - c(nodes[q], b) + inner;
-                if delta - old_pen < -EPS {
+                if delta - old_pen < -EPS && !ruled_out(delta) {
                     cand.clear();
                     cand.extend_from_slice(nodes);
                     cand[p..=q].reverse();

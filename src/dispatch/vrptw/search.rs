@@ -114,7 +114,7 @@ impl State<'_> {
 
     /// First improving move involving customer u, over u's neighbours, then alone onto an
     /// unused vehicle.
-    fn find_move(&self, u: usize) -> Option<Move> {
+    pub(super) fn find_move(&self, u: usize) -> Option<Move> {
         let d = self.data;
         let (ru, pu) = self.at[u]?;
         let a = &self.routes[ru];

@@ -58,6 +58,9 @@ pub(super) struct Data<'a> {
     /// Per vehicle: its kind, the index of the first vehicle with the same capacity, start and
     /// latest return (vehicles of one kind are interchangeable in every verdict).
     pub(super) kind: Vec<usize>,
+    /// The longest shift of any vehicle, minutes from its start to its latest return
+    /// (infinite when a vehicle's shift ends before it starts: no bound is drawn from it).
+    pub(super) longest_shift: f64,
 }
 
 impl<'a> Data<'a> {
@@ -120,12 +123,21 @@ impl<'a> Data<'a> {
                     .unwrap_or(v)
             })
             .collect();
+        let longest_shift = inst
+            .vehicles
+            .iter()
+            .map(|v| {
+                let shift = v.latest_return - v.start;
+                if shift >= 0.0 { shift } else { f64::INFINITY }
+            })
+            .fold(0.0, f64::max);
         Data {
             inst,
             n,
             d,
             neigh,
             kind,
+            longest_shift,
         }
     }
 
@@ -289,6 +301,17 @@ impl<'a> Data<'a> {
         } else {
             tw
         }
+    }
+
+    /// A floor under the time warp of any vehicle driving a route of `drive` minutes (depot
+    /// legs included) whose customers take `service` minutes: the route leaves no earlier
+    /// than the vehicle's start and every minute it would be back after the latest return is
+    /// warped, so the warp is at least drive + service − the longest shift. Lowered by a
+    /// margin far above float rounding, so it never exceeds the warp [`Data::lateness`]
+    /// computes for the same route. O(1).
+    pub(super) fn warp_floor(&self, drive: f64, service: f64) -> f64 {
+        let over = drive + service - self.longest_shift;
+        (over - 1e-6 - 1e-9 * (drive.abs() + service.abs() + self.longest_shift)).max(0.0)
     }
 
     /// Drive minutes of `body` out of the depot and back (0 for an empty body). The same for

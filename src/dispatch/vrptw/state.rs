@@ -16,6 +16,8 @@ pub(super) struct Route {
     /// Time warp of the route on its own vehicle, minutes: 0 when it fits, infinite when the
     /// vehicle cannot drive it at any lateness (load, unusable arc).
     pub(super) late: f64,
+    /// `service_before[k]`: service minutes of nodes[..k], summed.
+    pub(super) service_before: Vec<f64>,
 }
 
 // By hand, so that `clone_from` reuses the buffers: the search copies its current solution
@@ -27,6 +29,7 @@ impl Clone for Route {
             pre: self.pre.clone(),
             suf: self.suf.clone(),
             late: self.late,
+            service_before: self.service_before.clone(),
         }
     }
 
@@ -37,11 +40,13 @@ impl Clone for Route {
             pre,
             suf,
             late,
+            service_before,
         } = source;
         self.nodes.clone_from(nodes);
         self.pre.clone_from(pre);
         self.suf.clone_from(suf);
         self.late = *late;
+        self.service_before.clone_from(service_before);
     }
 }
 
@@ -49,6 +54,16 @@ impl Route {
     /// The whole run, no depot.
     pub(super) fn body(&self) -> &Seg {
         &self.suf[0]
+    }
+
+    /// Service minutes of all its customers.
+    pub(super) fn service(&self) -> f64 {
+        self.service_before.last().copied().unwrap_or(0.0)
+    }
+
+    /// Service minutes of nodes[k..].
+    pub(super) fn service_from(&self, k: usize) -> f64 {
+        self.service() - self.service_before[k]
     }
 }
 
@@ -107,6 +122,7 @@ impl<'a> State<'a> {
                     pre: Vec::new(),
                     suf: Vec::new(),
                     late: 0.0,
+                    service_before: Vec::new(),
                 })
                 .collect(),
             at: vec![None; data.n],
@@ -139,6 +155,13 @@ impl<'a> State<'a> {
             self.at[node] = Some((r, p));
         }
         route.late = d.lateness(r, &route.suf[0]);
+        route.service_before.clear();
+        route.service_before.push(0.0);
+        let mut sum = 0.0;
+        for &node in &route.nodes {
+            sum += d.customer(node).service_minutes;
+            route.service_before.push(sum);
+        }
     }
 
     /// Drive minutes of route r.
@@ -162,6 +185,18 @@ impl<'a> State<'a> {
             Some(self.tw_weight * late)
         } else {
             None
+        }
+    }
+
+    /// A floor under the penalty (or infinite: no vehicle may drive it) of any vehicle
+    /// driving a route of `drive` minutes whose customers take `service` minutes, from
+    /// [`Data::warp_floor`]. O(1).
+    pub(super) fn pen_floor(&self, drive: f64, service: f64) -> f64 {
+        let floor = self.data.warp_floor(drive, service);
+        if floor > FEAS_EPS {
+            self.tw_weight * floor
+        } else {
+            0.0
         }
     }
 
@@ -269,11 +304,15 @@ impl<'a> State<'a> {
         let route = &self.routes[r];
         let us = d.node_seg(u);
         let before = self.route_dist(r) + self.route_pen(r);
+        let service = route.service() + d.customer(u).service_minutes;
         let mut best: Option<(f64, usize, usize)> = None;
         for k in 0..=route.nodes.len() {
-            // The penalty is never negative: drive alone bounds the cost from below.
-            let add = d.drive_cat(&[&route.pre[k], &us, &route.suf[k]]) - before;
-            if best.is_some_and(|(b, _, _)| add >= b - EPS) {
+            let drive = d.drive_cat(&[&route.pre[k], &us, &route.suf[k]]);
+            let add = drive - before;
+            // The penalty is at least its floor (`State::pen_floor`; infinite: no vehicle
+            // may drive the route): that alone can rule the place out.
+            let floor = self.pen_floor(drive, service);
+            if floor == f64::INFINITY || best.is_some_and(|(b, _, _)| add + floor >= b - EPS) {
                 continue;
             }
             let s = d.cat(&d.cat(&route.pre[k], &us), &route.suf[k]);

@@ -268,6 +268,126 @@ fn the_depot_legs_shortcut_gives_the_full_segment_drive_and_warp_bit_for_bit() {
 }
 
 #[test]
+fn the_warp_floor_never_exceeds_the_warp_of_any_vehicle() {
+    // The moves drop a candidate whose penalty floor (`Data::warp_floor`) already rules it
+    // out, so the floor must never exceed the time warp the full algebra gives any vehicle
+    // for the same run, or the search would lose moves it takes today. Shifts of different
+    // lengths and starts, service times of 5–40 minutes and short shifts, so that most runs
+    // are late on some vehicle and the floor is often positive.
+    let mut inst = grid_instance(14, 21, 3, 60);
+    let shifts = [(0.0, 300.0), (60.0, 260.0), (100.0, 250.0)];
+    for (v, &(start, end)) in inst.vehicles.iter_mut().zip(&shifts) {
+        v.start = start;
+        v.latest_return = end;
+    }
+    let mut rng = fastrand::Rng::with_seed(23);
+    for c in &mut inst.customers {
+        c.service_minutes = 5.0 + rng.f64() * 35.0;
+    }
+    let d = Data::new(&inst, 3);
+    let (mut positive, mut tight) = (0, 0);
+    for _ in 0..3_000 {
+        let order = random_run(&mut rng, 14);
+        let body = d.seq(order.iter().copied());
+        let service: f64 = order.iter().map(|&i| d.customer(i).service_minutes).sum();
+        let floor = d.warp_floor(d.drive(&body), service);
+        if floor > 0.0 {
+            positive += 1;
+        }
+        for v in 0..inst.vehicles.len() {
+            let (_, warp) = d.depot_dist_warp(v, &body);
+            assert!(
+                warp >= floor,
+                "{order:?} on {v}: warp {warp} below floor {floor}"
+            );
+            // The longest shift (vehicle 0) with no waiting: the floor is its warp.
+            if v == 0 && floor > 0.0 && warp - floor < 1e-5 {
+                tight += 1;
+            }
+        }
+    }
+    assert!(
+        positive > 1_000,
+        "only {positive} runs with a positive floor"
+    );
+    assert!(tight > 20, "only {tight} runs where the floor is the warp");
+}
+
+#[test]
+fn the_penalty_floor_only_drops_moves_the_full_check_would_reject() {
+    // With the floor switched off (an infinite longest shift makes every floor 0) every
+    // customer must find the same first improving move, every unrouted customer the same
+    // cheapest place, and the descent the same local optimum: the floor may save work, never
+    // change a verdict. Random routes on short shifts under a finite penalty weight, as in
+    // the penalised starts, so that most routes are late; once with the grid's windows and
+    // once with none, where a late route's warp is all shift and the floor is exact.
+    let mut windows = grid_instance(30, 5, 6, 40);
+    for (v, spec) in windows.vehicles.iter_mut().enumerate() {
+        spec.start = 20.0 * v as f64;
+        spec.latest_return = 380.0 + 30.0 * v as f64;
+    }
+    let mut open = windows.clone();
+    for c in &mut open.customers {
+        (c.earliest, c.latest, c.deadline) = (0.0, 10_000.0, 10_000.0);
+    }
+    let mut rng = fastrand::Rng::with_seed(17);
+    let (mut moves, mut placed) = (0, 0);
+    for inst in [&windows, &open] {
+        let with = Data::new(inst, 8);
+        let mut without = Data::new(inst, 8);
+        without.longest_shift = f64::INFINITY;
+        for _ in 0..100 {
+            let mut order: Vec<usize> = (1..=30).collect();
+            rng.shuffle(&mut order);
+            // Four routes of random customers on random vehicles; the rest unrouted.
+            let mut vehicles: Vec<usize> = (0..6).collect();
+            rng.shuffle(&mut vehicles);
+            let routes: Vec<(usize, Vec<usize>)> = order
+                .chunks(6)
+                .take(4)
+                .zip(&vehicles)
+                .map(|(nodes, &v)| (v, nodes.to_vec()))
+                .collect();
+            let weight = [0.2, 1.0, 5.0][rng.usize(0..3)];
+            let state = |data| {
+                let mut s = state::State::empty(data);
+                s.tw_weight = weight;
+                s.apply(state::Move(routes.clone()));
+                s
+            };
+            let (mut a, mut b) = (state(&with), state(&without));
+            for u in 1..=30 {
+                if a.at[u].is_some() {
+                    let (ma, mb) = (a.find_move(u), b.find_move(u));
+                    assert_eq!(ma.as_ref().map(|m| &m.0), mb.as_ref().map(|m| &m.0), "{u}");
+                    moves += usize::from(ma.is_some());
+                } else {
+                    for r in 0..6 {
+                        let others = a.empty_kinds(&[r]);
+                        let place = |s: &state::State<'_>| {
+                            s.best_insert_among(r, u, &others)
+                                .map(|(cost, k, v)| (cost.to_bits(), k, v))
+                        };
+                        assert_eq!(place(&a), place(&b), "{u} into {r}");
+                        placed += usize::from(place(&a).is_some());
+                    }
+                }
+            }
+            // The whole descent to a local optimum, where the moves left are small.
+            a.local_search(None);
+            b.local_search(None);
+            let routes =
+                |s: &state::State<'_>| s.routes.iter().map(|r| r.nodes.clone()).collect::<Vec<_>>();
+            assert_eq!(routes(&a), routes(&b));
+        }
+    }
+    assert!(
+        moves > 100 && placed > 100,
+        "{moves} moves, {placed} places: too few"
+    );
+}
+
+#[test]
 fn drive_priced_without_windows_equals_drive_of_concatenation() {
     // Moves are priced by `drive_cat` before their windows are checked; it must give exactly
     // (bit for bit) the drive of the concatenated segment, or the search would change.
