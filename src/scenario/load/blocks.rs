@@ -339,7 +339,7 @@ fn parse_feature(
     else {
         return None;
     };
-    let (Some(access_start), Some(access_end), Some(access), Some(geometry)) =
+    let (Some(access_start), Some(access_end), Some(access), Some((geometry, area_ha))) =
         (access_start, access_end, access, geometry)
     else {
         return None;
@@ -373,7 +373,7 @@ fn parse_feature(
             last_insecticide,
             access_start,
             access_end,
-            area_ha: crate::geodesy::area_ha(&geometry),
+            area_ha,
             geometry,
         },
     })
@@ -418,7 +418,8 @@ fn access_point(
     }
 }
 
-/// The feature's outline, checked. `vertices` is the running count of positions in the file;
+/// The feature's outline, checked, and its geodesic area (ha, computed once here for the
+/// check and the block). `vertices` is the running count of positions in the file;
 /// past the caps a problem is recorded before any ring is converted or validated.
 fn geometry(
     f: &Feat<'_>,
@@ -426,7 +427,7 @@ fn geometry(
     caps: &Caps,
     vertices: &mut usize,
     sink: &mut Sink,
-) -> Option<MultiPolygon<f64>> {
+) -> Option<(MultiPolygon<f64>, f64)> {
     let Some(geom) = geom.filter(|g| !g.is_null()) else {
         f.bad(
             sink,
@@ -584,7 +585,7 @@ fn geometry(
             ),
         );
     }
-    Some(shape)
+    Some((shape, area_ha))
 }
 
 /// RFC 7946 ring rules and coordinate ranges.
