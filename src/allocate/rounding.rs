@@ -637,9 +637,12 @@ fn request_openings(inst: &Instance, unserved: &[usize]) -> Vec<(usize, usize)> 
     opts.into_iter().map(|(_, sp, a)| (sp, a)).collect()
 }
 
-/// Whole vials left on a resource with right-hand side `rhs` and `used` vials.
+/// Whole vials left on a resource with right-hand side `rhs` and `used` vials: ⌊rhs − used⌋
+/// with 10⁻⁷ of slack, 0 when negative. The cast truncates toward zero and saturates (0 for
+/// a negative or NaN value), which is that floor, without a call to libm's `floor` (the
+/// rounding's most frequent arithmetic: 1.3 % of `plan`'s CPU on the 35,000-site week).
 fn free_of(rhs: f64, used: f64) -> u32 {
-    (rhs - used + 1e-7).floor().max(0.0) as u32
+    (rhs - used + 1e-7) as u32
 }
 
 /// Key that sorts `f64` gains in decreasing order (total order, as `f64::total_cmp`).
@@ -1260,6 +1263,34 @@ mod tests {
 
     fn arc(site: usize, facility: usize, day: u64, alive: f64) -> Arc {
         crate::scenario::fixture::route_arc(&tiny(), site, facility, day, alive)
+    }
+
+    #[test]
+    fn free_vials_are_the_floor_of_what_is_left_and_never_negative() {
+        // The cast must give ⌊rhs − used + 10⁻⁷⌋, at least 0, as the floor did, on every
+        // kind of value a row can hold.
+        let floor = |rhs: f64, used: f64| (rhs - used + 1e-7).floor().max(0.0) as u32;
+        let mut rng = fastrand::Rng::with_seed(3);
+        let mut cases = vec![
+            (5.0, 5.0),
+            (5.0, 5.0 + 1e-8),
+            (5.0, 5.0 + 2e-7),
+            (5.0, 4.999_999_95),
+            (0.0, 0.5),
+            (0.0, 1.5),
+            (3.0, f64::NAN),
+            (f64::INFINITY, 0.0),
+            (1e12, 0.0),
+            (4_294_967_295.0, 0.0),
+        ];
+        cases.extend((0..10_000).map(|_| (rng.f64() * 1e4, rng.f64() * 1e4)));
+        cases.extend((0..10_000).map(|_| {
+            let r = f64::from(rng.u32(0..1_000));
+            (r, r - f64::from(rng.u32(0..3)) + (rng.f64() - 0.5) * 1e-6)
+        }));
+        for (rhs, used) in cases {
+            assert_eq!(free_of(rhs, used), floor(rhs, used), "{rhs} − {used}");
+        }
     }
 
     /// The growth move `best_move_at` must give: the first of the site's moves that fits
