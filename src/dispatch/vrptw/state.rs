@@ -189,15 +189,13 @@ impl<'a> State<'a> {
     }
 
     /// A floor under the penalty (or infinite: no vehicle may drive it) of any vehicle
-    /// driving a route of `drive` minutes whose customers take `service` minutes, from
-    /// [`Data::warp_floor`]. O(1).
+    /// driving a route of `drive` minutes whose customers take `service` minutes: the
+    /// penalty rule of [`State::route_pen`] applied to [`Data::warp_floor`], a warp within
+    /// the tolerance counting as none as in [`Data::lateness`]. O(1).
     pub(super) fn pen_floor(&self, drive: f64, service: f64) -> f64 {
         let floor = self.data.warp_floor(drive, service);
-        if floor > FEAS_EPS {
-            self.tw_weight * floor
-        } else {
-            0.0
-        }
+        let late = if floor > FEAS_EPS { floor } else { 0.0 };
+        self.weigh(late).unwrap_or(f64::INFINITY)
     }
 
     /// Penalty of route r as it stands (0 when it fits its vehicle). O(1).
