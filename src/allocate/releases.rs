@@ -112,7 +112,16 @@ pub(crate) fn release_lp_start(
         let mut terms = Vec::with_capacity(options.len());
         for &(_, a, k, value) in &options {
             let kf = f64::from(k);
-            let c = m.add_column(&format!("z{}", cols.len()), 0.0, 1.0, value, false);
+            // No upper bound: the site's one-release row already holds z ≤ 1, and clarabel
+            // turns each finite bound into a row of its cone (on the 35,000-site week 20,702
+            // rows of 42,748; the LP 0.89 → 0.64 s, same optimum).
+            let c = m.add_column(
+                &format!("z{}", cols.len()),
+                0.0,
+                f64::INFINITY,
+                value,
+                false,
+            );
             cols.push((a, k));
             terms.push((c, 1.0));
             for &r in &inst.arc_res[a] {
