@@ -29,6 +29,8 @@ pub use note::{Note, NoteKind, Shortfall};
 pub use result::{Allocation, Binding, Shipment, SiteOutcome};
 
 use std::collections::BTreeSet;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
 
 use chrono::NaiveDate;
 
@@ -613,27 +615,49 @@ fn run(
         let start = from_plan.as_deref().unwrap_or(&relax.x);
         let mut x = rounding::round(&inst, start, &cand, opts.rounding_budget);
         let mut lower = objective_of(&inst, scenario, &shipments_of(&inst, &x));
-        let (bound, guides, mut descent) = bound::whole_vial_bound(
-            &inst,
-            &relax.res_dual,
-            relax.share_dual,
-            lower,
-            bound_steps(opts.bound_steps, inst.arcs.len()),
-        );
-        let bound = bound.min(sol.objective);
-        // Far from the bound: round again from the release LP (`releases.rs`), whose columns
-        // are whole releases rather than arc flows. A heuristic start: when its LP cannot be
-        // solved, the plan so far stands.
-        if !warm
-            && gap(lower, bound) > WIDEN_GAP
-            && let Ok(Some((start, _))) = releases::release_lp_start(
+        // The release LP below runs only when the plan ends more than `WIDEN_GAP` below the
+        // bound, which the bound's descent decides. When it may (the plan is that far below
+        // the LP bound, which the bound never exceeds), it starts on a thread of its own beside
+        // the descent and is stopped when the descent rules it out: the same plan, with the
+        // descent's time taken off the LP's (docs/performance.md, fifteenth session). Only
+        // with clarabel, whose solve can be stopped; with HiGHS it runs after the descent.
+        let release_lp = |stop: Option<&Arc<AtomicBool>>| {
+            releases::release_lp_start(
                 &inst,
                 &relax.res_dual,
                 relax.share_dual,
                 &cand,
                 &x,
                 opts.solver,
+                stop,
             )
+        };
+        let stop = Arc::new(AtomicBool::new(false));
+        let ((bound, guides, mut descent), early) = std::thread::scope(|scope| {
+            let early = (!warm
+                && opts.solver == model::Solver::Clarabel
+                && gap(lower, sol.objective) > WIDEN_GAP)
+                .then(|| scope.spawn(|| release_lp(Some(&stop))));
+            let descent = bound::whole_vial_bound(
+                &inst,
+                &relax.res_dual,
+                relax.share_dual,
+                lower,
+                bound_steps(opts.bound_steps, inst.arcs.len()),
+            );
+            if gap(lower, descent.0.min(sol.objective)) <= WIDEN_GAP {
+                stop.store(true, Ordering::Relaxed);
+            }
+            let early = early.map(|h| h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)));
+            (descent, early)
+        });
+        let bound = bound.min(sol.objective);
+        // Far from the bound: round again from the release LP (`releases.rs`), whose columns
+        // are whole releases rather than arc flows. A heuristic start: when its LP cannot be
+        // solved, the plan so far stands.
+        if !warm
+            && gap(lower, bound) > WIDEN_GAP
+            && let Ok(Some((start, _))) = early.unwrap_or_else(|| release_lp(None))
         {
             let x2 = rounding::round(
                 &inst,

@@ -338,6 +338,67 @@ impl LinearModel {
         })
     }
 
+    /// Solves the continuous relaxation with clarabel, as [`LinearModel::solve_relaxation`]
+    /// does, but stops between interior-point iterations once `stop` is set: `Ok(None)` then.
+    /// Only the column values come back (no duals). Until `stop` is set the steps are the
+    /// ones good_lp's `solve` takes (the same values to the last bit), so a caller may start
+    /// a solve it might not need beside other work and stop it when it proves unneeded.
+    ///
+    /// # Errors
+    /// As [`LinearModel::solve_relaxation`].
+    pub fn solve_relaxation_until(
+        &self,
+        stop: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+    ) -> Result<Option<Vec<f64>>, ModelError> {
+        use clarabel::solver::{IPSolver, SolverStatus};
+        let scale = self
+            .columns
+            .iter()
+            .map(|c| c.objective.abs())
+            .fold(0.0, f64::max);
+        let scale = if scale.is_normal() { scale } else { 1.0 };
+        let (vars, cols, objective) = self.to_good_lp(false, scale);
+        let mut problem = vars.maximise(objective).using(clarabel);
+        for r in &self.rows {
+            problem.add_constraint(self.constraint(r, &cols));
+        }
+        let mut solver = problem
+            .try_into_solver()
+            .map_err(|e| self.map_err("clarabel", e))?;
+        let stop = std::sync::Arc::clone(stop);
+        solver.set_termination_callback(move |_| stop.load(std::sync::atomic::Ordering::Relaxed));
+        solver.solve();
+        let fail = |message: &str| ModelError::Solver {
+            solver: "clarabel",
+            model: self.name.clone(),
+            message: message.to_string(),
+        };
+        // The statuses good_lp's `solve` accepts, and its errors for the others.
+        match solver.solution.status {
+            SolverStatus::Solved
+            | SolverStatus::AlmostSolved
+            | SolverStatus::AlmostDualInfeasible
+            | SolverStatus::DualInfeasible => {}
+            SolverStatus::CallbackTerminated => return Ok(None),
+            SolverStatus::PrimalInfeasible | SolverStatus::AlmostPrimalInfeasible => {
+                return Err(ModelError::Infeasible {
+                    model: self.name.clone(),
+                });
+            }
+            SolverStatus::MaxIterations => return Err(fail("Max iterations reached")),
+            SolverStatus::MaxTime => return Err(fail("Time limit reached")),
+            SolverStatus::NumericalError => return Err(fail("Numerical error")),
+            SolverStatus::InsufficientProgress => return Err(fail("No progress")),
+            SolverStatus::Unsolved => return Err(fail("Unsolved")),
+        }
+        // good_lp numbers the variables in the order they were added: the columns, in order.
+        let x = &solver.solution.x;
+        if x.len() != cols.len() {
+            return Err(fail("values for a different number of columns"));
+        }
+        Ok(Some(x.clone()))
+    }
+
     /// Adds the rows to `problem`, solves it and reads the column values and row duals.
     fn solve_dual<P>(
         &self,

@@ -14,6 +14,8 @@
 use super::instance::{Instance, arc_room, share_coef, whole_vials};
 use super::model::{LinearModel, ModelError, Sense, Solver};
 use crate::scenario::SiteKind;
+use std::sync::Arc;
+use std::sync::atomic::AtomicBool;
 
 /// Releases per candidate site in the release LP: its best ones by value less the arc LP's
 /// prices of the vials. Measured on the generated 20,000-site week at 2× supply
@@ -37,6 +39,10 @@ const MAX_VIALS_PER_RELEASE: f64 = 1_000.0;
 /// whole-vial plan (vials per arc) whose releases join the columns, so the release LP is at
 /// least as good as it.
 ///
+/// With `stop` (clarabel only), the solve ends early once `stop` is set, and the answer is
+/// then `None` too: for a caller that starts it beside other work before it knows whether it
+/// needs it.
+///
 /// Cost: O(Σ over the sites' arcs of the vials one release can hold) to build, one LP solve
 /// of about `COLUMNS_PER_SITE` columns per site.
 pub(crate) fn release_lp_start(
@@ -46,6 +52,7 @@ pub(crate) fn release_lp_start(
     cand: &[bool],
     plan: &[u32],
     solver: Solver,
+    stop: Option<&Arc<AtomicBool>>,
 ) -> Result<Option<(Vec<f64>, f64)>, ModelError> {
     // A site's benefit is concave in its week's live wasps, so with several releases allowed
     // the value of a site's releases is not the sum of each one's: not modelled here.
@@ -150,12 +157,18 @@ pub(crate) fn release_lp_start(
     if inst.share.is_some() {
         m.add_row("dooryard_share", &share_terms, Sense::Ge, 0.0);
     }
-    let solution = m.solve_relaxation_with(solver)?;
+    let values = match stop {
+        Some(stop) if solver == Solver::Clarabel => match m.solve_relaxation_until(stop)? {
+            Some(values) => values,
+            None => return Ok(None),
+        },
+        _ => m.solve_relaxation_with(solver)?.values,
+    };
     let mut x = vec![0.0; inst.arcs.len()];
-    for (&(a, k), &z) in cols.iter().zip(&solution.values) {
+    for (&(a, k), &z) in cols.iter().zip(&values) {
         x[a] += z.clamp(0.0, 1.0) * f64::from(k);
     }
-    Ok(Some((x, solution.objective)))
+    Ok(Some((x, m.objective_of(&values))))
 }
 
 #[cfg(test)]
@@ -183,7 +196,7 @@ mod tests {
         let inst = Instance::new(&s, &priority, &arcs, &AllocOptions::default()).expect("valid");
         let duals = vec![0.0; inst.resources.len()];
         let (x, objective) =
-            release_lp_start(&inst, &duals, 0.0, &[true], &[0, 0], Solver::Clarabel)
+            release_lp_start(&inst, &duals, 0.0, &[true], &[0, 0], Solver::Clarabel, None)
                 .expect("solved")
                 .expect("built");
         let on = |alive: f64| -> f64 {
@@ -218,6 +231,7 @@ mod tests {
             &cand,
             &plan,
             Solver::Clarabel,
+            None,
         )
         .expect("solved")
         .expect("built");
@@ -232,6 +246,28 @@ mod tests {
         for (r, u) in used.iter().enumerate() {
             assert!(*u <= whole_vials(inst.res_rhs[r]) + 1e-6, "row {r}: {u}");
         }
+        // A stop flag never set gives the same start to the last bit (the plan must not
+        // depend on whether the release LP was started early); a flag set before it starts
+        // gives no start.
+        let with = |stop: bool| {
+            release_lp_start(
+                &inst,
+                &relax.res_dual,
+                relax.share_dual,
+                &cand,
+                &plan,
+                Solver::Clarabel,
+                Some(&Arc::new(AtomicBool::new(stop))),
+            )
+            .expect("solved")
+        };
+        let (x2, objective2) = with(false).expect("built");
+        assert_eq!(
+            x.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
+            x2.iter().map(|v| v.to_bits()).collect::<Vec<_>>()
+        );
+        assert_eq!(objective.to_bits(), objective2.to_bits());
+        assert!(with(true).is_none());
     }
 
     #[test]
@@ -244,7 +280,7 @@ mod tests {
         let duals = vec![0.0; inst.resources.len()];
         let cand = vec![true; inst.sites.len()];
         let plan = vec![0; inst.arcs.len()];
-        let start = release_lp_start(&inst, &duals, 0.0, &cand, &plan, Solver::Clarabel);
+        let start = release_lp_start(&inst, &duals, 0.0, &cand, &plan, Solver::Clarabel, None);
         assert!(matches!(start, Ok(None)));
     }
 }
