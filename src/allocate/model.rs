@@ -350,6 +350,16 @@ impl LinearModel {
         &self,
         stop: &std::sync::Arc<std::sync::atomic::AtomicBool>,
     ) -> Result<Option<Vec<f64>>, ModelError> {
+        let stop = std::sync::Arc::clone(stop);
+        self.solve_relaxation_unless(move || stop.load(std::sync::atomic::Ordering::Relaxed))
+    }
+
+    /// [`LinearModel::solve_relaxation_until`] with the question asked of a function: once
+    /// before clarabel's setup (its ordering and first factorisation), then once an iteration.
+    fn solve_relaxation_unless(
+        &self,
+        stop: impl Fn() -> bool + Send + Sync + 'static,
+    ) -> Result<Option<Vec<f64>>, ModelError> {
         use clarabel::solver::{IPSolver, SolverStatus};
         let scale = self
             .columns
@@ -362,11 +372,13 @@ impl LinearModel {
         for r in &self.rows {
             problem.add_constraint(self.constraint(r, &cols));
         }
+        if stop() {
+            return Ok(None);
+        }
         let mut solver = problem
             .try_into_solver()
             .map_err(|e| self.map_err("clarabel", e))?;
-        let stop = std::sync::Arc::clone(stop);
-        solver.set_termination_callback(move |_| stop.load(std::sync::atomic::Ordering::Relaxed));
+        solver.set_termination_callback(move |_| stop());
         solver.solve();
         let fail = |message: &str| ModelError::Solver {
             solver: "clarabel",
@@ -537,6 +549,34 @@ mod tests {
         let s = m.solve_relaxation().expect("feasible");
         assert!((s.values[x] - 2.0).abs() < 1e-6);
         assert!((s.duals[r] + 1.0).abs() < 1e-5, "{:?}", s.duals);
+    }
+
+    /// The stoppable solve: never stopped, the values of the plain solve bit for bit; stopped
+    /// at its first iteration (the question's second asking) or before its setup, no answer.
+    #[test]
+    fn a_stoppable_solve_gives_the_plain_values_or_stops() {
+        use std::sync::Arc;
+        use std::sync::atomic::{AtomicUsize, Ordering};
+        let mut m = LinearModel::new("stop");
+        let x = m.add_column("x", 0.0, f64::INFINITY, 3.0, false);
+        let y = m.add_column("y", 0.0, f64::INFINITY, 2.0, false);
+        m.add_row("r1", &[(x, 1.0), (y, 1.0)], Sense::Le, 4.0);
+        m.add_row("r2", &[(x, 1.0), (y, 3.0)], Sense::Le, 7.0);
+        m.add_row("r3", &[(x, 1.0)], Sense::Le, 3.0);
+        let plain = m.solve_relaxation().expect("solved").values;
+        let never = m.solve_relaxation_unless(|| false).expect("solved");
+        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        assert_eq!(never.as_deref().map(bits), Some(bits(&plain)));
+        let asked = Arc::new(AtomicUsize::new(0));
+        let counter = Arc::clone(&asked);
+        let second = move || counter.fetch_add(1, Ordering::Relaxed) >= 1;
+        assert_eq!(m.solve_relaxation_unless(second).expect("no error"), None);
+        assert_eq!(
+            asked.load(Ordering::Relaxed),
+            2,
+            "asked before setup and once after"
+        );
+        assert_eq!(m.solve_relaxation_unless(|| true).expect("no error"), None);
     }
 
     /// HiGHS must hand back the conventions clarabel does: same optimum, same primal where it
