@@ -61,6 +61,10 @@ pub(super) struct Data<'a> {
     /// The longest shift of any vehicle, minutes from its start to its latest return
     /// (infinite when a vehicle's shift ends before it starts: no bound is drawn from it).
     pub(super) longest_shift: f64,
+    /// Every entry finite and d(i, j) equal to d(j, i) to the last bit (geodesic travel, where
+    /// one inverse gives both directions): reversing a stretch then leaves its drive unchanged
+    /// exactly, and the search need not sum it.
+    pub(super) symmetric: bool,
 }
 
 impl<'a> Data<'a> {
@@ -131,6 +135,12 @@ impl<'a> Data<'a> {
                 if shift >= 0.0 { shift } else { f64::INFINITY }
             })
             .fold(0.0, f64::max);
+        let symmetric = (0..n).all(|i| {
+            (0..n).all(|j| {
+                let (a, b) = (d[i * n + j], d[j * n + i]);
+                a.is_finite() && a.to_bits() == b.to_bits()
+            })
+        });
         Data {
             inst,
             n,
@@ -138,6 +148,7 @@ impl<'a> Data<'a> {
             neigh,
             kind,
             longest_shift,
+            symmetric,
         }
     }
 

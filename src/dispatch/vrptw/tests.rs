@@ -635,3 +635,53 @@ fn a_search_that_leaves_stops_out_goes_on_with_a_fresh_count() {
     assert!(all.unserved.is_empty());
     assert_eq!(search::Stall::going_on(50, &all, 30).without_best, 30);
 }
+
+#[test]
+fn a_symmetric_matrix_skips_the_reversal_sum_and_changes_no_move() {
+    // On a matrix equal to its transpose bit for bit (Euclidean here, geodesic in a plan) a
+    // reversed stretch drives exactly as far as the stretch forward, so the 2-opt inside a
+    // route skips that sum (`Data::symmetric`). Every first move and the whole descent must
+    // be those of the sum; a matrix off by one entry, or with an unreachable pair, must not
+    // count as symmetric.
+    let inst = grid_instance(30, 7, 6, 40);
+    let with = Data::new(&inst, 8);
+    assert!(with.symmetric);
+    let mut without = Data::new(&inst, 8);
+    without.symmetric = false;
+    let mut rng = fastrand::Rng::with_seed(29);
+    let mut moves = 0;
+    for _ in 0..100 {
+        let mut order: Vec<usize> = (1..=30).collect();
+        rng.shuffle(&mut order);
+        // Three long routes of random customers: long stretches to reverse.
+        let routes: Vec<(usize, Vec<usize>)> = order
+            .chunks(10)
+            .enumerate()
+            .map(|(v, nodes)| (v, nodes.to_vec()))
+            .collect();
+        let state = |data| {
+            let mut s = state::State::empty(data);
+            s.tw_weight = 1.0;
+            s.apply(state::Move(routes.clone()));
+            s
+        };
+        let (mut a, mut b) = (state(&with), state(&without));
+        for u in 1..=30 {
+            let (ma, mb) = (a.find_move(u), b.find_move(u));
+            assert_eq!(ma.as_ref().map(|m| &m.0), mb.as_ref().map(|m| &m.0), "{u}");
+            moves += usize::from(ma.is_some());
+        }
+        a.local_search(None);
+        b.local_search(None);
+        let routes =
+            |s: &state::State<'_>| s.routes.iter().map(|r| r.nodes.clone()).collect::<Vec<_>>();
+        assert_eq!(routes(&a), routes(&b));
+    }
+    assert!(moves > 100, "{moves} moves: too few");
+    let mut skewed = inst.clone();
+    skewed.minutes[3][4] += 1e-9;
+    assert!(!Data::new(&skewed, 8).symmetric);
+    let mut cut = inst.clone();
+    (cut.minutes[3][4], cut.minutes[4][3]) = (f64::INFINITY, f64::INFINITY);
+    assert!(!Data::new(&cut, 8).symmetric);
+}
