@@ -4,7 +4,7 @@
 //! `lp_bound` to 1e-6 relative, the plan must order objective ≤ bound ≤ lp_bound, and the
 //! exported model must hold the rows its columns call for (one benefit and max-release row per
 //! site with an arc, one request row per dooryard site with an arc). One more week checks that
-//! a plan whose first rounding is short ends near its bound (the release LP).
+//! a plan whose first rounding is short ends near its bound (the later roundings).
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::fs;
