@@ -310,12 +310,7 @@ impl LinearModel {
         // scouting counts) otherwise end clarabel's interior point at a point far from the
         // optimum (measured on the demo with tap counts of 0 and 1e6: an "optimum" of 568.6
         // against a whole-vial plan worth 5.3e11). The optimum and the primal are unchanged.
-        let scale = self
-            .columns
-            .iter()
-            .map(|c| c.objective.abs())
-            .fold(0.0, f64::max);
-        let scale = if scale.is_normal() { scale } else { 1.0 };
+        let scale = self.objective_scale();
         let (vars, cols, objective) = self.to_good_lp(false, scale);
         let unsolved = vars.maximise(objective);
         let (values, mut duals) = match solver {
@@ -361,12 +356,7 @@ impl LinearModel {
         stop: impl Fn() -> bool + Send + Sync + 'static,
     ) -> Result<Option<Vec<f64>>, ModelError> {
         use clarabel::solver::{IPSolver, SolverStatus};
-        let scale = self
-            .columns
-            .iter()
-            .map(|c| c.objective.abs())
-            .fold(0.0, f64::max);
-        let scale = if scale.is_normal() { scale } else { 1.0 };
+        let scale = self.objective_scale();
         let (vars, cols, objective) = self.to_good_lp(false, scale);
         let mut problem = vars.maximise(objective).using(clarabel);
         for r in &self.rows {
@@ -409,6 +399,17 @@ impl LinearModel {
             return Err(fail("values for a different number of columns"));
         }
         Ok(Some(x.clone()))
+    }
+
+    /// The objective's largest coefficient (1 when there is none or it is not a normal
+    /// number): both relaxation solves divide the objective by it.
+    fn objective_scale(&self) -> f64 {
+        let scale = self
+            .columns
+            .iter()
+            .map(|c| c.objective.abs())
+            .fold(0.0, f64::max);
+        if scale.is_normal() { scale } else { 1.0 }
     }
 
     /// Adds the rows to `problem`, solves it and reads the column values and row duals.

@@ -224,17 +224,20 @@ mod tests {
         let plan = rounding::round(&inst, &relax.x, &cand, opts.rounding_budget);
         let plan_value =
             crate::allocate::objective_of(&inst, &s, &crate::allocate::shipments_of(&inst, &plan));
-        let (x, objective) = release_lp_start(
-            &inst,
-            &relax.res_dual,
-            relax.share_dual,
-            &cand,
-            &plan,
-            Solver::Clarabel,
-            None,
-        )
-        .expect("solved")
-        .expect("built");
+        // No stop flag (None), or one already set (Some(true)) or never set (Some(false)).
+        let start = |stop: Option<bool>| {
+            release_lp_start(
+                &inst,
+                &relax.res_dual,
+                relax.share_dual,
+                &cand,
+                &plan,
+                Solver::Clarabel,
+                stop.map(|s| Arc::new(AtomicBool::new(s))).as_ref(),
+            )
+            .expect("solved")
+        };
+        let (x, objective) = start(None).expect("built");
         assert!(objective >= plan_value - 1e-6 * plan_value.abs().max(1.0));
         assert!(x.iter().any(|&v| v > 0.5), "{x:?}");
         let mut used = vec![0.0; inst.resources.len()];
@@ -249,25 +252,13 @@ mod tests {
         // A stop flag never set gives the same start to the last bit (the plan must not
         // depend on whether the release LP was started early); a flag set before it starts
         // gives no start.
-        let with = |stop: bool| {
-            release_lp_start(
-                &inst,
-                &relax.res_dual,
-                relax.share_dual,
-                &cand,
-                &plan,
-                Solver::Clarabel,
-                Some(&Arc::new(AtomicBool::new(stop))),
-            )
-            .expect("solved")
-        };
-        let (x2, objective2) = with(false).expect("built");
+        let (x2, objective2) = start(Some(false)).expect("built");
         assert_eq!(
             x.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
             x2.iter().map(|v| v.to_bits()).collect::<Vec<_>>()
         );
         assert_eq!(objective.to_bits(), objective2.to_bits());
-        assert!(with(true).is_none());
+        assert!(start(Some(true)).is_none());
     }
 
     #[test]
